@@ -1,0 +1,9 @@
+//! slackmeter: timing budgets for clocked discrete-logic machines, held against bench measurement.
+//!
+//! Module map and dependency rules: see DEVELOPERS.md.
+
+pub mod budget;
+pub mod cli;
+pub mod diag;
+pub mod report;
+pub mod units;

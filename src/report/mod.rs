@@ -1,0 +1,3 @@
+//! Human-readable and machine-readable renderings of analysis results (pure).
+
+pub mod budget;

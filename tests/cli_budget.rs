@@ -1,0 +1,166 @@
+//! The `budget` and `parts` commands run as a user runs them: real process, real files, exit codes.
+
+use std::process::Command;
+
+fn slackmeter(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(args)
+        .env("NO_COLOR", "1")
+        .output()
+        .expect("binary runs");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn demo_budget_prints_table_and_fits_its_planned_clock() {
+    let (code, out, err) = slackmeter(&["budget"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("Larkspur-8"));
+    for phase in ["low", "high", "period"] {
+        assert!(out.contains(phase));
+    }
+    assert!(out.contains("f_max"));
+    assert!(out.contains("every phase fits this budget"), "{out}");
+}
+
+#[test]
+fn json_document_has_the_stable_keys() {
+    let (code, out, err) = slackmeter(&["budget", "--json", "--freq", "1.8MHz", "--duty", "45%"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).expect("valid JSON");
+    for key in [
+        "low_required_ns",
+        "high_required_ns",
+        "period_required_ns",
+        "best_duty",
+        "fmax_best_duty_hz",
+        "fmax_50_hz",
+        "vcc_v",
+        "temp_c",
+        "corner",
+        "critical_paths",
+        "low_slack_ns",
+        "high_slack_ns",
+        "period_slack_ns",
+    ] {
+        assert!(v.get(key).is_some(), "missing {key}");
+    }
+    // the JSON numbers obey the published clock-plan formulas among themselves
+    let l = v["low_required_ns"].as_f64().unwrap();
+    let h = v["high_required_ns"].as_f64().unwrap();
+    let d = v["best_duty"].as_f64().unwrap();
+    assert!((d - h / (l + h)).abs() < 1e-12);
+    let t = 1e9 / 1.8e6;
+    assert!((v["high_slack_ns"].as_f64().unwrap() - (0.45 * t - h)).abs() < 1e-6);
+    assert_eq!(v["corner"], "max");
+    assert!(
+        v["critical_paths"]["high"]["steps"]
+            .as_array()
+            .unwrap()
+            .len()
+            >= 3
+    );
+}
+
+#[test]
+fn a_clock_that_does_not_fit_exits_with_the_margin_code() {
+    let (code, out, _) = slackmeter(&["budget", "--freq", "3 MHz"]);
+    assert_eq!(code, 3);
+    assert!(out.contains("does NOT fit"));
+}
+
+#[test]
+fn operating_point_flags_change_the_result() {
+    let (_, hot, _) = slackmeter(&["budget", "--json", "--temp", "85 °C", "--vcc", "4.5V"]);
+    let (_, cool, _) = slackmeter(&["budget", "--json", "--temp", "25C", "--vcc", "5.5 V"]);
+    let hot: serde_json::Value = serde_json::from_str(&hot).unwrap();
+    let cool: serde_json::Value = serde_json::from_str(&cool).unwrap();
+    assert!(hot["fmax_50_hz"].as_f64() < cool["fmax_50_hz"].as_f64());
+    assert_eq!(hot["temp_c"], 85.0);
+    let (code, typ, _) = slackmeter(&["budget", "--json", "--corner", "typ"]);
+    assert_eq!(code, 0);
+    let typ: serde_json::Value = serde_json::from_str(&typ).unwrap();
+    assert_eq!(typ["corner"], "typ");
+}
+
+#[test]
+fn supply_sweep_lists_fmax_and_marks_out_of_spec() {
+    let (code, out, err) = slackmeter(&["budget", "--sweep-vcc", "4.0V..5.5V", "--points", "7"]);
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(
+        out.lines()
+            .filter(|l| l.trim_start().starts_with(|c: char| c.is_ascii_digit()))
+            .count(),
+        7
+    );
+    assert!(
+        out.lines()
+            .any(|l| l.contains("4.000 V") && l.contains("OUT OF SPEC"))
+    );
+    assert!(
+        out.lines()
+            .any(|l| l.contains("5.000 V") && !l.contains("OUT OF SPEC"))
+    );
+    let (_, json, _) = slackmeter(&[
+        "budget",
+        "--sweep-vcc",
+        "4.5V..5.5V",
+        "--points",
+        "3",
+        "--json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&json).unwrap();
+    let pts = v["sweep"].as_array().unwrap();
+    assert_eq!(pts.len(), 3);
+    assert!(pts[0]["fmax_50_hz"].as_f64() < pts[2]["fmax_50_hz"].as_f64());
+}
+
+#[test]
+fn bad_input_exits_2_with_a_located_diagnostic() {
+    let dir = std::env::temp_dir().join(format!("slackmeter-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let f = dir.join("typo.toml");
+    std::fs::write(&f, "[design]\nname = \"x\"\n[operating]\nvcc = \"5 v\"\n").unwrap();
+    let (code, _, err) = slackmeter(&["budget", f.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    assert!(err.contains("typo.toml:4:7"), "{err}");
+    assert!(err.contains("case-sensitive"), "{err}");
+    let (code, _, err) = slackmeter(&["budget", "/nonexistent/design.toml"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("cannot read design file"), "{err}");
+    let (code, _, err) = slackmeter(&["budget", "--freq", "1.8 mhz"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("case-sensitive"), "{err}");
+    let (code, _, err) = slackmeter(&["budget", "--section-vcc", "attic=4.6V"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("attic"), "{err}");
+}
+
+#[test]
+fn parts_lists_the_library_with_status() {
+    let (code, out, _) = slackmeter(&["parts", "--family", "74HCT"]);
+    assert_eq!(code, 0);
+    assert!(out.contains("74HCT245"));
+    assert!(!out.contains("74LS161"));
+    let (code, out, _) = slackmeter(&["parts", "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v.as_array().unwrap().len() >= 25);
+}
+
+#[test]
+fn every_subcommand_has_help() {
+    for sub in [
+        vec!["--help"],
+        vec!["budget", "--help"],
+        vec!["parts", "--help"],
+    ] {
+        let (code, out, _) = slackmeter(&sub);
+        assert_eq!(code, 0);
+        assert!(out.contains("Usage"), "{sub:?}");
+    }
+}
