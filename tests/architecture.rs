@@ -5,14 +5,49 @@ use std::path::Path;
 
 /// module → modules it must never reach.
 const FORBIDDEN: &[(&str, &[&str])] = &[
-    ("units", &["budget", "measure", "margin", "link", "sim", "record", "report", "tui", "cli", "diag"]),
-    ("diag", &["budget", "measure", "margin", "link", "sim", "record", "report", "tui", "cli"]),
-    ("budget", &["measure", "margin", "link", "sim", "record", "report", "tui", "cli"]),
-    ("measure", &["budget", "margin", "link", "sim", "record", "report", "tui", "cli"]),
+    (
+        "units",
+        &[
+            "budget", "measure", "margin", "link", "sim", "record", "report", "tui", "cli", "diag",
+        ],
+    ),
+    (
+        "diag",
+        &[
+            "budget", "measure", "margin", "link", "sim", "record", "report", "tui", "cli",
+        ],
+    ),
+    (
+        "budget",
+        &[
+            "measure", "margin", "link", "sim", "record", "report", "tui", "cli",
+        ],
+    ),
+    (
+        "measure",
+        &[
+            "budget", "margin", "link", "sim", "record", "report", "tui", "cli",
+        ],
+    ),
     ("margin", &["link", "sim", "record", "report", "tui", "cli"]),
-    ("sim", &["link", "measure", "budget", "margin", "record", "report", "tui", "cli"]),
-    ("link", &["measure", "budget", "margin", "sim", "record", "report", "tui", "cli"]),
-    ("record", &["measure", "budget", "margin", "sim", "link", "report", "tui", "cli"]),
+    (
+        "sim",
+        &[
+            "link", "measure", "budget", "margin", "record", "report", "tui", "cli",
+        ],
+    ),
+    (
+        "link",
+        &[
+            "measure", "budget", "margin", "sim", "record", "report", "tui", "cli",
+        ],
+    ),
+    (
+        "record",
+        &[
+            "measure", "budget", "margin", "sim", "link", "report", "tui", "cli",
+        ],
+    ),
     ("report", &["link", "sim", "tui", "cli"]),
     ("tui", &["cli"]),
 ];
@@ -52,8 +87,10 @@ fn modules_depend_only_downwards() {
             for (n, line) in text.lines().enumerate() {
                 let code = line.split("//").next().unwrap_or("");
                 for f in *forbidden {
-                    if code.contains(&format!("crate::{f}::")) || code.contains(&format!("crate::{f};"))
-                        || code.contains(&format!("crate::{f}}}")) || code.contains(&format!("crate::{{{f}"))
+                    if code.contains(&format!("crate::{f}::"))
+                        || code.contains(&format!("crate::{f};"))
+                        || code.contains(&format!("crate::{f}}}"))
+                        || code.contains(&format!("crate::{{{f}"))
                     {
                         violations.push(format!("{}:{}: {module} uses {f}", file.display(), n + 1));
                     }
@@ -76,7 +113,11 @@ fn only_the_link_touches_the_serial_port_crate() {
                 stack.push(p);
             } else if p.extension().is_some_and(|x| x == "rs") && !p.starts_with(src.join("link")) {
                 let text = std::fs::read_to_string(&p).unwrap();
-                assert!(!text.contains("serialport::"), "{} uses serialport", p.display());
+                assert!(
+                    !text.contains("serialport::"),
+                    "{} uses serialport",
+                    p.display()
+                );
             }
         }
     }

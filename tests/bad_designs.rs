@@ -60,3 +60,70 @@ fn every_malformed_design_gets_its_specific_located_error() {
     }
     assert!(failures.is_empty(), "\n{}", failures.join("\n"));
 }
+
+/// Random edits of the demo design (deterministic): parsing and solving never panic, and every
+/// rejection carries a location inside the text.
+#[test]
+fn mutated_designs_never_panic() {
+    use slackmeter::budget::design::DEMO_DESIGN;
+    use slackmeter::budget::{OperatingPoint, solve};
+    use slackmeter::diag::Source;
+    let lib = Library::builtin();
+    let alphabet: Vec<char> = "[]{}=\"',.-> \n#0123456789abcxyzUV°µ".chars().collect();
+    let mut x: u64 = 0x5eed;
+    let mut rnd = |n: usize| {
+        x ^= x << 13;
+        x ^= x >> 7;
+        x ^= x << 17;
+        (x % n as u64) as usize
+    };
+    let base: Vec<char> = DEMO_DESIGN.chars().collect();
+    let (mut accepted, mut rejected) = (0, 0);
+    for _ in 0..1500 {
+        let mut text = base.clone();
+        for _ in 0..1 + rnd(4) {
+            let at = rnd(text.len());
+            match rnd(3) {
+                0 => {
+                    text.remove(at);
+                }
+                1 => text.insert(at, alphabet[rnd(alphabet.len())]),
+                _ => text[at] = alphabet[rnd(alphabet.len())],
+            }
+        }
+        let text: String = text.into_iter().collect();
+        let lines = text.lines().count() + 1;
+        match Design::parse(Source::new("mutant.toml", text), &lib) {
+            Ok(d) => {
+                accepted += 1;
+                let b = solve(&d, &lib, &OperatingPoint::of(&d), None, Some(0.4));
+                assert!(b.fmax_50_hz.is_finite() || b.period_required_ns == 0.0);
+            }
+            Err(e) => {
+                rejected += 1;
+                assert!(e.line >= 1 && e.line <= lines, "line {} of {lines}", e.line);
+                assert!(!e.message.is_empty());
+            }
+        }
+    }
+    assert!(
+        accepted > 0 && rejected > 0,
+        "{accepted} accepted, {rejected} rejected"
+    );
+}
+
+#[test]
+fn unreachable_capture_is_a_warning_not_an_error() {
+    let lib = Library::builtin();
+    let text = format!(
+        "{}\n[[arc]]\nfrom = \"island\"\nto = \"island_out\"\ndelay = {{ max = \"1 ns\" }}\n\
+[[capture]]\nname = \"nobody reaches me\"\nsignal = \"island_out\"\nedge = \"rise\"\nsetup = \"5 ns\"\n",
+        slackmeter::budget::design::DEMO_DESIGN
+    );
+    let d = Design::parse(slackmeter::diag::Source::new("t.toml", text), &lib).unwrap();
+    assert!(
+        d.warnings.iter().any(|w| w.contains("nobody reaches me")),
+        "{:?}",
+        d.warnings
+    );
+}

@@ -164,3 +164,32 @@ fn every_subcommand_has_help() {
         assert!(out.contains("Usage"), "{sub:?}");
     }
 }
+
+#[test]
+fn a_user_parts_folder_replaces_a_builtin_part() {
+    let dir = std::env::temp_dir().join(format!("slackmeter-parts-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    // a slow EEPROM grade entered by the user replaces the built-in AT28C256-20
+    std::fs::write(
+        dir.join("mine.toml"),
+        "[[part]]\ntype = \"AT28C256-20\"\nfamily = \"EEPROM\"\nfunction = \"my batch\"\n\
+source = \"bench\"\nstatus = \"from-memory\"\nload_pf = 100\nvcc_v = [5.0]\n\
+[[part.arc]]\nname = \"ADDR->D\"\nkind = \"delay\"\nmax_ns = { 25 = [300] }\n\
+[[part.arc]]\nname = \"OE->D\"\nkind = \"delay\"\nmax_ns = { 25 = [80] }\n",
+    )
+    .unwrap();
+    let (_, base, _) = slackmeter(&["budget", "--json"]);
+    let (code, mine, err) = slackmeter(&["budget", "--json", "--parts", dir.to_str().unwrap()]);
+    assert_eq!(code, 3, "slower EEPROM no longer fits 2 MHz: {err}");
+    let base: serde_json::Value = serde_json::from_str(&base).unwrap();
+    let mine: serde_json::Value = serde_json::from_str(&mine).unwrap();
+    let h0 = base["high_required_ns"].as_f64().unwrap();
+    let h1 = mine["high_required_ns"].as_f64().unwrap();
+    assert!(
+        (h1 - h0 - 100.0).abs() < 1e-6,
+        "300 ns instead of 200 ns: {h0} → {h1}"
+    );
+    let (code, _, err) = slackmeter(&["budget", "--parts", "/nonexistent/parts"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("cannot read part library"), "{err}");
+}

@@ -10,13 +10,17 @@ fn readme() -> String {
 #[test]
 fn readme_lists_every_part_with_values_from_memory() {
     let text = readme();
-    let section = text.split("### Values to verify").nth(1).expect("section present");
+    let section = text
+        .split("### Values to verify")
+        .nth(1)
+        .expect("section present");
     let lib = Library::builtin();
     let mut missing = Vec::new();
     for p in &lib.parts {
         let from_memory = p.status == Status::FromMemory
             || p.arcs.iter().any(|a| {
-                a.status == Status::FromMemory || (a.typ.is_some() && a.typ_status == Status::FromMemory)
+                a.status == Status::FromMemory
+                    || (a.typ.is_some() && a.typ_status == Status::FromMemory)
             });
         if from_memory && !section.contains(&format!("| {} |", p.type_name)) {
             missing.push(p.type_name.clone());
@@ -33,19 +37,26 @@ fn readme_opens_with_the_job_then_the_two_commands() {
     assert!(block.contains("cargo run --release -- budget"));
     assert!(block.contains("cargo test --workspace"));
     let ci = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/.ci/run")).unwrap();
-    assert!(ci.contains("cargo test --workspace"), "CI runs the README's test command");
+    assert!(
+        ci.contains("cargo test --workspace"),
+        "CI runs the README's test command"
+    );
 }
 
 #[test]
 fn design_file_doc_example_is_a_valid_design() {
-    let doc = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/docs/DESIGN-FILE.md")).unwrap();
+    let doc = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/docs/DESIGN-FILE.md"))
+        .unwrap();
     let example = doc
         .split("```toml")
         .nth(1)
         .and_then(|s| s.split("```").next())
         .expect("a toml example");
     let lib = Library::builtin();
-    let d = slackmeter::budget::Design::parse(slackmeter::diag::Source::new("doc", example.to_string()), &lib)
-        .unwrap_or_else(|e| panic!("{e:?}"));
+    let d = slackmeter::budget::Design::parse(
+        slackmeter::diag::Source::new("doc", example.to_string()),
+        &lib,
+    )
+    .unwrap_or_else(|e| panic!("{e:?}"));
     assert!(!d.captures.is_empty());
 }
