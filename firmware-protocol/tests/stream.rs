@@ -1,0 +1,274 @@
+//! The streaming decoder against published framing values and against damaged streams.
+
+use firmware_protocol::*;
+
+/// xorshift64*: a small deterministic generator for test streams.
+struct Rng(u64);
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 ^= self.0 >> 12;
+        self.0 ^= self.0 << 25;
+        self.0 ^= self.0 >> 27;
+        self.0.wrapping_mul(0x2545_F491_4F6C_DD1D)
+    }
+    fn below(&mut self, n: u64) -> u64 {
+        self.next() % n
+    }
+}
+
+fn unhex(s: &str) -> Vec<u8> {
+    (0..s.len())
+        .step_by(2)
+        .map(|i| u8::from_str_radix(&s[i..i + 2], 16).unwrap())
+        .collect()
+}
+
+fn cobs_with_delimiter(data: &[u8]) -> Vec<u8> {
+    let mut out = vec![0u8; cobs::max_encoding_length(data.len()) + 1];
+    let n = cobs::encode(data, &mut out);
+    out[n] = 0;
+    out.truncate(n + 1);
+    out
+}
+
+#[test]
+fn crc_check_values_from_the_catalogue() {
+    // Catalogue of parametrised CRC algorithms (REFERENCES.md §7): CRC-32/ISO-HDLC check 0xCBF43926.
+    assert_eq!(crc32(b"123456789"), 0xCBF4_3926);
+    // and the empty message (init 0xFFFFFFFF, xorout 0xFFFFFFFF → 0)
+    assert_eq!(crc32(b""), 0);
+}
+
+#[test]
+fn cobs_examples_from_the_paper() {
+    // Cheshire & Baker, IEEE/ACM Trans. Networking 1999, examples as in REFERENCES.md §7.
+    let cases: &[(&str, &str)] = &[
+        ("00", "010100"),
+        ("0000", "01010100"),
+        ("001100", "0102110100"),
+        ("11220033", "031122023300"),
+        ("11223344", "051122334400"),
+        ("11000000", "021101010100"),
+    ];
+    for (raw, enc) in cases {
+        assert_eq!(cobs_with_delimiter(&unhex(raw)), unhex(enc), "{raw}");
+    }
+    let run: Vec<u8> = (1..=0xFE).collect();
+    let mut want = vec![0xFF];
+    want.extend(&run);
+    want.push(0);
+    assert_eq!(cobs_with_delimiter(&run), want, "254 bytes 01..FE");
+    let mut run0 = vec![0u8];
+    run0.extend(1..=0xFEu8);
+    let mut want0 = vec![0x01, 0xFF];
+    want0.extend(1..=0xFEu8);
+    want0.push(0);
+    assert_eq!(cobs_with_delimiter(&run0), want0, "255 bytes 00 01..FE");
+    // maximum overhead ⌈n/254⌉ (at least 1), plus our delimiter
+    for n in [0usize, 1, 253, 254, 255, 1024] {
+        assert!(cobs::max_encoding_length(n) <= n + n.div_ceil(254).max(1));
+    }
+}
+
+fn vector_stream() -> Vec<u8> {
+    let text =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/vectors/messages.vec"))
+            .unwrap();
+    let mut s = vec![0x55, 0xAA, 0x13]; // garbage before the first delimiter
+    s.push(0);
+    for line in text.lines() {
+        if let Some(w) = line.strip_prefix("wire ") {
+            s.extend(unhex(w));
+        }
+    }
+    s
+}
+
+fn decode_all(chunks: &[&[u8]]) -> (Vec<(u8, u16, Vec<u8>)>, Counters) {
+    let mut d = StreamDecoder::new();
+    let mut got = Vec::new();
+    for c in chunks {
+        d.push(c, |f| {
+            got.push((f.header.msg_type, f.header.seq, f.body.to_vec()))
+        });
+    }
+    (got, d.counters)
+}
+
+#[test]
+fn stream_split_at_every_byte_boundary_gives_the_same_frames() {
+    let s = vector_stream();
+    let (whole, counters) = decode_all(&[&s]);
+    assert_eq!(whole.len(), 16);
+    assert_eq!(
+        counters.cobs_errors + counters.runts,
+        1,
+        "the garbage prefix is one bad frame"
+    );
+    for cut in 0..=s.len() {
+        let (a, b) = s.split_at(cut);
+        let (got, c) = decode_all(&[a, b]);
+        assert_eq!(got, whole, "cut at {cut}");
+        assert_eq!(c, counters, "cut at {cut}");
+    }
+}
+
+#[test]
+fn stream_in_random_chunkings_gives_the_same_frames() {
+    let s = vector_stream();
+    let (whole, counters) = decode_all(&[&s]);
+    let mut rng = Rng(0x1234_5678_9abc_def1);
+    for _ in 0..2000 {
+        let mut chunks = Vec::new();
+        let mut i = 0;
+        while i < s.len() {
+            let n = 1 + rng.below(40) as usize;
+            let j = (i + n).min(s.len());
+            chunks.push(&s[i..j]);
+            i = j;
+        }
+        let (got, c) = decode_all(&chunks);
+        assert_eq!(got, whole);
+        assert_eq!(c, counters);
+    }
+}
+
+#[test]
+fn oversized_runs_are_skipped_and_memory_stays_one_frame() {
+    let mut d = StreamDecoder::new();
+    let mut n = 0;
+    let junk = vec![0x42u8; 100_000];
+    d.push(&junk, |_| n += 1);
+    d.push(&[0], |_| n += 1);
+    let mut wire = [0u8; MAX_WIRE];
+    let len = encode_message(&Message::Ping(5), 0, &mut wire).unwrap();
+    d.push(&wire[..len], |_| n += 1);
+    assert_eq!(n, 1);
+    assert_eq!(d.counters.oversized, 1);
+    assert!(std::mem::size_of::<StreamDecoder>() < 2 * MAX_WIRE);
+}
+
+#[test]
+fn sequence_gaps_are_counted_and_hello_restarts_them() {
+    let mut d = StreamDecoder::new();
+    let mut wire = [0u8; MAX_WIRE];
+    for seq in [0u16, 1, 2, 5, 6, 65535, 0] {
+        let n = encode_message(&Message::Ping(1), seq, &mut wire).unwrap();
+        d.push(&wire[..n], |_| {});
+    }
+    // 2 → 5 loses 3, 4; 6 → 65535 jumps back (out of order); 65535 → 0 wraps fine
+    assert_eq!(d.counters.seq_gaps, 1);
+    assert_eq!(d.counters.lost_frames, 2);
+    assert_eq!(d.counters.seq_backwards, 1);
+    let hello = Message::Hello(Hello {
+        protocol_version: 1,
+        tick_num_hz: 1,
+        tick_den: 1,
+        timebase_ppm: 0,
+        max_edge_rate_khz: 0,
+        firmware: "x",
+        channels: Channels::List(&[]),
+    });
+    let n = encode_message(&hello, 40, &mut wire).unwrap();
+    d.push(&wire[..n], |_| {});
+    assert_eq!(d.counters.seq_gaps, 1, "HELLO is a restart, not a gap");
+}
+
+/// One million frames; about a fifth damaged by a bit flip, a dropped byte or an inserted byte.
+/// No damaged frame may be accepted, and every frame whose content survives between two
+/// delimiters must be recovered. The oracle: COBS decodes each run between 0x00 bytes on its
+/// own, so a frame is recoverable exactly when its original content bytes are still contiguous
+/// in the stream with a 0x00 (or the stream start) right before and a 0x00 right after.
+#[test]
+fn a_million_frames_with_random_damage() {
+    const N: u32 = 1_000_000;
+    let mut rng = Rng(0xfeed_beef_cafe_f00d);
+    let mut stream = Vec::with_capacity(N as usize * 40);
+    // (frame number, offset of its content in the stream, content length), content intact
+    let mut survivors: Vec<(u32, usize, usize)> = Vec::new();
+    let mut wire = [0u8; MAX_WIRE];
+    let mut damaged = 0u32;
+    for i in 0..N {
+        // body: the frame number and some bytes derived from it (zeros included)
+        let mut body = [0u8; 24];
+        body[..4].copy_from_slice(&i.to_le_bytes());
+        let len = 4 + (rng.below(20) as usize);
+        for b in &mut body[4..len] {
+            *b = (rng.below(4) as u8) * 0x55;
+        }
+        let n = encode_frame(0x02, i as u16, &body[..len], &mut wire).unwrap();
+        let content = n - 1; // without the delimiter
+        let mut f = wire[..n].to_vec();
+        let mut content_at = Some(0usize);
+        if rng.below(5) == 0 {
+            damaged += 1;
+            let at = rng.below(n as u64) as usize;
+            match rng.below(3) {
+                0 => f[at] ^= 1 << rng.below(8),
+                1 => {
+                    f.remove(at);
+                }
+                _ => f.insert(at, rng.below(256) as u8),
+            }
+            // where the original content still lies untouched, if anywhere
+            content_at = if at == content {
+                Some(0) // the delimiter itself was hit (or something inserted before it)
+            } else if at == 0 && f.len() == n + 1 {
+                Some(1) // a byte inserted in front
+            } else {
+                None
+            };
+            if let Some(o) = content_at
+                && f.get(o..o + content) != Some(&wire[..content])
+            {
+                content_at = None;
+            }
+        }
+        if let Some(o) = content_at {
+            survivors.push((i, stream.len() + o, content));
+        }
+        stream.extend_from_slice(&f);
+    }
+    let expect_ok: Vec<u32> = survivors
+        .iter()
+        .filter(|&&(_, at, len)| {
+            (at == 0 || stream[at - 1] == 0) && stream.get(at + len) == Some(&0)
+        })
+        .map(|s| s.0)
+        .collect();
+    let mut d = StreamDecoder::new();
+    let mut got = Vec::with_capacity(expect_ok.len());
+    let mut bad_content = 0;
+    for chunk in stream.chunks(4093) {
+        d.push(chunk, |f| {
+            let i = u32::from_le_bytes([f.body[0], f.body[1], f.body[2], f.body[3]]);
+            if f.header.seq != i as u16 {
+                bad_content += 1;
+            }
+            got.push(i);
+        });
+    }
+    assert_eq!(bad_content, 0, "a damaged frame was accepted");
+    if got != expect_ok {
+        let first = got.iter().zip(&expect_ok).position(|(a, b)| a != b);
+        panic!(
+            "recovered {} frames, expected {}; first difference at index {first:?}: got {:?}, expected {:?}",
+            got.len(),
+            expect_ok.len(),
+            first.map(|k| got[k]),
+            first.map(|k| expect_ok[k])
+        );
+    }
+    let rejected = d.counters.rejected();
+    println!(
+        "{N} frames, {damaged} damaged, {} recovered, {rejected} rejected runs, counters {:?}",
+        got.len(),
+        d.counters
+    );
+    assert_eq!(d.counters.frames, got.len() as u64);
+    assert!(
+        rejected >= u64::from(damaged) / 2,
+        "damage must show in the counters"
+    );
+    assert!(d.counters.lost_frames > 0);
+}
