@@ -2,7 +2,9 @@
 //! every timestamp. Run: `cargo bench --bench protocol`.
 
 use divan::counter::BytesCount;
-use firmware_protocol::{EdgeWriter, MAX_BODY, MAX_WIRE, Message, StreamDecoder, encode_frame, types};
+use firmware_protocol::{
+    EdgeWriter, MAX_BODY, MAX_WIRE, Message, StreamDecoder, encode_frame, types,
+};
 
 fn main() {
     divan::main();

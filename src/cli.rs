@@ -51,6 +51,18 @@ Quantities take SI units with or without a space: --vcc 4.75V, --freq \"1.8 MHz\
     Budget(BudgetArgs),
     /// List the part library (built-in parts plus a --parts folder).
     Parts(PartsArgs),
+    /// Run the virtual probe: the demo machine's clock, rails and lines, spoken in the probe
+    /// protocol on a pseudo-terminal, into a file or to standard output.
+    #[command(
+        after_help = "Examples:\n  slackmeter sim --pty\n  slackmeter sim --scenario sagging --pty --link /tmp/probe\n  \
+slackmeter sim --freq 1.5MHz --duty 30% --jitter 2ns --tick 8ns --rail VCC=4.9V,ripple=20mV --out run.bin --duration 5s\n  \
+slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --pty"
+    )]
+    Sim(Box<crate::cli_probe::SimArgs>),
+    /// List the serial ports this system has, with their identification.
+    Ports,
+    /// Connect to a probe (or a virtual one), show what it is and count what it sends.
+    Listen(crate::cli_probe::ListenArgs),
 }
 
 #[derive(clap::Args, Debug)]
@@ -155,6 +167,9 @@ pub fn run(cli: Cli) -> std::result::Result<i32, (i32, miette::Report)> {
     match cli.command {
         Command::Budget(a) => budget_cmd(a).map_err(input),
         Command::Parts(a) => parts_cmd(a).map(|_| EXIT_OK).map_err(input),
+        Command::Sim(a) => crate::cli_probe::sim_cmd(*a).map_err(input),
+        Command::Ports => crate::cli_probe::ports_cmd().map_err(|e| (EXIT_RUNTIME, e)),
+        Command::Listen(a) => crate::cli_probe::listen_cmd(a).map_err(|e| (EXIT_RUNTIME, e)),
     }
 }
 

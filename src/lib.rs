@@ -4,6 +4,9 @@
 
 pub mod budget;
 pub mod cli;
+pub mod cli_probe;
 pub mod diag;
+pub mod link;
 pub mod report;
+pub mod sim;
 pub mod units;

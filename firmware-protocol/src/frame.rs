@@ -160,6 +160,8 @@ pub struct Counters {
     pub lost_frames: u64,
     /// Frames whose sequence number went backwards (duplicates, reordering).
     pub seq_backwards: u64,
+    /// Version byte of the last frame rejected for its version (0: none yet).
+    pub last_bad_version: u8,
 }
 
 impl Counters {
@@ -208,6 +210,7 @@ impl StreamDecoder {
                 seq_gaps: 0,
                 lost_frames: 0,
                 seq_backwards: 0,
+                last_bad_version: 0,
             },
         }
     }
@@ -291,7 +294,10 @@ impl StreamDecoder {
                     FrameError::Crc => c.crc_errors += 1,
                     FrameError::Runt => c.runts += 1,
                     FrameError::Oversized => c.oversized += 1,
-                    FrameError::Version(_) => c.bad_version += 1,
+                    FrameError::Version(v) => {
+                        c.bad_version += 1;
+                        c.last_bad_version = v;
+                    }
                     FrameError::Cobs => c.cobs_errors += 1,
                 }
                 None

@@ -852,58 +852,56 @@ impl<'a> Message<'a> {
     }
 }
 
-/// Builds an EDGES or LINES body timestamp by timestamp, directly in the caller's buffer.
-pub struct EdgeWriter<'b> {
-    buf: &'b mut [u8],
-    len: usize,
-    count: u16,
-    last: u64,
-    limit: usize,
-}
-
 /// Fixed part of an EDGES/LINES body.
 pub const EDGES_FIXED: usize = 13;
 
-impl<'b> EdgeWriter<'b> {
-    /// Start a batch whose first edge is at `first_tick`.
-    pub fn new(
-        buf: &'b mut [u8],
+/// State of an EDGES or LINES body being built in a caller-owned buffer, timestamp by
+/// timestamp; keeps no borrow, so a sender can hold several open batches between calls.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct EdgeBatch {
+    len: usize,
+    count: u16,
+    last: u64,
+}
+
+impl EdgeBatch {
+    /// Write the fixed part into `buf` (≥ 13 bytes) for a batch whose first edge is at `first_tick`.
+    pub fn start(
+        buf: &mut [u8],
         channel: u8,
         first_rising: bool,
         flags: u8,
         first_tick: u64,
-    ) -> Self {
-        let limit = buf.len().min(MAX_BODY);
-        assert!(limit >= EDGES_FIXED, "buffer holds at least the fixed part");
+    ) -> EdgeBatch {
         buf[0] = channel;
         buf[1] = first_rising as u8;
         buf[2] = flags;
         buf[5..13].copy_from_slice(&first_tick.to_le_bytes());
-        EdgeWriter {
-            buf,
+        EdgeBatch {
             len: EDGES_FIXED,
             count: 1,
             last: first_tick,
-            limit,
         }
     }
 
-    /// Add the next timestamp; false when the batch is full (nothing was written).
-    /// Timestamps must increase strictly.
+    /// Add the next timestamp; false when the batch is full or the tick does not increase
+    /// (nothing written then).
     #[inline]
-    pub fn push(&mut self, tick: u64) -> bool {
+    pub fn push(&mut self, buf: &mut [u8], tick: u64) -> bool {
         let d = tick.wrapping_sub(self.last);
-        if self.count == u16::MAX
-            || self.len + MAX_DELTA_BYTES > self.limit
-            || d == 0
-            || d >= 1 << 63
-        {
+        let limit = buf.len().min(MAX_BODY);
+        if self.count == u16::MAX || self.len + MAX_DELTA_BYTES > limit || d == 0 || d >= 1 << 63 {
             return false;
         }
-        let mut tmp = unsigned_varint::encode::u64_buffer();
-        let enc = unsigned_varint::encode::u64(d, &mut tmp);
-        self.buf[self.len..self.len + enc.len()].copy_from_slice(enc);
-        self.len += enc.len();
+        if d < 0x80 {
+            buf[self.len] = d as u8; // one-byte LEB128: the common case
+            self.len += 1;
+        } else {
+            let mut tmp = unsigned_varint::encode::u64_buffer();
+            let enc = unsigned_varint::encode::u64(d, &mut tmp);
+            buf[self.len..self.len + enc.len()].copy_from_slice(enc);
+            self.len += enc.len();
+        }
         self.count += 1;
         self.last = tick;
         true
@@ -914,10 +912,55 @@ impl<'b> EdgeWriter<'b> {
         self.count
     }
 
+    /// Tick of the last timestamp.
+    pub fn last_tick(&self) -> u64 {
+        self.last
+    }
+
+    /// Close the batch (writes the count); returns the body length.
+    pub fn finish(self, buf: &mut [u8]) -> usize {
+        buf[3..5].copy_from_slice(&self.count.to_le_bytes());
+        self.len
+    }
+}
+
+/// Builds an EDGES or LINES body in a borrowed buffer (an [`EdgeBatch`] with its buffer).
+pub struct EdgeWriter<'b> {
+    buf: &'b mut [u8],
+    batch: EdgeBatch,
+}
+
+impl<'b> EdgeWriter<'b> {
+    /// Start a batch whose first edge is at `first_tick`.
+    pub fn new(
+        buf: &'b mut [u8],
+        channel: u8,
+        first_rising: bool,
+        flags: u8,
+        first_tick: u64,
+    ) -> Self {
+        assert!(
+            buf.len() >= EDGES_FIXED,
+            "buffer holds at least the fixed part"
+        );
+        let batch = EdgeBatch::start(buf, channel, first_rising, flags, first_tick);
+        EdgeWriter { buf, batch }
+    }
+
+    /// Add the next timestamp; false when the batch is full (nothing was written).
+    #[inline]
+    pub fn push(&mut self, tick: u64) -> bool {
+        self.batch.push(self.buf, tick)
+    }
+
+    /// Timestamps so far.
+    pub fn count(&self) -> u16 {
+        self.batch.count()
+    }
+
     /// Close the batch; returns the body length.
     pub fn finish(self) -> usize {
-        self.buf[3..5].copy_from_slice(&self.count.to_le_bytes());
-        self.len
+        self.batch.finish(self.buf)
     }
 }
 
