@@ -21,7 +21,9 @@ fn edges_in(seconds: f64, model: BenchModel) -> u64 {
 fn steady_2mhz_one_second(bencher: divan::Bencher) {
     let m = BenchModel::scenario("steady").unwrap();
     let n = edges_in(1.0, m.clone());
-    bencher.counter(ItemsCount::new(n)).bench_local(|| edges_in(1.0, divan::black_box(m.clone())));
+    bencher
+        .counter(ItemsCount::new(n))
+        .bench_local(|| edges_in(1.0, divan::black_box(m.clone())));
 }
 
 #[divan::bench]
@@ -30,5 +32,7 @@ fn jittery_8mhz_glitches_one_second(bencher: divan::Bencher) {
     m.freq_hz = 8e6;
     m.jitter_rms_ns = 2.0;
     let n = edges_in(1.0, m.clone());
-    bencher.counter(ItemsCount::new(n)).bench_local(|| edges_in(1.0, divan::black_box(m.clone())));
+    bencher
+        .counter(ItemsCount::new(n))
+        .bench_local(|| edges_in(1.0, divan::black_box(m.clone())));
 }

@@ -7,6 +7,7 @@ pub mod cli;
 pub mod cli_probe;
 pub mod diag;
 pub mod link;
+pub mod measure;
 pub mod report;
 pub mod sim;
 pub mod units;

@@ -1,0 +1,948 @@
+//! Clock statistics of one edge channel: streaming over edge timestamps (or count windows),
+//! mergeable per block, with every figure's uncertainty derived from the probe's tick.
+//!
+//! Uncertainties are expanded (k = 2, about 95 %). Minimum/maximum times are bounds: a time
+//! between two stamps is known to ±1 tick. Quantisation (Widrow, Kollár & Liu, IEEE Trans.
+//! Instrum. Meas. 45(2), 1996): q²/12 per stamp and q²/6 per period at random phase; a steady
+//! clock commensurate with the tick gives two period readings, σ = q·√(p(1−p)).
+
+use serde::Serialize;
+
+use super::allan::AllanStream;
+use super::stats::{DevHistogram, IntStats};
+
+/// Settings of the clock statistics.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ClockConfig {
+    /// A pulse shorter than this fraction of the typical phase of its polarity is a glitch.
+    pub glitch_fraction: f64,
+    /// Or an absolute glitch threshold in ns (overrides the fraction).
+    pub glitch_ns: Option<f64>,
+    /// No edge for more than this many nominal periods is a stall.
+    pub stall_periods: f64,
+    /// Cycle counts N of the N-cycle error.
+    pub n_cycles: [u32; 2],
+    /// Cycles per detrended TIE record.
+    pub tie_record: usize,
+    /// Spacing of the phase samples for the Allan deviation.
+    pub allan_tau0_s: f64,
+    /// Events kept per list.
+    pub max_events: usize,
+}
+
+impl Default for ClockConfig {
+    fn default() -> Self {
+        ClockConfig {
+            glitch_fraction: 0.3,
+            glitch_ns: None,
+            stall_periods: 4.0,
+            n_cycles: [10, 100],
+            tie_record: 1024,
+            allan_tau0_s: 1e-3,
+            max_events: 1000,
+        }
+    }
+}
+
+/// A short pulse: a double-clocking risk.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Glitch {
+    /// Probe time of its first edge, s.
+    pub at_s: f64,
+    /// true: a high pulse (inside a low phase); false: a low pulse.
+    pub high: bool,
+    /// Width, ns.
+    pub width_ns: f64,
+}
+
+/// The clock stopped.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Stall {
+    /// Probe time of the last edge before the gap, s.
+    pub at_s: f64,
+    /// Length of the gap, ns.
+    pub gap_ns: f64,
+}
+
+/// Least-squares sums for the TIE fit: u_k = t_k − t0 − k·T_ref over rising edges k.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct FitSums {
+    n: i128,
+    sk: i128,
+    skk: i128,
+    su: i128,
+    sku: i128,
+    suu: i128,
+}
+
+impl FitSums {
+    fn add(&mut self, k: i128, u: i128) {
+        self.n += 1;
+        self.sk += k;
+        self.skk += k * k;
+        self.su += u;
+        self.sku += k * u;
+        self.suu += u * u;
+    }
+    fn merge(&mut self, o: &FitSums) {
+        self.n += o.n;
+        self.sk += o.sk;
+        self.skk += o.skk;
+        self.su += o.su;
+        self.sku += o.sku;
+        self.suu += o.suu;
+    }
+    /// RMS residual (ticks) against the least-squares line.
+    fn residual_rms(&self) -> Option<f64> {
+        if self.n < 3 {
+            return None;
+        }
+        let n = self.n as f64;
+        let sxx = (self.n * self.skk - self.sk * self.sk) as f64 / n;
+        let sxy = (self.n * self.sku - self.sk * self.su) as f64 / n;
+        let syy = (self.n * self.suu - self.su * self.su) as f64 / n;
+        if sxx <= 0.0 {
+            return None;
+        }
+        Some(((syy - sxy * sxy / sxx).max(0.0) / n).sqrt())
+    }
+}
+
+/// One block's worth of clock statistics (mergeable).
+#[derive(Clone, Debug, PartialEq)]
+pub struct ClockAcc {
+    /// Rising-to-rising periods (ticks).
+    pub period: IntStats,
+    /// High times.
+    pub high: IntStats,
+    /// Low times.
+    pub low: IntStats,
+    /// Adjacent period differences.
+    pub c2c: IntStats,
+    /// Histograms.
+    pub hist_period: DevHistogram,
+    /// High-time histogram.
+    pub hist_high: DevHistogram,
+    /// Low-time histogram.
+    pub hist_low: DevHistogram,
+    fit: FitSums,
+    tie_rec_max_pkpk: f64,
+    tie_rec_ss: f64,
+    tie_rec_n: u64,
+    ncycle: [IntStats; 2],
+    /// Edges seen (including glitch edges).
+    pub edges: u64,
+    /// Glitches.
+    pub glitches: u64,
+    /// Stalls.
+    pub stalls: u64,
+    /// Contiguous runs of periods (each gap, loss or glitch starts a new one).
+    pub runs: u64,
+    /// First and last tick seen.
+    pub span: Option<(u64, u64)>,
+    // count windows (when the probe only counts)
+    count_edges: u64,
+    count_ticks: u64,
+    count_windows: u64,
+    count_reciprocal: bool,
+    samples: u64,
+    samples_high: u64,
+}
+
+impl ClockAcc {
+    fn new(origin: i64, ref_high: i64, ref_low: i64) -> ClockAcc {
+        ClockAcc {
+            period: IntStats::new(origin),
+            high: IntStats::new(ref_high),
+            low: IntStats::new(ref_low),
+            c2c: IntStats::new(0),
+            hist_period: DevHistogram::new(origin),
+            hist_high: DevHistogram::new(ref_high),
+            hist_low: DevHistogram::new(ref_low),
+            fit: FitSums::default(),
+            tie_rec_max_pkpk: 0.0,
+            tie_rec_ss: 0.0,
+            tie_rec_n: 0,
+            ncycle: [IntStats::new(0), IntStats::new(0)],
+            edges: 0,
+            glitches: 0,
+            stalls: 0,
+            runs: 0,
+            span: None,
+            count_edges: 0,
+            count_ticks: 0,
+            count_windows: 0,
+            count_reciprocal: false,
+            samples: 0,
+            samples_high: 0,
+        }
+    }
+
+    /// Fold a later block into this one.
+    pub fn merge(&mut self, o: &ClockAcc) {
+        self.period.merge(&o.period);
+        self.high.merge(&o.high);
+        self.low.merge(&o.low);
+        self.c2c.merge(&o.c2c);
+        self.hist_period.merge(&o.hist_period);
+        self.hist_high.merge(&o.hist_high);
+        self.hist_low.merge(&o.hist_low);
+        self.fit.merge(&o.fit);
+        self.tie_rec_max_pkpk = self.tie_rec_max_pkpk.max(o.tie_rec_max_pkpk);
+        self.tie_rec_ss += o.tie_rec_ss;
+        self.tie_rec_n += o.tie_rec_n;
+        for i in 0..2 {
+            self.ncycle[i].merge(&o.ncycle[i]);
+        }
+        self.edges += o.edges;
+        self.glitches += o.glitches;
+        self.stalls += o.stalls;
+        self.runs += o.runs;
+        self.span = match (self.span, o.span) {
+            (Some(a), Some(b)) => Some((a.0.min(b.0), a.1.max(b.1))),
+            (a, b) => a.or(b),
+        };
+        self.count_edges += o.count_edges;
+        self.count_ticks += o.count_ticks;
+        self.count_windows += o.count_windows;
+        self.count_reciprocal |= o.count_reciprocal;
+        self.samples += o.samples;
+        self.samples_high += o.samples_high;
+    }
+}
+
+/// Edge processing state of one channel (continuity, references, look-behind).
+#[derive(Clone, Debug)]
+pub struct ClockState {
+    /// Settings.
+    pub cfg: ClockConfig,
+    tick_ns: f64,
+    /// Reference values fixed at the first cycle (origins of all sums).
+    refs: Option<(i64, i64, i64)>,
+    pending: Option<(u64, bool)>,
+    last_rise: Option<u64>,
+    last_fall: Option<u64>,
+    last_edge: Option<u64>,
+    prev_period: Option<i64>,
+    /// Tick and ideal-cycle index of the last committed rise (kept across gaps).
+    anchor: Option<(u64, u64)>,
+    fit_origin: Option<(u64, u64)>,
+    ring: Vec<u64>,
+    ring_next: usize,
+    ring_len: usize,
+    record: Vec<u64>,
+    typ_high: f64,
+    typ_low: f64,
+    typ_period: f64,
+    allan: Option<AllanStream>,
+    allan_every: u64,
+    /// The current block.
+    pub acc: Option<ClockAcc>,
+    /// Recent glitches.
+    pub glitch_events: Vec<Glitch>,
+    /// Recent stalls.
+    pub stall_events: Vec<Stall>,
+}
+
+impl ClockState {
+    /// A channel with a tick of `tick_ns`.
+    pub fn new(cfg: ClockConfig, tick_ns: f64) -> ClockState {
+        ClockState {
+            ring: vec![0; cfg.n_cycles[1] as usize + 1],
+            record: Vec::with_capacity(cfg.tie_record),
+            cfg,
+            tick_ns,
+            refs: None,
+            pending: None,
+            last_rise: None,
+            last_fall: None,
+            last_edge: None,
+            prev_period: None,
+            anchor: None,
+            fit_origin: None,
+            ring_next: 0,
+            ring_len: 0,
+            typ_high: 0.0,
+            typ_low: 0.0,
+            typ_period: 0.0,
+            allan: None,
+            allan_every: 1,
+            acc: None,
+            glitch_events: Vec::new(),
+            stall_events: Vec::new(),
+        }
+    }
+
+    /// Tick length.
+    pub fn tick_ns(&self) -> f64 {
+        self.tick_ns
+    }
+
+    /// The reference values (period, high, low in ticks) once the first cycle is seen.
+    pub fn refs(&self) -> Option<(i64, i64, i64)> {
+        self.refs
+    }
+
+    /// An empty block with this channel's references (None before the first cycle).
+    pub fn empty_acc(&self) -> Option<ClockAcc> {
+        self.refs.map(|(p, h, l)| ClockAcc::new(p, h, l))
+    }
+
+    /// The Allan estimator (session-wide).
+    pub fn allan(&self) -> Option<&AllanStream> {
+        self.allan.as_ref()
+    }
+
+    /// Continuity is broken (data lost, new connection): no interval spans the break.
+    pub fn break_continuity(&mut self) {
+        self.pending = None;
+        self.last_rise = None;
+        self.last_fall = None;
+        self.last_edge = None;
+        self.prev_period = None;
+        self.ring_len = 0;
+        self.record.clear();
+    }
+
+    fn ensure_acc(&mut self, first_period: Option<i64>) -> Option<&mut ClockAcc> {
+        if self.acc.is_none() {
+            if self.refs.is_none() {
+                let p = first_period?;
+                let (h, l) = (p / 2, p - p / 2);
+                self.refs = Some((p, h.max(1), l.max(1)));
+                self.typ_period = p as f64;
+            }
+            self.acc = self.empty_acc();
+        }
+        self.acc.as_mut()
+    }
+
+    fn glitch_threshold(&self, high_pulse: bool) -> f64 {
+        if let Some(ns) = self.cfg.glitch_ns {
+            return ns / self.tick_ns;
+        }
+        let typ = if high_pulse {
+            self.typ_high
+        } else {
+            self.typ_low
+        };
+        self.cfg.glitch_fraction * typ
+    }
+
+    /// One edge (ticks strictly increasing, polarities alternating).
+    #[inline]
+    pub fn edge(&mut self, tick: u64, rising: bool) {
+        if let Some(a) = self.acc.as_mut() {
+            a.edges += 1;
+            a.span = Some(a.span.map_or((tick, tick), |(s, _)| (s, tick)));
+        }
+        let Some((pt, pr)) = self.pending else {
+            self.pending = Some((tick, rising));
+            return;
+        };
+        if pr == rising {
+            // polarity broken (an edge went missing): restart continuity here
+            self.break_continuity();
+            self.pending = Some((tick, rising));
+            return;
+        }
+        let width = tick.saturating_sub(pt) as f64;
+        if width < self.glitch_threshold(pr) {
+            // a short pulse: set both edges aside, the phase goes on
+            let g = Glitch {
+                at_s: pt as f64 * self.tick_ns * 1e-9,
+                high: pr,
+                width_ns: width * self.tick_ns,
+            };
+            if self.glitch_events.len() < self.cfg.max_events {
+                self.glitch_events.push(g);
+            }
+            if let Some(a) = self.acc.as_mut() {
+                a.glitches += 1;
+            }
+            self.pending = None;
+            return;
+        }
+        self.commit(pt, pr);
+        self.pending = Some((tick, rising));
+    }
+
+    fn commit(&mut self, t: u64, rising: bool) {
+        if let (Some(last), true) = (self.last_edge, self.typ_period > 0.0)
+            && (t - last) as f64 > self.cfg.stall_periods * self.typ_period
+        {
+            let s = Stall {
+                at_s: last as f64 * self.tick_ns * 1e-9,
+                gap_ns: (t - last) as f64 * self.tick_ns,
+            };
+            if self.stall_events.len() < self.cfg.max_events {
+                self.stall_events.push(s);
+            }
+            if let Some(a) = self.acc.as_mut() {
+                a.stalls += 1;
+            }
+            self.break_continuity();
+        }
+        self.last_edge = Some(t);
+        if rising {
+            let period = self.last_rise.map(|r| (t - r) as i64);
+            let low = match (self.last_rise, self.last_fall) {
+                (Some(r), Some(f)) if f > r => Some((t - f) as i64),
+                (None, Some(f)) => Some((t - f) as i64),
+                _ => None,
+            };
+            // this rise's index on the ideal clock: +1 per period, whole cycles across a gap
+            let idx = match (self.last_rise, self.anchor) {
+                (Some(_), Some((_, k))) => k + 1,
+                (None, Some((at, k))) if self.typ_period > 0.0 => {
+                    k + ((t - at) as f64 / self.typ_period).round().max(1.0) as u64
+                }
+                (None, Some((_, k))) => k + 1,
+                (_, None) => 0,
+            };
+            self.last_rise = Some(t);
+            self.anchor = Some((t, idx));
+            if self.ensure_acc(period).is_none() {
+                return;
+            }
+            if let Some(l) = low {
+                self.typ_low = ema(self.typ_low, l as f64);
+                let a = self.acc.as_mut().expect("block exists");
+                a.low.add(l, t, idx);
+                a.hist_low.record(l);
+            }
+            match period {
+                Some(p) => self.on_period(t, p, idx),
+                None => {
+                    if let Some(a) = self.acc.as_mut() {
+                        a.runs += 1;
+                    }
+                }
+            }
+        } else {
+            if let Some(r) = self.last_rise {
+                let h = (t - r) as i64;
+                self.typ_high = ema(self.typ_high, h as f64);
+                let idx = self.anchor.map_or(0, |a| a.1);
+                if self.ensure_acc(None).is_some() {
+                    let a = self.acc.as_mut().expect("block exists");
+                    a.high.add(h, t, idx);
+                    a.hist_high.record(h);
+                }
+            }
+            self.last_fall = Some(t);
+        }
+    }
+
+    /// A period ending with the rise at `t`, whose ideal-cycle index is `idx` (the opening rise
+    /// has `idx − 1`).
+    fn on_period(&mut self, t: u64, p: i64, idx: u64) {
+        let k = idx - 1;
+        let (pref, _, _) = self.refs.expect("refs set with the first period");
+        if (p as f64) < 2.0 * self.typ_period && (p as f64) > 0.5 * self.typ_period {
+            self.typ_period = ema(self.typ_period, p as f64);
+        }
+        let prev = self.prev_period.replace(p);
+        // phase of this rising edge against the session's reference clock; the first period
+        // also brings its opening edge into the fit
+        let first_fit = self.fit_origin.is_none();
+        let (k0, t0) = *self.fit_origin.get_or_insert((k, t - p as u64));
+        let kk = (k + 1 - k0) as i128;
+        let u = t as i128 - t0 as i128 - kk * i128::from(pref);
+        // N-cycle error: the ring holds the last rising edges of this run
+        let ring_cap = self.ring.len();
+        if self.ring_len == 0 {
+            self.ring[self.ring_next] = t - p as u64;
+            self.ring_next = (self.ring_next + 1) % ring_cap;
+            self.ring_len = 1;
+        }
+        self.ring[self.ring_next] = t;
+        self.ring_next = (self.ring_next + 1) % ring_cap;
+        self.ring_len = (self.ring_len + 1).min(ring_cap);
+        let mut ncyc = [None, None];
+        for (i, &n) in self.cfg.n_cycles.iter().enumerate() {
+            let n = n as usize;
+            if self.ring_len > n {
+                let back = self.ring[(self.ring_next + ring_cap - 1 - n) % ring_cap];
+                ncyc[i] = Some((t - back) as i64 - n as i64 * pref);
+            }
+        }
+        // detrended TIE record
+        self.record.push(t);
+        let record_done = self.record.len() >= self.cfg.tie_record;
+        let rec = if record_done {
+            Some(tie_record_pkpk(&self.record))
+        } else {
+            None
+        };
+        if record_done {
+            self.record.clear();
+        }
+        // Allan phase samples every `allan_every` cycles
+        if self.allan.is_none() {
+            let period_s = p as f64 * self.tick_ns * 1e-9;
+            self.allan_every = ((self.cfg.allan_tau0_s / period_s).round() as u64).max(1);
+            self.allan = Some(AllanStream::new(
+                self.allan_every as f64 * pref as f64 * self.tick_ns * 1e-9,
+            ));
+        }
+        let every = self.allan_every;
+        let a = self.acc.as_mut().expect("block exists");
+        a.period.add(p, t, idx);
+        a.hist_period.record(p);
+        if let Some(pp) = prev {
+            a.c2c.add(p - pp, t, idx);
+        } else {
+            a.runs += 1;
+        }
+        if first_fit {
+            a.fit.add(0, 0);
+        }
+        a.fit.add(kk, u);
+        for (i, v) in ncyc.iter().enumerate() {
+            if let Some(v) = v {
+                a.ncycle[i].add(*v, t, idx);
+            }
+        }
+        if let Some((pkpk, ss, n)) = rec {
+            a.tie_rec_max_pkpk = a.tie_rec_max_pkpk.max(pkpk);
+            a.tie_rec_ss += ss;
+            a.tie_rec_n += n;
+        }
+        if kk as u64 % every == 0
+            && let Some(al) = self.allan.as_mut()
+        {
+            al.push(u as f64 * self.tick_ns);
+        }
+    }
+
+    /// A count window (for probes that cannot stamp every edge).
+    pub fn count_window(
+        &mut self,
+        reciprocal: bool,
+        gate_ticks: u32,
+        edges: u32,
+        samples: u32,
+        samples_high: u32,
+    ) {
+        if self.acc.is_none() {
+            // references from the counted frequency, so blocks can merge
+            let p = if edges > 0 {
+                (f64::from(gate_ticks) / f64::from(edges)).round().max(1.0) as i64
+            } else {
+                1
+            };
+            if self.refs.is_none() {
+                self.refs = Some((p, (p / 2).max(1), (p - p / 2).max(1)));
+            }
+            self.acc = self.empty_acc();
+        }
+        let a = self.acc.as_mut().expect("block exists");
+        a.count_edges += u64::from(edges);
+        a.count_ticks += u64::from(gate_ticks);
+        a.count_windows += 1;
+        a.count_reciprocal |= reciprocal;
+        a.samples += u64::from(samples);
+        a.samples_high += u64::from(samples_high);
+    }
+}
+
+fn ema(prev: f64, x: f64) -> f64 {
+    if prev == 0.0 {
+        x
+    } else {
+        prev + (x - prev) / 64.0
+    }
+}
+
+/// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
+/// line (a detrended TIE record), in ticks.
+fn tie_record_pkpk(t: &[u64]) -> (f64, f64, u64) {
+    let n = t.len() as f64;
+    let t0 = t[0] as f64;
+    let (mut sk, mut skk, mut su, mut sku) = (0.0, 0.0, 0.0, 0.0);
+    for (k, &ti) in t.iter().enumerate() {
+        let k = k as f64;
+        let u = ti as f64 - t0;
+        sk += k;
+        skk += k * k;
+        su += u;
+        sku += k * u;
+    }
+    let b = (n * sku - sk * su) / (n * skk - sk * sk);
+    let a = (su - b * sk) / n;
+    let (mut lo, mut hi, mut ss) = (f64::INFINITY, f64::NEG_INFINITY, 0.0);
+    for (k, &ti) in t.iter().enumerate() {
+        let r = ti as f64 - t0 - a - b * k as f64;
+        lo = lo.min(r);
+        hi = hi.max(r);
+        ss += r * r;
+    }
+    (hi - lo, ss, t.len() as u64)
+}
+
+/// A figure the probe could not observe, and why.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Unavailable {
+    /// Which figure.
+    pub figure: String,
+    /// Why.
+    pub reason: String,
+}
+
+/// Percentiles of a time distribution, ns.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Percentiles {
+    /// 0.1 %.
+    pub p0_1: f64,
+    /// 1 %.
+    pub p1: f64,
+    /// Median.
+    pub p50: f64,
+    /// 99 %.
+    pub p99: f64,
+    /// 99.9 %.
+    pub p99_9: f64,
+}
+
+/// N-cycle error figures.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct NCycle {
+    /// N.
+    pub n: u32,
+    /// RMS of (t(k+N) − t(k)) − N·T, ns.
+    pub rms_ns: f64,
+    /// Largest |·|, ns.
+    pub max_abs_ns: f64,
+}
+
+/// An Allan deviation point.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct AllanPoint {
+    /// τ, s.
+    pub tau_s: f64,
+    /// Overlapping Allan deviation (fractional frequency).
+    pub adev: f64,
+    /// Terms in the estimate.
+    pub terms: u64,
+}
+
+/// The measured clock of one channel. Uncertainties are expanded (k = 2).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ClockSnapshot {
+    /// Channel id.
+    pub channel: u8,
+    /// Its label.
+    pub label: String,
+    /// "edge timestamps" or "count windows".
+    pub method: String,
+    /// Probe tick: the resolution of every single time, ns.
+    pub resolution_ns: f64,
+    /// Edges seen.
+    pub edges: u64,
+    /// Complete periods measured.
+    pub cycles: u64,
+    /// Frequency (reciprocal counting: measured periods over their total time).
+    pub frequency_hz: Option<f64>,
+    /// Its uncertainty (resolution and jitter; k = 2).
+    pub frequency_uncertainty_hz: Option<f64>,
+    /// Timebase accuracy the probe states (separate from resolution), Hz.
+    pub frequency_accuracy_hz: Option<f64>,
+    /// Mean period.
+    pub period_mean_ns: Option<f64>,
+    /// Shortest period.
+    pub period_min_ns: Option<f64>,
+    /// Longest period.
+    pub period_max_ns: Option<f64>,
+    /// Mean high time.
+    pub high_mean_ns: Option<f64>,
+    /// Shortest high time (the worst cycle; ± one tick).
+    pub high_min_ns: Option<f64>,
+    /// When it happened, s of probe time.
+    pub high_min_at_s: Option<f64>,
+    /// Which cycle.
+    pub high_min_cycle: Option<u64>,
+    /// Longest high time.
+    pub high_max_ns: Option<f64>,
+    /// Mean low time.
+    pub low_mean_ns: Option<f64>,
+    /// Shortest low time (the worst cycle; ± one tick).
+    pub low_min_ns: Option<f64>,
+    /// When it happened.
+    pub low_min_at_s: Option<f64>,
+    /// Which cycle.
+    pub low_min_cycle: Option<u64>,
+    /// Longest low time.
+    pub low_max_ns: Option<f64>,
+    /// Duty cycle: mean high / mean period.
+    pub duty: Option<f64>,
+    /// Its uncertainty (k = 2).
+    pub duty_uncertainty: Option<f64>,
+    /// Statistical duty from level samples, with its Wilson 95 % interval.
+    pub duty_sampled: Option<(f64, f64, f64)>,
+    /// Period jitter RMS as measured (sample standard deviation of periods).
+    pub period_jitter_rms_ns: Option<f64>,
+    /// Period jitter RMS, population form (÷N).
+    pub period_jitter_rms_pop_ns: Option<f64>,
+    /// Quantisation floor of period jitter at random phase: q/√6.
+    pub period_jitter_floor_ns: f64,
+    /// True when the measured jitter is explained by quantisation alone (below resolution).
+    pub period_jitter_below_resolution: bool,
+    /// De-biased estimate √(s² − q²/6), labelled as such.
+    pub period_jitter_debiased_ns: Option<f64>,
+    /// Uncertainty of the jitter estimate (k = 2).
+    pub period_jitter_uncertainty_ns: Option<f64>,
+    /// Period peak to peak.
+    pub period_jitter_pkpk_ns: Option<f64>,
+    /// Periods in the jitter figures.
+    pub period_jitter_n: u64,
+    /// Cycle-to-cycle jitter RMS (adjacent period differences).
+    pub cycle_to_cycle_rms_ns: Option<f64>,
+    /// Largest |adjacent period difference|.
+    pub cycle_to_cycle_max_ns: Option<f64>,
+    /// Quantisation floor of cycle-to-cycle jitter at random phase: q/√2.
+    pub cycle_to_cycle_floor_ns: f64,
+    /// TIE RMS against a least-squares ideal clock over the window.
+    pub tie_rms_ns: Option<f64>,
+    /// Largest TIE peak to peak within detrended records.
+    pub tie_pkpk_ns: Option<f64>,
+    /// Cycles per TIE record.
+    pub tie_record_cycles: usize,
+    /// N-cycle error.
+    pub n_cycle: Vec<NCycle>,
+    /// Overlapping Allan deviation (session).
+    pub allan: Vec<AllanPoint>,
+    /// Period percentiles.
+    pub period_percentiles: Option<Percentiles>,
+    /// High-time percentiles.
+    pub high_percentiles: Option<Percentiles>,
+    /// Low-time percentiles.
+    pub low_percentiles: Option<Percentiles>,
+    /// Glitches counted.
+    pub glitches: u64,
+    /// Stalls counted.
+    pub stalls: u64,
+    /// Figures the probe cannot observe, and why.
+    pub unavailable: Vec<Unavailable>,
+}
+
+fn percentiles(h: &DevHistogram, q: f64) -> Option<Percentiles> {
+    let at = |p: f64| h.quantile(p).map(|v| v as f64 * q);
+    Some(Percentiles {
+        p0_1: at(0.001)?,
+        p1: at(0.01)?,
+        p50: at(0.5)?,
+        p99: at(0.99)?,
+        p99_9: at(0.999)?,
+    })
+}
+
+/// Figures of one channel from a merged block (and the session's Allan estimator).
+pub fn snapshot(
+    channel: u8,
+    label: &str,
+    acc: Option<&ClockAcc>,
+    state: &ClockState,
+    timebase_ppm: u16,
+    with_allan: bool,
+) -> ClockSnapshot {
+    let q = state.tick_ns;
+    let floor = q / 6f64.sqrt();
+    let mut s = ClockSnapshot {
+        channel,
+        label: label.to_string(),
+        method: "edge timestamps".into(),
+        resolution_ns: q,
+        edges: 0,
+        cycles: 0,
+        frequency_hz: None,
+        frequency_uncertainty_hz: None,
+        frequency_accuracy_hz: None,
+        period_mean_ns: None,
+        period_min_ns: None,
+        period_max_ns: None,
+        high_mean_ns: None,
+        high_min_ns: None,
+        high_min_at_s: None,
+        high_min_cycle: None,
+        high_max_ns: None,
+        low_mean_ns: None,
+        low_min_ns: None,
+        low_min_at_s: None,
+        low_min_cycle: None,
+        low_max_ns: None,
+        duty: None,
+        duty_uncertainty: None,
+        duty_sampled: None,
+        period_jitter_rms_ns: None,
+        period_jitter_rms_pop_ns: None,
+        period_jitter_floor_ns: floor,
+        period_jitter_below_resolution: false,
+        period_jitter_debiased_ns: None,
+        period_jitter_uncertainty_ns: None,
+        period_jitter_pkpk_ns: None,
+        period_jitter_n: 0,
+        cycle_to_cycle_rms_ns: None,
+        cycle_to_cycle_max_ns: None,
+        cycle_to_cycle_floor_ns: q / 2f64.sqrt(),
+        tie_rms_ns: None,
+        tie_pkpk_ns: None,
+        tie_record_cycles: state.cfg.tie_record,
+        n_cycle: Vec::new(),
+        allan: Vec::new(),
+        period_percentiles: None,
+        high_percentiles: None,
+        low_percentiles: None,
+        glitches: 0,
+        stalls: 0,
+        unavailable: Vec::new(),
+    };
+    let Some(a) = acc else {
+        s.unavailable.push(Unavailable {
+            figure: "all".into(),
+            reason: "no complete clock cycle yet".into(),
+        });
+        return s;
+    };
+    s.edges = a.edges;
+    s.glitches = a.glitches;
+    s.stalls = a.stalls;
+    let tick_s = q * 1e-9;
+    if a.period.n == 0 && a.count_windows > 0 {
+        // a counting probe: frequency and sampled duty only
+        s.method = if a.count_reciprocal {
+            "count windows (reciprocal)".into()
+        } else {
+            "count windows (gated)".into()
+        };
+        if a.count_ticks > 0 {
+            let f = a.count_edges as f64 / (a.count_ticks as f64 * tick_s);
+            s.frequency_hz = Some(f);
+            // ±1 count (gated) or ±1 tick over the gate (reciprocal), per window, in quadrature
+            let per = if a.count_reciprocal {
+                f / a.count_ticks as f64
+            } else {
+                1.0 / (a.count_ticks as f64 * tick_s)
+            };
+            s.frequency_uncertainty_hz =
+                Some(2.0 * per * (a.count_windows as f64).sqrt() / 3f64.sqrt());
+        }
+        if a.samples > 0 {
+            let p = a.samples_high as f64 / a.samples as f64;
+            let (lo, hi) = super::stats::wilson_95(a.samples_high, a.samples).unwrap_or((0.0, 1.0));
+            s.duty_sampled = Some((p, lo, hi));
+            s.duty = Some(p);
+            s.duty_uncertainty = Some((hi - lo) / 2.0);
+        }
+        let why = "a counting probe sees no single cycle: it cannot observe per-cycle times";
+        for f in [
+            "high_min_ns",
+            "low_min_ns",
+            "period_jitter_rms_ns",
+            "cycle_to_cycle_max_ns",
+            "tie_rms_ns",
+        ] {
+            s.unavailable.push(Unavailable {
+                figure: f.into(),
+                reason: why.into(),
+            });
+        }
+        if timebase_ppm > 0 {
+            s.frequency_accuracy_hz = s.frequency_hz.map(|f| f * f64::from(timebase_ppm) * 1e-6);
+        }
+        return s;
+    }
+    s.cycles = a.period.n;
+    if let (Some(mean_p), Some(sp)) = (a.period.mean(), a.period.std_sample().or(Some(0.0))) {
+        let mean_ns = mean_p * q;
+        s.period_mean_ns = Some(mean_ns);
+        s.period_min_ns = Some(a.period.min as f64 * q);
+        s.period_max_ns = Some(a.period.max as f64 * q);
+        let f = 1e9 / mean_ns;
+        s.frequency_hz = Some(f);
+        // mean period: accumulated period noise σ_p²/N plus the quantisation of each run's two
+        // end stamps (q²/6 per run) over N²
+        let n = a.period.n as f64;
+        let sp_ns = sp * q;
+        let sigma_p2 = (sp_ns * sp_ns - q * q / 6.0).max(0.0);
+        let runs = a.runs.max(1) as f64;
+        let u_t = (sigma_p2 / n + runs * q * q / 6.0 / (n * n)).sqrt();
+        s.frequency_uncertainty_hz = Some(2.0 * f * u_t / mean_ns);
+        if timebase_ppm > 0 {
+            s.frequency_accuracy_hz = Some(f * f64::from(timebase_ppm) * 1e-6);
+        }
+        s.period_jitter_rms_ns = Some(sp_ns);
+        s.period_jitter_rms_pop_ns = a.period.std_pop().map(|v| v * q);
+        s.period_jitter_n = a.period.n;
+        s.period_jitter_pkpk_ns = Some((a.period.max - a.period.min) as f64 * q);
+        let debiased = sigma_p2.sqrt();
+        s.period_jitter_debiased_ns = Some(debiased);
+        s.period_jitter_below_resolution = debiased < floor;
+        // chi-square spread of a standard deviation, plus the floor's model uncertainty
+        let stat = sp_ns / (2.0 * (n - 1.0).max(1.0)).sqrt();
+        s.period_jitter_uncertainty_ns = Some(2.0 * (stat * stat + (0.1 * floor).powi(2)).sqrt());
+        // coherent sampling (less spread than random phase would give): the quantisation error of
+        // a mean does not average away; a systematic term of up to half a tick remains
+        let coherent = sp_ns * sp_ns < 0.5 * q * q / 6.0;
+        let sys = if coherent { q / 12f64.sqrt() } else { 0.0 };
+        let (mh, ml) = (a.high.mean(), a.low.mean());
+        if let Some(mh) = mh {
+            s.high_mean_ns = Some(mh * q);
+            s.high_min_ns = Some(a.high.min as f64 * q);
+            s.high_max_ns = Some(a.high.max as f64 * q);
+            s.high_min_at_s = Some(a.high.min_at.0 as f64 * tick_s);
+            s.high_min_cycle = Some(a.high.min_at.1);
+            let sh = a.high.std_sample().unwrap_or(0.0) * q;
+            let u_h = (sh * sh / a.high.n as f64 + sys * sys).sqrt();
+            s.duty = Some(mh * q / mean_ns);
+            s.duty_uncertainty = Some(
+                2.0 * ((u_h / mean_ns).powi(2) + (mh * q * u_t / (mean_ns * mean_ns)).powi(2))
+                    .sqrt(),
+            );
+        }
+        if let Some(ml) = ml {
+            s.low_mean_ns = Some(ml * q);
+            s.low_min_ns = Some(a.low.min as f64 * q);
+            s.low_max_ns = Some(a.low.max as f64 * q);
+            s.low_min_at_s = Some(a.low.min_at.0 as f64 * tick_s);
+            s.low_min_cycle = Some(a.low.min_at.1);
+        }
+        if a.c2c.n > 0 {
+            s.cycle_to_cycle_rms_ns = a.c2c.rms_about_zero().map(|v| v * q);
+            s.cycle_to_cycle_max_ns =
+                Some(a.c2c.max.unsigned_abs().max(a.c2c.min.unsigned_abs()) as f64 * q);
+        }
+        s.tie_rms_ns = a.fit.residual_rms().map(|v| v * q);
+        if a.tie_rec_n > 0 {
+            s.tie_pkpk_ns = Some(a.tie_rec_max_pkpk * q);
+        }
+        let pref = state.refs.map_or(0, |r| r.0);
+        for (i, &n) in state.cfg.n_cycles.iter().enumerate() {
+            let st = &a.ncycle[i];
+            if st.n > 1 {
+                // error against N·(mean period) rather than N·reference
+                let shift = (mean_p - pref as f64) * f64::from(n);
+                let m = st.mean().unwrap_or(0.0);
+                let sd = st.std_pop().unwrap_or(0.0);
+                let max_abs = ((st.max as f64 - shift).abs()).max((st.min as f64 - shift).abs());
+                let rms = (sd * sd + (m - shift).powi(2)).sqrt();
+                s.n_cycle.push(NCycle {
+                    n,
+                    rms_ns: rms * q,
+                    max_abs_ns: max_abs * q,
+                });
+            }
+        }
+        s.period_percentiles = percentiles(&a.hist_period, q);
+        s.high_percentiles = percentiles(&a.hist_high, q);
+        s.low_percentiles = percentiles(&a.hist_low, q);
+    }
+    if with_allan && let Some(al) = state.allan() {
+        s.allan = al
+            .points()
+            .into_iter()
+            .map(|(tau_s, adev, terms)| AllanPoint { tau_s, adev, terms })
+            .collect();
+    }
+    s
+}

@@ -1,0 +1,264 @@
+//! The measurement engine on hand-built edge lists and synthetic stamps, checked against the
+//! published definitions and worked values in ../shared/REFERENCES.md §8.
+
+use firmware_protocol::*;
+use slackmeter::measure::{ClockConfig, EngineConfig, Feed, Window};
+
+const TICK_1NS: (u64, u32) = (1_000_000_000, 1);
+
+fn hello(tick: (u64, u32)) -> Vec<u8> {
+    let chans = [
+        Channel {
+            id: 0,
+            kind: ChannelKind::Edge,
+            info: caps::TIMESTAMPS,
+            label: "CLK",
+            scale_num_uv: 0,
+            scale_den: 1,
+            offset_uv: 0,
+        },
+        Channel {
+            id: 1,
+            kind: ChannelKind::Line,
+            info: roles::HEARTBEAT,
+            label: "HB",
+            scale_num_uv: 0,
+            scale_den: 1,
+            offset_uv: 0,
+        },
+        Channel {
+            id: 2,
+            kind: ChannelKind::Analog,
+            info: 12,
+            label: "VCC",
+            scale_num_uv: 1000,
+            scale_den: 1,
+            offset_uv: 0,
+        },
+    ];
+    let h = Message::Hello(Hello {
+        protocol_version: 1,
+        tick_num_hz: tick.0,
+        tick_den: tick.1,
+        timebase_ppm: 0,
+        max_edge_rate_khz: 0,
+        firmware: "test",
+        channels: Channels::List(&chans),
+    });
+    let mut w = [0u8; MAX_WIRE];
+    let n = encode_message(&h, 0, &mut w).unwrap();
+    w[..n].to_vec()
+}
+
+/// Frames for edges (ticks) starting with a rising edge, in batches of `per`.
+fn edge_frames(ticks: &[u64], per: usize, seq0: u16) -> Vec<u8> {
+    let mut out = Vec::new();
+    let mut seq = seq0;
+    let mut rising = true;
+    for chunk in ticks.chunks(per) {
+        let mut body = [0u8; MAX_BODY];
+        let mut w = EdgeWriter::new(&mut body, 0, rising, 0, chunk[0]);
+        for &t in &chunk[1..] {
+            assert!(w.push(t));
+        }
+        let n = w.finish();
+        let mut wire = [0u8; MAX_WIRE];
+        let len = encode_frame(types::EDGES, seq, &body[..n], &mut wire).unwrap();
+        out.extend_from_slice(&wire[..len]);
+        seq = seq.wrapping_add(1);
+        if chunk.len() % 2 == 1 {
+            rising = !rising;
+        }
+    }
+    out
+}
+
+fn engine_cfg(n_cycles: [u32; 2]) -> EngineConfig {
+    EngineConfig {
+        clock: ClockConfig {
+            n_cycles,
+            ..ClockConfig::default()
+        },
+        block_s: 1e6,
+        window_s: 1e6,
+        ..EngineConfig::default()
+    }
+}
+
+#[test]
+fn reference_hand_example_exactly_five_periods() {
+    // REFERENCES.md §8 (computed hand example): rising edges 0, 1000, 2002, 2999, 4001, 5000 ns
+    // → periods 1000 1002 997 1002 999: period jitter RMS 1.897 ns (÷N) / 2.121 ns (÷N−1),
+    // pk-pk 5 ns, cycle-to-cycle max |·| 5 ns. Falling edges 500 ns after each rise; tick 1 ns.
+    // (The engine holds the newest edge back one edge to recognise glitches, so the last fall
+    // closes the last period.)
+    let rises = [0u64, 1000, 2002, 2999, 4001, 5000];
+    let mut ticks = Vec::new();
+    for r in rises {
+        ticks.push(r + 10);
+        ticks.push(r + 510);
+    }
+    let mut f = Feed::new(engine_cfg([2, 3]));
+    f.push(&hello(TICK_1NS));
+    f.push(&edge_frames(&ticks, 4, 1));
+    let s = f.engine.snapshot(Window::Session);
+    let c = s.clock().unwrap();
+    assert_eq!(c.cycles, 5);
+    assert!(
+        (c.period_jitter_rms_pop_ns.unwrap() - 1.897).abs() < 5e-4,
+        "{:?}",
+        c.period_jitter_rms_pop_ns
+    );
+    assert!(
+        (c.period_jitter_rms_ns.unwrap() - 2.121).abs() < 5e-4,
+        "{:?}",
+        c.period_jitter_rms_ns
+    );
+    assert_eq!(c.period_jitter_pkpk_ns, Some(5.0));
+    assert_eq!(c.cycle_to_cycle_max_ns, Some(5.0));
+    assert_eq!(c.high_min_ns, Some(500.0));
+    assert_eq!(c.low_min_ns, Some(497.0), "2999 − (2002 + 500)");
+    // N-cycle error (JESD65B definition as quoted): (t(k+N) − t(k)) − N·T with T the mean period
+    // 1000 ns: N = 2 → 2, −1, −1, 1 → RMS √(7/4), max 2
+    let n2 = c.n_cycle.iter().find(|n| n.n == 2).unwrap();
+    assert!(
+        (n2.rms_ns - (7.0f64 / 4.0).sqrt()).abs() < 1e-9,
+        "{}",
+        n2.rms_ns
+    );
+    assert!((n2.max_abs_ns - 2.0).abs() < 1e-9);
+    // TIE (IEEE Std 1139-2008: edge time minus an ideal clock), ideal clock by least squares
+    let t: Vec<f64> = rises.iter().map(|r| *r as f64).collect();
+    let n = t.len() as f64;
+    let (sk, skk) = (15.0, 55.0);
+    let st: f64 = t.iter().sum();
+    let skt: f64 = t.iter().enumerate().map(|(k, v)| k as f64 * v).sum();
+    let b = (n * skt - sk * st) / (n * skk - sk * sk);
+    let a = (st - b * sk) / n;
+    let rms = (t
+        .iter()
+        .enumerate()
+        .map(|(k, v)| (v - a - b * k as f64).powi(2))
+        .sum::<f64>()
+        / n)
+        .sqrt();
+    assert!(
+        (c.tie_rms_ns.unwrap() - rms).abs() < 1e-9,
+        "{:?} vs {rms}",
+        c.tie_rms_ns
+    );
+}
+
+/// Stamps of a perfect clock of period `period_ns` seen with tick `q`, starting at `phase_ns`.
+fn perfect(period_ns: f64, q: f64, phase_ns: f64, cycles: usize) -> Vec<u64> {
+    let mut v = Vec::with_capacity(cycles * 2);
+    for k in 0..cycles {
+        let r = phase_ns + k as f64 * period_ns;
+        v.push((r / q).floor() as u64);
+        v.push(((r + period_ns * 0.5) / q).floor() as u64);
+    }
+    v
+}
+
+fn jitter_of(ticks: &[u64], tick: (u64, u32)) -> slackmeter::measure::ClockSnapshot {
+    let mut f = Feed::new(engine_cfg([10, 100]));
+    f.push(&hello(tick));
+    f.push(&edge_frames(ticks, 400, 1));
+    f.engine.snapshot(Window::Session).clocks[0].clone()
+}
+
+#[test]
+fn quantisation_floor_at_random_phase_is_q_squared_over_six() {
+    // Widrow, Kollár & Liu (IEEE Trans. Instrum. Meas. 45(2), 1996): at random phase each stamp
+    // carries q²/12 and each period q²/6. A steady clock of period (n + p)·q shows p(1−p)·q²;
+    // over a uniformly distributed fractional part p that averages to q²/6 (∫p(1−p)dp = 1/6).
+    let q = 8.0;
+    let m = 400;
+    let mut var_sum = 0.0;
+    for i in 0..m {
+        let p = (i as f64 + 0.5) / m as f64;
+        let ticks = perfect((150.0 + p) * q, q, 0.37 * q + i as f64 * 0.013, 4000);
+        let c = jitter_of(&ticks, (125_000_000, 1));
+        var_sum += c.period_jitter_rms_pop_ns.unwrap().powi(2);
+        assert!(
+            c.period_jitter_below_resolution,
+            "a perfect clock is below resolution (p {p})"
+        );
+    }
+    let got = (var_sum / m as f64).sqrt();
+    let want = q / 6f64.sqrt();
+    assert!((got / want - 1.0).abs() < 0.01, "{got} vs {want}");
+}
+
+#[test]
+fn steady_commensurate_clock_gives_q_sqrt_p_one_minus_p() {
+    // REFERENCES.md §8 (computed): a steady clock gives two period readings, σ = q·√(p(1−p)),
+    // p = frac(T/q). T = 62.25 q: p = 0.25 → σ = q·√0.1875.
+    let q = 8.0;
+    for (p, phase) in [(0.25, 0.7), (0.5, 2.1), (0.125, 5.9)] {
+        let period = (62.0 + p) * q;
+        let ticks = perfect(period, q, phase, 40_000);
+        let c = jitter_of(&ticks, (125_000_000, 1));
+        let want = q * (p * (1.0 - p)).sqrt();
+        let got = c.period_jitter_rms_pop_ns.unwrap();
+        assert!((got - want).abs() / want < 1e-3, "p {p}: {got} vs {want}");
+        // only two readings
+        assert_eq!(c.period_max_ns.unwrap() - c.period_min_ns.unwrap(), q);
+    }
+}
+
+#[test]
+fn count_windows_give_frequency_and_sampled_duty_but_no_worst_cycle() {
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&hello((16_000_000, 1))); // 62.5 ns tick
+    let mut wire = [0u8; MAX_WIRE];
+    let mut bytes = Vec::new();
+    for i in 0..10u32 {
+        // 1 ms gates of a 1.234 MHz clock: 1234 edges each; 300 of 1000 samples high
+        let m = Message::Count(CountWindow {
+            channel: 0,
+            method: methods::GATED,
+            start_tick: u64::from(i) * 16_000,
+            gate_ticks: 16_000,
+            edges: 1234,
+            samples: 1000,
+            samples_high: 300,
+        });
+        let n = encode_message(&m, 1 + i as u16, &mut wire).unwrap();
+        bytes.extend_from_slice(&wire[..n]);
+    }
+    f.push(&bytes);
+    let c = f.engine.snapshot(Window::Session).clocks[0].clone();
+    assert!(c.method.starts_with("count windows"));
+    let fr = c.frequency_hz.unwrap();
+    assert!((fr - 1.234e6).abs() < 1e-3, "{fr}");
+    // gated counting: ±1 count per gate (Instrumentation Reference Book, 3rd ed.)
+    assert!(c.frequency_uncertainty_hz.unwrap() > 0.0);
+    let (p, lo, hi) = c.duty_sampled.unwrap();
+    assert!((p - 0.3).abs() < 1e-12 && lo < 0.3 && hi > 0.3);
+    assert!(c.high_min_ns.is_none());
+    assert!(
+        c.unavailable
+            .iter()
+            .any(|u| u.figure == "high_min_ns" && u.reason.contains("cannot observe"))
+    );
+}
+
+#[test]
+fn glitches_are_set_aside_and_counted() {
+    // a 1 µs clock with a 20 ns high pulse inside one low phase
+    let mut ticks = Vec::new();
+    for k in 0..100u64 {
+        let r = 100 + k * 1000;
+        ticks.push(r);
+        ticks.push(r + 500);
+        if k == 50 {
+            ticks.push(r + 700);
+            ticks.push(r + 720);
+        }
+    }
+    let c = jitter_of(&ticks, TICK_1NS);
+    assert_eq!(c.glitches, 1);
+    assert_eq!(c.high_min_ns, Some(500.0), "the glitch is not a cycle");
+    assert_eq!(c.period_jitter_pkpk_ns, Some(0.0));
+}
