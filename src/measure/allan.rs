@@ -112,6 +112,11 @@ impl AllanStream {
         self.len += 1;
     }
 
+    /// A gap in the phase samples: later differences never span it (the sums are kept).
+    pub fn gap(&mut self) {
+        self.len = 0;
+    }
+
     /// Forget everything.
     pub fn clear(&mut self) {
         *self = AllanStream::new(self.tau0_s);

@@ -1,7 +1,9 @@
 //! Clock statistics of one edge channel: streaming over edge timestamps (or count windows),
 //! mergeable per block, with every figure's uncertainty derived from the probe's tick.
 //!
-//! Uncertainties are expanded (k = 2, about 95 %). Minimum/maximum times are bounds: a time
+//! Uncertainties are expanded with coverage factor [`K`] = 2.5 (about 99 % for normal errors),
+//! so that at least 95 % holds although each uncertainty is itself estimated from the data.
+//! Minimum/maximum times are bounds: a time
 //! between two stamps is known to ±1 tick. Quantisation (Widrow, Kollár & Liu, IEEE Trans.
 //! Instrum. Meas. 45(2), 1996): q²/12 per stamp and q²/6 per period at random phase; a steady
 //! clock commensurate with the tick gives two period readings, σ = q·√(p(1−p)).
@@ -76,7 +78,9 @@ pub struct FitSums {
 }
 
 impl FitSums {
-    fn add(&mut self, k: i128, u: i128) {
+    #[inline]
+    fn add(&mut self, k: i64, u: i64) {
+        let (k, u) = (i128::from(k), i128::from(u));
         self.n += 1;
         self.sk += k;
         self.skk += k * k;
@@ -108,6 +112,13 @@ impl FitSums {
     }
 }
 
+/// Coverage factor of every expanded uncertainty.
+pub const K: f64 = 2.5;
+
+/// Periods per batch: summing 256 contiguous periods lifts their random walk far above the
+/// quantisation of the two end stamps, so period noise is measurable even below one tick.
+pub const BATCH: u32 = 256;
+
 /// One block's worth of clock statistics (mergeable).
 #[derive(Clone, Debug, PartialEq)]
 pub struct ClockAcc {
@@ -130,6 +141,8 @@ pub struct ClockAcc {
     tie_rec_ss: f64,
     tie_rec_n: u64,
     ncycle: [IntStats; 2],
+    /// Sums of `BATCH` contiguous periods (batch means for the mean period's uncertainty).
+    batch: IntStats,
     /// Edges seen (including glitch edges).
     pub edges: u64,
     /// Glitches.
@@ -164,6 +177,7 @@ impl ClockAcc {
             tie_rec_ss: 0.0,
             tie_rec_n: 0,
             ncycle: [IntStats::new(0), IntStats::new(0)],
+            batch: IntStats::new(origin * BATCH as i64),
             edges: 0,
             glitches: 0,
             stalls: 0,
@@ -194,6 +208,7 @@ impl ClockAcc {
         for i in 0..2 {
             self.ncycle[i].merge(&o.ncycle[i]);
         }
+        self.batch.merge(&o.batch);
         self.edges += o.edges;
         self.glitches += o.glitches;
         self.stalls += o.stalls;
@@ -231,11 +246,20 @@ pub struct ClockState {
     ring_next: usize,
     ring_len: usize,
     record: Vec<u64>,
+    batch_sum: i64,
+    batch_n: u32,
     typ_high: f64,
     typ_low: f64,
     typ_period: f64,
+    /// Glitch thresholds for high and low pulses and the stall gap, in ticks (refreshed from
+    /// the typical values every 64 cycles, so the per-edge path compares integers).
+    glitch_high_ticks: u64,
+    glitch_low_ticks: u64,
+    stall_ticks: u64,
+    refresh: u32,
     allan: Option<AllanStream>,
     allan_every: u64,
+    allan_countdown: u64,
     /// The current block.
     pub acc: Option<ClockAcc>,
     /// Recent glitches.
@@ -248,7 +272,7 @@ impl ClockState {
     /// A channel with a tick of `tick_ns`.
     pub fn new(cfg: ClockConfig, tick_ns: f64) -> ClockState {
         ClockState {
-            ring: vec![0; cfg.n_cycles[1] as usize + 1],
+            ring: vec![0; (cfg.n_cycles[0].max(cfg.n_cycles[1]) as usize + 1).next_power_of_two()],
             record: Vec::with_capacity(cfg.tie_record),
             cfg,
             tick_ns,
@@ -262,11 +286,18 @@ impl ClockState {
             fit_origin: None,
             ring_next: 0,
             ring_len: 0,
+            batch_sum: 0,
+            batch_n: 0,
             typ_high: 0.0,
             typ_low: 0.0,
             typ_period: 0.0,
+            glitch_high_ticks: 0,
+            glitch_low_ticks: 0,
+            stall_ticks: u64::MAX,
+            refresh: 0,
             allan: None,
             allan_every: 1,
+            allan_countdown: 0,
             acc: None,
             glitch_events: Vec::new(),
             stall_events: Vec::new(),
@@ -302,6 +333,12 @@ impl ClockState {
         self.prev_period = None;
         self.ring_len = 0;
         self.record.clear();
+        self.batch_sum = 0;
+        self.batch_n = 0;
+        self.allan_countdown = 0;
+        if let Some(a) = self.allan.as_mut() {
+            a.gap();
+        }
     }
 
     fn ensure_acc(&mut self, first_period: Option<i64>) -> Option<&mut ClockAcc> {
@@ -317,16 +354,22 @@ impl ClockState {
         self.acc.as_mut()
     }
 
-    fn glitch_threshold(&self, high_pulse: bool) -> f64 {
-        if let Some(ns) = self.cfg.glitch_ns {
-            return ns / self.tick_ns;
-        }
-        let typ = if high_pulse {
-            self.typ_high
-        } else {
-            self.typ_low
+    fn refresh_thresholds(&mut self) {
+        let (h, l) = match self.cfg.glitch_ns {
+            Some(ns) => (ns / self.tick_ns, ns / self.tick_ns),
+            None => (
+                self.cfg.glitch_fraction * self.typ_high,
+                self.cfg.glitch_fraction * self.typ_low,
+            ),
         };
-        self.cfg.glitch_fraction * typ
+        // a pulse narrower than the threshold (strictly) is a glitch
+        self.glitch_high_ticks = h.ceil().max(0.0) as u64;
+        self.glitch_low_ticks = l.ceil().max(0.0) as u64;
+        self.stall_ticks = if self.typ_period > 0.0 {
+            (self.cfg.stall_periods * self.typ_period) as u64
+        } else {
+            u64::MAX
+        };
     }
 
     /// One edge (ticks strictly increasing, polarities alternating).
@@ -346,13 +389,19 @@ impl ClockState {
             self.pending = Some((tick, rising));
             return;
         }
-        let width = tick.saturating_sub(pt) as f64;
-        if width < self.glitch_threshold(pr) {
+        let width = tick.saturating_sub(pt);
+        if width
+            < if pr {
+                self.glitch_high_ticks
+            } else {
+                self.glitch_low_ticks
+            }
+        {
             // a short pulse: set both edges aside, the phase goes on
             let g = Glitch {
                 at_s: pt as f64 * self.tick_ns * 1e-9,
                 high: pr,
-                width_ns: width * self.tick_ns,
+                width_ns: width as f64 * self.tick_ns,
             };
             if self.glitch_events.len() < self.cfg.max_events {
                 self.glitch_events.push(g);
@@ -368,8 +417,8 @@ impl ClockState {
     }
 
     fn commit(&mut self, t: u64, rising: bool) {
-        if let (Some(last), true) = (self.last_edge, self.typ_period > 0.0)
-            && (t - last) as f64 > self.cfg.stall_periods * self.typ_period
+        if let Some(last) = self.last_edge
+            && t - last > self.stall_ticks
         {
             let s = Stall {
                 at_s: last as f64 * self.tick_ns * 1e-9,
@@ -442,28 +491,34 @@ impl ClockState {
         if (p as f64) < 2.0 * self.typ_period && (p as f64) > 0.5 * self.typ_period {
             self.typ_period = ema(self.typ_period, p as f64);
         }
+        self.refresh += 1;
+        if self.refresh >= 64 || self.refresh == 1 && self.stall_ticks == u64::MAX {
+            self.refresh = 0;
+            self.refresh_thresholds();
+        }
         let prev = self.prev_period.replace(p);
         // phase of this rising edge against the session's reference clock; the first period
         // also brings its opening edge into the fit
         let first_fit = self.fit_origin.is_none();
         let (k0, t0) = *self.fit_origin.get_or_insert((k, t - p as u64));
-        let kk = (k + 1 - k0) as i128;
-        let u = t as i128 - t0 as i128 - kk * i128::from(pref);
+        let kk = (k + 1 - k0) as i64;
+        let u = (t as i64 - t0 as i64) - kk * pref;
         // N-cycle error: the ring holds the last rising edges of this run
         let ring_cap = self.ring.len();
+        let mask = ring_cap - 1;
         if self.ring_len == 0 {
             self.ring[self.ring_next] = t - p as u64;
-            self.ring_next = (self.ring_next + 1) % ring_cap;
+            self.ring_next = (self.ring_next + 1) & mask;
             self.ring_len = 1;
         }
         self.ring[self.ring_next] = t;
-        self.ring_next = (self.ring_next + 1) % ring_cap;
+        self.ring_next = (self.ring_next + 1) & mask;
         self.ring_len = (self.ring_len + 1).min(ring_cap);
         let mut ncyc = [None, None];
         for (i, &n) in self.cfg.n_cycles.iter().enumerate() {
             let n = n as usize;
             if self.ring_len > n {
-                let back = self.ring[(self.ring_next + ring_cap - 1 - n) % ring_cap];
+                let back = self.ring[(self.ring_next + ring_cap - 1 - n) & mask];
                 ncyc[i] = Some((t - back) as i64 - n as i64 * pref);
             }
         }
@@ -487,7 +542,16 @@ impl ClockState {
             ));
         }
         let every = self.allan_every;
+        self.batch_sum += p;
+        self.batch_n += 1;
+        let batch_done = (self.batch_n == BATCH).then(|| std::mem::take(&mut self.batch_sum));
+        if batch_done.is_some() {
+            self.batch_n = 0;
+        }
         let a = self.acc.as_mut().expect("block exists");
+        if let Some(b) = batch_done {
+            a.batch.add(b, t, idx);
+        }
         a.period.add(p, t, idx);
         a.hist_period.record(p);
         if let Some(pp) = prev {
@@ -509,9 +573,11 @@ impl ClockState {
             a.tie_rec_ss += ss;
             a.tie_rec_n += n;
         }
-        if kk as u64 % every == 0
+        self.allan_countdown = self.allan_countdown.saturating_sub(1);
+        if self.allan_countdown == 0
             && let Some(al) = self.allan.as_mut()
         {
+            self.allan_countdown = every;
             al.push(u as f64 * self.tick_ns);
         }
     }
@@ -627,7 +693,7 @@ pub struct AllanPoint {
     pub terms: u64,
 }
 
-/// The measured clock of one channel. Uncertainties are expanded (k = 2).
+/// The measured clock of one channel. Uncertainties are expanded (k = 2.5).
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ClockSnapshot {
     /// Channel id.
@@ -644,7 +710,7 @@ pub struct ClockSnapshot {
     pub cycles: u64,
     /// Frequency (reciprocal counting: measured periods over their total time).
     pub frequency_hz: Option<f64>,
-    /// Its uncertainty (resolution and jitter; k = 2).
+    /// Its uncertainty (resolution and jitter; k = 2.5).
     pub frequency_uncertainty_hz: Option<f64>,
     /// Timebase accuracy the probe states (separate from resolution), Hz.
     pub frequency_accuracy_hz: Option<f64>,
@@ -676,7 +742,7 @@ pub struct ClockSnapshot {
     pub low_max_ns: Option<f64>,
     /// Duty cycle: mean high / mean period.
     pub duty: Option<f64>,
-    /// Its uncertainty (k = 2).
+    /// Its uncertainty (k = 2.5).
     pub duty_uncertainty: Option<f64>,
     /// Statistical duty from level samples, with its Wilson 95 % interval.
     pub duty_sampled: Option<(f64, f64, f64)>,
@@ -690,7 +756,7 @@ pub struct ClockSnapshot {
     pub period_jitter_below_resolution: bool,
     /// De-biased estimate √(s² − q²/6), labelled as such.
     pub period_jitter_debiased_ns: Option<f64>,
-    /// Uncertainty of the jitter estimate (k = 2).
+    /// Uncertainty of the jitter estimate (k = 2.5).
     pub period_jitter_uncertainty_ns: Option<f64>,
     /// Period peak to peak.
     pub period_jitter_pkpk_ns: Option<f64>,
@@ -825,7 +891,7 @@ pub fn snapshot(
                 1.0 / (a.count_ticks as f64 * tick_s)
             };
             s.frequency_uncertainty_hz =
-                Some(2.0 * per * (a.count_windows as f64).sqrt() / 3f64.sqrt());
+                Some(K * per * (a.count_windows as f64).sqrt() / 3f64.sqrt());
         }
         if a.samples > 0 {
             let p = a.samples_high as f64 / a.samples as f64;
@@ -861,13 +927,25 @@ pub fn snapshot(
         let f = 1e9 / mean_ns;
         s.frequency_hz = Some(f);
         // mean period: accumulated period noise σ_p²/N plus the quantisation of each run's two
-        // end stamps (q²/6 per run) over N²
+        // end stamps (q²/6 per run) over N². σ_p from batch means when there are enough batches
+        // (it shows even below one tick), else from the period spread less quantisation.
         let n = a.period.n as f64;
         let sp_ns = sp * q;
-        let sigma_p2 = (sp_ns * sp_ns - q * q / 6.0).max(0.0);
+        let sigma_p2 = if a.batch.n >= 8 {
+            let vb = a.batch.std_sample().unwrap_or(0.0) * q;
+            ((vb * vb - q * q / 6.0) / f64::from(BATCH)).max(0.0)
+        } else {
+            (sp_ns * sp_ns - q * q / 6.0)
+                .max(0.0)
+                .max(if sp_ns * sp_ns < 2.0 * q * q / 6.0 {
+                    floor * floor
+                } else {
+                    0.0
+                })
+        };
         let runs = a.runs.max(1) as f64;
         let u_t = (sigma_p2 / n + runs * q * q / 6.0 / (n * n)).sqrt();
-        s.frequency_uncertainty_hz = Some(2.0 * f * u_t / mean_ns);
+        s.frequency_uncertainty_hz = Some(K * f * u_t / mean_ns);
         if timebase_ppm > 0 {
             s.frequency_accuracy_hz = Some(f * f64::from(timebase_ppm) * 1e-6);
         }
@@ -875,12 +953,20 @@ pub fn snapshot(
         s.period_jitter_rms_pop_ns = a.period.std_pop().map(|v| v * q);
         s.period_jitter_n = a.period.n;
         s.period_jitter_pkpk_ns = Some((a.period.max - a.period.min) as f64 * q);
-        let debiased = sigma_p2.sqrt();
+        let debiased = (sp_ns * sp_ns - q * q / 6.0).max(0.0).sqrt();
         s.period_jitter_debiased_ns = Some(debiased);
         s.period_jitter_below_resolution = debiased < floor;
-        // chi-square spread of a standard deviation, plus the floor's model uncertainty
+        // chi-square spread of a standard deviation, plus the error of subtracting q²/6: at most
+        // about q²/24/σ, and vanishing as exp(−2π²σ²/q²) once the jitter dithers the quantiser
+        // (the Gaussian characteristic function at 2π/q; Widrow, Kollár & Liu 1996)
         let stat = sp_ns / (2.0 * (n - 1.0).max(1.0)).sqrt();
-        s.period_jitter_uncertainty_ns = Some(2.0 * (stat * stat + (0.1 * floor).powi(2)).sqrt());
+        let model = if debiased > 0.0 {
+            (q * q / 24.0 / debiased)
+                * (-2.0 * std::f64::consts::PI.powi(2) * (debiased / q).powi(2)).exp()
+        } else {
+            floor
+        };
+        s.period_jitter_uncertainty_ns = Some(K * (stat * stat + model * model).sqrt());
         // coherent sampling (less spread than random phase would give): the quantisation error of
         // a mean does not average away; a systematic term of up to half a tick remains
         let coherent = sp_ns * sp_ns < 0.5 * q * q / 6.0;
@@ -896,8 +982,7 @@ pub fn snapshot(
             let u_h = (sh * sh / a.high.n as f64 + sys * sys).sqrt();
             s.duty = Some(mh * q / mean_ns);
             s.duty_uncertainty = Some(
-                2.0 * ((u_h / mean_ns).powi(2) + (mh * q * u_t / (mean_ns * mean_ns)).powi(2))
-                    .sqrt(),
+                K * ((u_h / mean_ns).powi(2) + (mh * q * u_t / (mean_ns * mean_ns)).powi(2)).sqrt(),
             );
         }
         if let Some(ml) = ml {

@@ -151,7 +151,7 @@ pub fn snapshot(
         rises: acc.rises,
         rate_hz,
         pulse_mean_ms: acc.high_pulses.mean().map(|m| m * q * 1e-6),
-        pulse_min_ms: (acc.high_pulses.n > 0).then(|| acc.high_pulses.min as f64 * q * 1e-6),
+        pulse_min_ms: (acc.high_pulses.n > 0).then_some(acc.high_pulses.min as f64 * q * 1e-6),
         since_change_s: st
             .last_change
             .map(|t| now_tick.saturating_sub(t) as f64 * q * 1e-9),

@@ -40,10 +40,11 @@ impl IntStats {
     /// Add one sample that ended at `tick`, the `index`-th of its kind.
     #[inline]
     pub fn add(&mut self, x: i64, tick: u64, index: u64) {
-        let d = i128::from(x - self.origin);
+        let d = x - self.origin;
         self.n += 1;
-        self.sum += d;
-        self.sumsq += d * d;
+        self.sum += i128::from(d);
+        // a widening 64×64→128 multiply
+        self.sumsq += i128::from(d) * i128::from(d);
         if x < self.min {
             self.min = x;
             self.min_at = (tick, index);
@@ -102,19 +103,27 @@ impl IntStats {
     }
 }
 
-/// A histogram of integer samples as deviations from a reference value: exact (one tick per
-/// bucket) within ±2047 ticks of it, 0.05 % of the deviation beyond (hdrhistogram, 3 digits).
+/// Deviations kept in the dense exact array: |x − reference| ≤ DENSE_HALF.
+pub const DENSE_HALF: i64 = 2047;
+
+/// A histogram of integer samples as deviations from a reference value: one exact bucket per
+/// tick within ±2047 ticks of it (a dense array: recording costs one increment, which the
+/// per-edge hot path needs), and hdrhistogram (3 significant digits) for outliers beyond.
 #[derive(Clone, Debug)]
 pub struct DevHistogram {
     /// The reference value.
     pub reference: i64,
+    dense: Box<[u64]>,
     above: Histogram<u32>,
     below: Histogram<u32>,
 }
 
 impl PartialEq for DevHistogram {
     fn eq(&self, o: &Self) -> bool {
-        self.reference == o.reference && self.above == o.above && self.below == o.below
+        self.reference == o.reference
+            && self.dense == o.dense
+            && self.above == o.above
+            && self.below == o.below
     }
 }
 
@@ -129,6 +138,7 @@ impl DevHistogram {
     pub fn new(reference: i64) -> DevHistogram {
         DevHistogram {
             reference,
+            dense: vec![0u64; (2 * DENSE_HALF + 1) as usize].into_boxed_slice(),
             above: new_hist(),
             below: new_hist(),
         }
@@ -138,17 +148,18 @@ impl DevHistogram {
     #[inline]
     pub fn record(&mut self, x: i64) {
         let d = x - self.reference;
-        // zero deviations go into `above` as value 0 is not storable: shift by one
-        if d >= 0 {
-            let _ = self.above.record(d as u64 + 1);
+        if (-DENSE_HALF..=DENSE_HALF).contains(&d) {
+            self.dense[(d + DENSE_HALF) as usize] += 1;
+        } else if d > 0 {
+            let _ = self.above.record((d - DENSE_HALF) as u64);
         } else {
-            let _ = self.below.record(d.unsigned_abs());
+            let _ = self.below.record((-d - DENSE_HALF) as u64);
         }
     }
 
     /// Samples recorded.
     pub fn len(&self) -> u64 {
-        self.above.len() + self.below.len()
+        self.dense.iter().sum::<u64>() + self.above.len() + self.below.len()
     }
 
     /// Whether empty.
@@ -158,29 +169,36 @@ impl DevHistogram {
 
     /// Add another histogram with the same reference.
     pub fn merge(&mut self, o: &DevHistogram) {
+        for (a, b) in self.dense.iter_mut().zip(o.dense.iter()) {
+            *a += b;
+        }
         let _ = self.above.add(&o.above);
         let _ = self.below.add(&o.below);
     }
 
     /// The value at quantile q (0…1): the smallest recorded value with at least q of the samples
-    /// at or below it (bucket-equivalent).
+    /// at or below it (bucket-equivalent beyond the dense range).
     pub fn quantile(&self, q: f64) -> Option<i64> {
         let n = self.len();
         if n == 0 {
             return None;
         }
-        let rank = ((q.clamp(0.0, 1.0) * n as f64).ceil() as u64).clamp(1, n);
+        let mut rank = ((q.clamp(0.0, 1.0) * n as f64).ceil() as u64).clamp(1, n);
         let b = self.below.len();
         if rank <= b {
-            // ascending values in `below` are descending deviations: rank r from the bottom is
-            // the (b − r + 1)-th from the top of the deviations
-            let k = b - rank + 1;
-            let d = value_at_rank(&self.below, k);
-            Some(self.reference - d as i64)
-        } else {
-            let d = value_at_rank(&self.above, rank - b);
-            Some(self.reference + d as i64 - 1)
+            // ascending values in `below` are descending deviations
+            let d = value_at_rank(&self.below, b - rank + 1);
+            return Some(self.reference - DENSE_HALF - d as i64);
         }
+        rank -= b;
+        for (i, &c) in self.dense.iter().enumerate() {
+            if rank <= c {
+                return Some(self.reference - DENSE_HALF + i as i64);
+            }
+            rank -= c;
+        }
+        let d = value_at_rank(&self.above, rank);
+        Some(self.reference + DENSE_HALF + d as i64)
     }
 }
 

@@ -1,0 +1,40 @@
+#!/usr/bin/env python3
+"""Peer for the measurement benchmark: the same clock statistics with NumPy, end to end
+(reading the raw little-endian u64 edge ticks, first edge rising, tick 8 ns).
+Run after `cargo bench --bench measure` (which writes the file):
+    python3 benches/peer_numpy.py /tmp/slackmeter-peer-edges.u64
+"""
+import sys, time
+import numpy as np
+
+def stats(path, tick_ns=8.0):
+    t = np.fromfile(path, dtype="<u8").astype(np.int64)
+    rises, falls = t[0::2], t[1::2]
+    n = min(len(rises), len(falls))
+    period = np.diff(rises)
+    high = falls[:n] - rises[:n]
+    low = rises[1:n] - falls[:n - 1]
+    c2c = np.diff(period)
+    return {
+        "period_mean_ns": period.mean() * tick_ns,
+        "period_min_ns": period.min() * tick_ns,
+        "period_max_ns": period.max() * tick_ns,
+        "high_min_ns": high.min() * tick_ns,
+        "low_min_ns": low.min() * tick_ns,
+        "duty": high.mean() / period.mean(),
+        "period_jitter_rms_ns": period.std(ddof=1) * tick_ns,
+        "cycle_to_cycle_rms_ns": np.sqrt(np.mean(c2c.astype(np.float64) ** 2)) * tick_ns,
+        "period_p1_p50_p99_ns": np.percentile(period, [1, 50, 99], method="inverted_cdf") * tick_ns,
+        "edges": len(t),
+    }
+
+if __name__ == "__main__":
+    path = sys.argv[1] if len(sys.argv) > 1 else "/tmp/slackmeter-peer-edges.u64"
+    best = float("inf")
+    for _ in range(5):
+        t0 = time.perf_counter()
+        s = stats(path)
+        best = min(best, time.perf_counter() - t0)
+    print(f"numpy: {s['edges']} edges in {best * 1e3:.1f} ms (best of 5): {s['edges'] / best / 1e6:.1f} M edges/s")
+    for k, v in s.items():
+        print(f"  {k}: {v}")
