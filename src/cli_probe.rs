@@ -10,6 +10,7 @@ use miette::{IntoDiagnostic, Result, miette};
 
 use crate::budget::{self, Corner, Design, Library, OperatingPoint};
 use crate::link::{self, Link, LinkConfig, LinkEvent};
+use crate::measure::{EngineConfig, Feed, Window};
 use crate::sim::{BenchModel, FaultLimit, RailModel, SimProbe, Sweep};
 use crate::units;
 
@@ -432,6 +433,7 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
         .duration
         .map(|ns| started + Duration::from_nanos(ns as u64));
     let mut decoder = StreamDecoder::new();
+    let mut feed = Feed::new(EngineConfig::default());
     let (mut edges, mut samples, mut line_events, mut bytes) = (0u64, 0u64, 0u64, 0u64);
     let mut last_print = Instant::now();
     let mut reconnects = 0;
@@ -451,6 +453,7 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
         match ev {
             Some(LinkEvent::Data { bytes: b, .. }) => {
                 bytes += b.len() as u64;
+                feed.push(&b);
                 decoder.push(&b, |f| match f.header.msg_type {
                     types::EDGES | types::LINES => {
                         if let Ok(Message::Edges(e) | Message::Lines(e)) = Message::decode(&f) {
@@ -489,6 +492,9 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
                     println!("  {:>3} {:<6} {}", c.id, c.kind, c.label);
                 }
                 decoder.reset_sequence();
+                if r > 0 {
+                    feed.note_reconnect();
+                }
             }
             Some(LinkEvent::Lost { reason }) => {
                 state = format!("lost: {reason}");
@@ -512,15 +518,29 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
             last_print = Instant::now();
             let c = decoder.counters;
             let secs = started.elapsed().as_secs_f64();
+            let snap = feed.engine.snapshot(Window::Recent);
+            let clock = snap.clock().map_or(String::new(), |k| {
+                let f = k
+                    .frequency_hz
+                    .map_or("—".into(), |f| units::hz(f).to_string());
+                let min = |v: Option<f64>| v.map_or("—".into(), |x| units::ns(x).to_string());
+                format!(
+                    " | {} f {f}, duty {}, min high {}, min low {}",
+                    k.label,
+                    k.duty.map_or("—".into(), |d| format!("{:.2} %", d * 100.0)),
+                    min(k.high_min_ns),
+                    min(k.low_min_ns)
+                )
+            });
+            let rail = snap.worst_rail.as_ref().map_or(String::new(), |(n, mv)| {
+                format!(", lowest rail {n} {:.3} V", mv / 1000.0)
+            });
             eprint!(
-                "\r{state}: {:.0} s, {} frames, {:.2} MB ({:.2} MB/s), {} edges, {} line events, {} samples; lost {} frames, {} CRC errors, {} reconnects   ",
+                "\r{state}: {:.0} s, {} frames, {:.2} MB/s, {} edges, lost {} frames, {} CRC errors, {} reconnects{clock}{rail}   ",
                 secs,
                 c.frames,
-                bytes as f64 / 1e6,
                 bytes as f64 / 1e6 / secs.max(1e-9),
                 edges,
-                line_events,
-                samples,
                 c.lost_frames,
                 c.crc_errors,
                 reconnects

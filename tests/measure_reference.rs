@@ -262,3 +262,23 @@ fn glitches_are_set_aside_and_counted() {
     assert_eq!(c.high_min_ns, Some(500.0), "the glitch is not a cycle");
     assert_eq!(c.period_jitter_pkpk_ns, Some(0.0));
 }
+
+#[test]
+fn a_glitch_close_to_an_edge_does_not_shorten_the_phase() {
+    // a 1 µs clock; a 12 ns high pulse 40 ns after a falling edge (two short pulses in a row:
+    // 40 ns low, then the 12 ns glitch); the shorter one is the glitch, the low phase stays 500 ns
+    let mut ticks = Vec::new();
+    for k in 0..100u64 {
+        let r = 100 + k * 1000;
+        ticks.push(r);
+        ticks.push(r + 500);
+        if k == 30 {
+            ticks.push(r + 540);
+            ticks.push(r + 552);
+        }
+    }
+    let c = jitter_of(&ticks, TICK_1NS);
+    assert_eq!(c.glitches, 1);
+    assert_eq!(c.low_min_ns, Some(500.0));
+    assert_eq!(c.high_min_ns, Some(500.0));
+}

@@ -235,6 +235,8 @@ pub struct ClockState {
     /// Reference values fixed at the first cycle (origins of all sums).
     refs: Option<(i64, i64, i64)>,
     pending: Option<(u64, bool)>,
+    /// The edge after `pending` when the pulse between them was short (undecided glitch).
+    suspect: Option<(u64, bool)>,
     last_rise: Option<u64>,
     last_fall: Option<u64>,
     last_edge: Option<u64>,
@@ -278,6 +280,7 @@ impl ClockState {
             tick_ns,
             refs: None,
             pending: None,
+            suspect: None,
             last_rise: None,
             last_fall: None,
             last_edge: None,
@@ -327,6 +330,7 @@ impl ClockState {
     /// Continuity is broken (data lost, new connection): no interval spans the break.
     pub fn break_continuity(&mut self) {
         self.pending = None;
+        self.suspect = None;
         self.last_rise = None;
         self.last_fall = None;
         self.last_edge = None;
@@ -383,37 +387,57 @@ impl ClockState {
             self.pending = Some((tick, rising));
             return;
         };
-        if pr == rising {
+        // the edge before this one must have the other polarity
+        let before = self.suspect.map_or(pr, |(_, nr)| nr);
+        if before == rising {
             // polarity broken (an edge went missing): restart continuity here
             self.break_continuity();
             self.pending = Some((tick, rising));
             return;
         }
-        let width = tick.saturating_sub(pt);
-        if width
-            < if pr {
-                self.glitch_high_ticks
+        if let Some((nt, nr)) = self.suspect.take() {
+            // P→N was short. A glitch near an edge leaves two short pulses in a row (P→N, N→M):
+            // the shorter one is the glitch, the other is what is left of a real phase.
+            let second = tick - nt;
+            if second < self.glitch_ticks(nr) && second < nt - pt {
+                self.glitch(nt, nr, second);
+                // P stays pending: the phase it opened goes on
             } else {
-                self.glitch_low_ticks
+                self.glitch(pt, pr, nt - pt);
+                self.pending = Some((tick, rising));
             }
-        {
-            // a short pulse: set both edges aside, the phase goes on
-            let g = Glitch {
-                at_s: pt as f64 * self.tick_ns * 1e-9,
-                high: pr,
-                width_ns: width as f64 * self.tick_ns,
-            };
-            if self.glitch_events.len() < self.cfg.max_events {
-                self.glitch_events.push(g);
-            }
-            if let Some(a) = self.acc.as_mut() {
-                a.glitches += 1;
-            }
-            self.pending = None;
+            return;
+        }
+        if tick - pt < self.glitch_ticks(pr) {
+            // a short pulse: decide with the next edge which two edges to set aside
+            self.suspect = Some((tick, rising));
             return;
         }
         self.commit(pt, pr);
         self.pending = Some((tick, rising));
+    }
+
+    #[inline]
+    fn glitch_ticks(&self, high_pulse: bool) -> u64 {
+        if high_pulse {
+            self.glitch_high_ticks
+        } else {
+            self.glitch_low_ticks
+        }
+    }
+
+    fn glitch(&mut self, at: u64, high: bool, width: u64) {
+        let g = Glitch {
+            at_s: at as f64 * self.tick_ns * 1e-9,
+            high,
+            width_ns: width as f64 * self.tick_ns,
+        };
+        if self.glitch_events.len() < self.cfg.max_events {
+            self.glitch_events.push(g);
+        }
+        if let Some(a) = self.acc.as_mut() {
+            a.glitches += 1;
+        }
     }
 
     fn commit(&mut self, t: u64, rising: bool) {

@@ -1,0 +1,124 @@
+//! Rails, lines and trust counters through the virtual probe (the engine must report what the
+//! bench model drove).
+
+use slackmeter::measure::{EngineConfig, Feed, Window};
+use slackmeter::sim::{BenchModel, RailModel, SimProbe};
+
+fn run(m: BenchModel, seconds: f64) -> Feed {
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(seconds * 1e9);
+    p.flush_all();
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&std::mem::take(p.output()));
+    f
+}
+
+#[test]
+fn sags_are_found_with_their_depth_and_the_worst_rail_is_named() {
+    let mut m = BenchModel::scenario("steady").unwrap();
+    m.freq_hz = 100e3;
+    m.rails = vec![
+        RailModel {
+            noise_mv: 3.0,
+            ..RailModel::quiet("VCC_NEAR", 5020.0)
+        },
+        RailModel {
+            sag_rate_hz: 5.0,
+            sag_depth_mv: 400.0,
+            sag_ms: 40.0,
+            noise_mv: 3.0,
+            ..RailModel::quiet("VCC_FAR", 4880.0)
+        },
+    ];
+    let f = run(m, 4.0);
+    let s = f.engine.snapshot(Window::Session);
+    let far = s.rail("VCC_FAR").unwrap();
+    let near = s.rail("VCC_NEAR").unwrap();
+    // Poisson with mean 5/s over ~3.8 s of sag process: 19 ± 4.4; allow ±3σ
+    assert!(
+        (6..=33).contains(&far.sag_events),
+        "{} sags",
+        far.sag_events
+    );
+    assert_eq!(near.sag_events, 0);
+    assert!(
+        (far.deepest_sag_mv - 400.0).abs() < 30.0,
+        "depth {}",
+        far.deepest_sag_mv
+    );
+    assert!(
+        (far.min_mv.unwrap() - 4480.0).abs() < 30.0,
+        "min {:?}",
+        far.min_mv
+    );
+    assert!(
+        far.below_limit_s > 0.0,
+        "4.48 V is below the 4.5 V default limit for a while"
+    );
+    assert_eq!(near.below_limit_s, 0.0);
+    assert!((near.mean_mv.unwrap() - 5020.0).abs() < 2.0);
+    // noise: 3 mV RMS Gaussian plus the 2 mV ADC step (uniform, 2/√12 = 0.58 mV)
+    let noise = near.noise_rms_mv.unwrap();
+    assert!(
+        (noise - (9.0f64 + 0.33).sqrt()).abs() < 0.3,
+        "noise {noise}"
+    );
+    assert_eq!(s.worst_rail.as_ref().unwrap().0, "VCC_FAR");
+    assert!(s.sag_events.iter().all(|(r, _)| r == "VCC_FAR"));
+}
+
+#[test]
+fn heartbeat_rate_and_fault_events() {
+    let mut m = BenchModel::scenario("sweep").unwrap();
+    m.heartbeat_hz = 4.0;
+    m.fault = Some(slackmeter::sim::FaultLimit {
+        by_vcc: vec![(0.0, 200.0, 200.0, 400.0), (9.0, 200.0, 200.0, 400.0)],
+        source: "test".into(),
+    });
+    // a 200 ns phase at 47 % duty breaks at 2.35 MHz: (2.35 − 1)/5 × 30 s = 8.1 s into the sweep
+    let f = run(m, 10.0);
+    let s = f.engine.snapshot(Window::Session);
+    let hb = s.line("heartbeat").unwrap();
+    let fault = s.line("fault").unwrap();
+    assert_eq!(fault.level, Some(true));
+    let at = fault.events.last().unwrap().at_s;
+    assert!((7.0..8.2).contains(&at), "fault at {at} s");
+    // heartbeat at 4 Hz until the fault, then silent
+    let rate = hb.rate_hz.unwrap();
+    assert!((rate - 4.0).abs() < 0.2, "rate {rate}");
+    assert!(hb.since_change_s.unwrap() > 1.5, "stopped after the fault");
+    assert!(hb.events.last().unwrap().at_s < at + 0.26);
+}
+
+#[test]
+fn dropped_frames_show_in_the_trust_counters() {
+    let m = BenchModel::scenario("steady").unwrap();
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(200e6);
+    p.flush_all();
+    let bytes = std::mem::take(p.output());
+    // cut out 30 whole frames in the middle, as a lossy link would
+    let zeros: Vec<usize> = bytes
+        .iter()
+        .enumerate()
+        .filter(|(_, b)| **b == 0)
+        .map(|(i, _)| i)
+        .collect();
+    let (a, b) = (zeros[100] + 1, zeros[130] + 1);
+    let mut damaged = bytes[..a].to_vec();
+    damaged.extend_from_slice(&bytes[b..]);
+    // and flip a bit in a later frame
+    let k = zeros[200] + 5;
+    damaged[k - (b - a)] ^= 0x10;
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&damaged);
+    let t = f.engine.snapshot(Window::Session).trust;
+    assert_eq!(t.lost_frames, 31, "30 cut out plus the damaged one");
+    assert_eq!(t.crc_errors + t.other_rejects, 1);
+    assert!(!t.clean());
+    let mut clean = Feed::new(EngineConfig::default());
+    clean.push(&bytes);
+    assert!(clean.engine.snapshot(Window::Session).trust.clean());
+}
