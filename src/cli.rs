@@ -63,6 +63,10 @@ slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --p
     Ports,
     /// Connect to a probe (or a virtual one), show what it is and count what it sends.
     Listen(crate::cli_probe::ListenArgs),
+    /// Record a probe (or the virtual probe) to a file, headless, with a progress line.
+    Record(Box<crate::cli_record::RecordArgs>),
+    /// Analyse a recording: every clock, rail and line figure with its uncertainty.
+    Report(crate::cli_record::ReportArgs),
 }
 
 #[derive(clap::Args, Debug)]
@@ -170,6 +174,8 @@ pub fn run(cli: Cli) -> std::result::Result<i32, (i32, miette::Report)> {
         Command::Sim(a) => crate::cli_probe::sim_cmd(*a).map_err(input),
         Command::Ports => crate::cli_probe::ports_cmd().map_err(|e| (EXIT_RUNTIME, e)),
         Command::Listen(a) => crate::cli_probe::listen_cmd(a).map_err(|e| (EXIT_RUNTIME, e)),
+        Command::Record(a) => crate::cli_record::record_cmd(*a).map_err(input),
+        Command::Report(a) => crate::cli_record::report_cmd(a).map_err(input),
     }
 }
 

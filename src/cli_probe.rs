@@ -36,12 +36,12 @@ pub fn interrupt_flag() -> &'static AtomicBool {
     &INTERRUPTED
 }
 
-/// Options of the virtual probe.
+/// Options of the virtual probe and its outputs.
 #[derive(clap::Args, Debug, Clone)]
 pub struct SimArgs {
-    /// Built-in scenario of the demo machine: steady, sagging, sweep (flags below override it).
-    #[arg(long, default_value = "steady")]
-    pub scenario: String,
+    /// What the virtual probe simulates.
+    #[command(flatten)]
+    pub model: SimModelArgs,
     /// Serve the protocol on a new pseudo-terminal and print its device path (the default output).
     #[arg(long)]
     pub pty: bool,
@@ -54,6 +54,17 @@ pub struct SimArgs {
     /// Write the frames to standard output.
     #[arg(long)]
     pub stdout: bool,
+    /// How long to simulate, e.g. 10s (files and stdout default to 10 s; a pty runs until Ctrl-C).
+    #[arg(long, value_parser = pos_time)]
+    pub duration: Option<f64>,
+}
+
+/// What the virtual probe simulates (shared by `sim`, `record --sim` and `watch --sim`).
+#[derive(clap::Args, Debug, Clone)]
+pub struct SimModelArgs {
+    /// Built-in scenario of the demo machine: steady, sagging, sweep (flags below override it).
+    #[arg(long, default_value = "steady")]
+    pub scenario: String,
     /// Clock frequency, e.g. 1.5MHz.
     #[arg(long, value_parser = pos_freq)]
     pub freq: Option<f64>,
@@ -107,12 +118,30 @@ pub struct SimArgs {
     /// Temperature for --fault-on-typ.
     #[arg(long, value_parser = temp, default_value = "25")]
     pub temp: f64,
-    /// How long to simulate, e.g. 10s (files and stdout default to 10 s; a pty runs until Ctrl-C).
-    #[arg(long, value_parser = pos_time)]
-    pub duration: Option<f64>,
     /// Seed of every random stream.
     #[arg(long)]
     pub seed: Option<u64>,
+    /// Stamp edges in bursts: N consecutive edges every T, e.g. 4000/100ms (as a small probe
+    /// does; the gaps are flagged as sampling, not loss).
+    #[arg(long, value_name = "N/T", value_parser = bursts)]
+    pub bursts: Option<(u32, f64)>,
+    /// Analog sample rate per rail, e.g. 1kHz (default 10 kHz).
+    #[arg(long, value_parser = pos_freq)]
+    pub analog_rate: Option<f64>,
+}
+
+fn bursts(s: &str) -> Result<(u32, f64), String> {
+    let (n, t) = s
+        .split_once('/')
+        .ok_or_else(|| format!("\"{s}\" is not N/T, e.g. 4000/100ms"))?;
+    let n: u32 = n
+        .trim()
+        .parse()
+        .map_err(|_| format!("\"{n}\" is not a whole number of edges"))?;
+    if n < 4 {
+        return Err("a burst needs at least 4 edges".into());
+    }
+    Ok((n, pos_time(t)?))
 }
 
 fn freq(s: &str) -> Result<f64, String> {
@@ -129,7 +158,7 @@ fn pos_freq(s: &str) -> Result<f64, String> {
 fn time(s: &str) -> Result<f64, String> {
     units::parse_time_ns(s).map_err(|e| e.to_string())
 }
-fn pos_time(s: &str) -> Result<f64, String> {
+pub(crate) fn pos_time(s: &str) -> Result<f64, String> {
     let t = time(s)?;
     if t > 0.0 {
         Ok(t)
@@ -186,7 +215,7 @@ pub fn rail(s: &str) -> Result<RailModel, String> {
 }
 
 /// The bench model and the LOG notes the sim sends, from the command line.
-pub fn build_model(a: &SimArgs) -> Result<(BenchModel, Vec<String>)> {
+pub fn build_model(a: &SimModelArgs) -> Result<(BenchModel, Vec<String>)> {
     let mut m = BenchModel::scenario(&a.scenario).ok_or_else(|| {
         miette!(
             help = format!("scenarios: {}", BenchModel::SCENARIOS.join(", ")),
@@ -232,6 +261,13 @@ pub fn build_model(a: &SimArgs) -> Result<(BenchModel, Vec<String>)> {
     }
     if let Some(s) = a.seed {
         m.seed = s;
+    }
+    if let Some((n, every_ns)) = a.bursts {
+        m.burst_edges = Some(n);
+        m.burst_every_s = every_ns * 1e-9;
+    }
+    if let Some(r) = a.analog_rate {
+        m.analog_rate_hz = r;
     }
     match (a.sweep, a.over) {
         (Some((from, to)), over) => {
@@ -301,7 +337,7 @@ pub fn build_model(a: &SimArgs) -> Result<(BenchModel, Vec<String>)> {
 
 /// `slackmeter sim`.
 pub fn sim_cmd(a: SimArgs) -> Result<i32> {
-    let (model, notes) = build_model(&a)?;
+    let (model, notes) = build_model(&a.model)?;
     let outputs = a.pty as u8 + a.out.is_some() as u8 + a.stdout as u8;
     if outputs > 1 {
         return Err(miette!(
@@ -366,7 +402,7 @@ pub fn sim_cmd(a: SimArgs) -> Result<i32> {
     }
     println!(
         "  scenario {}: clock {} at {:.1} % duty, tick {}, rails {}",
-        a.scenario,
+        a.model.scenario,
         units::hz(m.freq_hz),
         m.duty * 100.0,
         units::ns(m.tick_ns),

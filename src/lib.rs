@@ -5,9 +5,11 @@
 pub mod budget;
 pub mod cli;
 pub mod cli_probe;
+pub mod cli_record;
 pub mod diag;
 pub mod link;
 pub mod measure;
+pub mod record;
 pub mod report;
 pub mod sim;
 pub mod units;

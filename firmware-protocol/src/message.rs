@@ -135,6 +135,9 @@ pub struct Edges<'a> {
 
 /// Flag: data was lost just before this batch.
 pub const FLAG_LOST_BEFORE: u8 = 1;
+/// Flag (EDGES): the probe stamps in bursts and did not stamp the edges since the previous
+/// batch by design (sampling, not loss): no interval spans the gap.
+pub const FLAG_BURST_START: u8 = 2;
 
 impl<'a> Edges<'a> {
     /// Timestamps in ticks, in order.

@@ -11,7 +11,8 @@ pub mod stats;
 use std::collections::{BTreeMap, VecDeque};
 
 use firmware_protocol::{
-    ChannelKind, Counters, FLAG_LOST_BEFORE, Message, StreamDecoder, methods, roles,
+    ChannelKind, Counters, FLAG_BURST_START, FLAG_LOST_BEFORE, Message, StreamDecoder, methods,
+    roles,
 };
 use serde::Serialize;
 
@@ -424,7 +425,7 @@ impl Engine {
                     self.trust.unknown_channel += 1;
                     return;
                 };
-                if e.flags & FLAG_LOST_BEFORE != 0 {
+                if e.flags & (FLAG_LOST_BEFORE | FLAG_BURST_START) != 0 {
                     c.state.break_continuity();
                 }
                 let mut rising = e.first_rising;
@@ -500,6 +501,11 @@ impl Engine {
             | Message::Configure(_)
             | Message::Ping(_) => {}
         }
+    }
+
+    /// Probe time of the latest event, s.
+    pub fn snapshot_time_s(&self) -> f64 {
+        self.now_tick as f64 * self.probe.as_ref().map_or(1.0, |p| p.tick_ns) * 1e-9
     }
 
     /// A frame passed its CRC but its body did not decode.

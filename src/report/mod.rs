@@ -1,3 +1,4 @@
 //! Human-readable and machine-readable renderings of analysis results (pure).
 
 pub mod budget;
+pub mod recording;

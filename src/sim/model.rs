@@ -137,6 +137,12 @@ pub struct BenchModel {
     pub fault: Option<FaultLimit>,
     /// Seed of every random stream.
     pub seed: u64,
+    /// Stamp only bursts: this many consecutive edges every `burst_every_s` (None: every edge).
+    #[serde(default)]
+    pub burst_edges: Option<u32>,
+    /// Spacing of the bursts.
+    #[serde(default)]
+    pub burst_every_s: f64,
 }
 
 impl BenchModel {
@@ -181,6 +187,8 @@ impl BenchModel {
             sweep: None,
             fault: None,
             seed: 1,
+            burst_edges: None,
+            burst_every_s: 0.1,
         };
         match name {
             "steady" => Some(steady),

@@ -5,8 +5,9 @@
 //! so the frames for a seed are the same whether written to a file or served live.
 
 use firmware_protocol::{
-    self as proto, Ack, Analog, Channel, ChannelKind, Channels, EdgeBatch, FLAG_LOST_BEFORE, Hello,
-    Log, MAX_BODY, MAX_WIRE, Message, Status, StreamDecoder, caps, params, results, roles, types,
+    self as proto, Ack, Analog, Channel, ChannelKind, Channels, EdgeBatch, FLAG_BURST_START,
+    FLAG_LOST_BEFORE, Hello, Log, MAX_BODY, MAX_WIRE, Message, Status, StreamDecoder, caps, params,
+    results, roles, types,
 };
 
 use super::model::{ADC_UV_PER_COUNT, Bench, BenchModel, Slice};
@@ -37,6 +38,7 @@ struct OpenEdges {
     /// Level after the last edge written (to give the next batch its first polarity).
     level_after_last: bool,
     lost: bool,
+    burst_start: bool,
 }
 
 impl OpenEdges {
@@ -49,6 +51,7 @@ impl OpenEdges {
             channel,
             level_after_last: false,
             lost: false,
+            burst_start: false,
         }
     }
 }
@@ -82,6 +85,8 @@ pub struct SimProbe {
     notes: Vec<String>,
     /// Edges simulated while streaming.
     pub edges_sent: u64,
+    burst_left: u32,
+    next_burst_ns: f64,
 }
 
 fn gcd(a: u64, b: u64) -> u64 {
@@ -134,6 +139,8 @@ impl SimProbe {
             host: StreamDecoder::new(),
             notes,
             edges_sent: 0,
+            burst_left: 0,
+            next_burst_ns: 0.0,
         };
         p.send_hello();
         let notes = std::mem::take(&mut p.notes);
@@ -380,17 +387,42 @@ impl SimProbe {
         self.bench.advance(SLICE_NS, &mut slice);
         let now = self.bench.now_ns();
         if self.streaming {
-            self.edges_sent += slice.clock.len() as u64;
+            let mut to = slice.clock.len();
+            if let Some(n) = self.bench.model.burst_edges {
+                // bursts: stamp n consecutive edges, then nothing until the next burst is due
+                if self.burst_left == 0 && now - SLICE_NS >= self.next_burst_ns {
+                    self.burst_left = n;
+                    self.next_burst_ns = now - SLICE_NS + self.bench.model.burst_every_s * 1e9;
+                    Self::flush_edges(
+                        &mut self.clock,
+                        &mut self.out,
+                        &mut self.seq,
+                        &mut self.status,
+                    );
+                    self.clock.burst_start = true;
+                }
+                to = (self.burst_left as usize).min(slice.clock.len());
+                self.burst_left -= to as u32;
+            }
+            self.edges_sent += to as u64;
             let first = slice.clock_first_rising;
             Self::push_edges(
                 &mut self.clock,
-                &slice.clock,
+                &slice.clock[..to],
                 first,
                 now,
                 &mut self.out,
                 &mut self.seq,
                 &mut self.status,
             );
+            if self.bench.model.burst_edges.is_some() && self.burst_left == 0 {
+                Self::flush_edges(
+                    &mut self.clock,
+                    &mut self.out,
+                    &mut self.seq,
+                    &mut self.status,
+                );
+            }
             for (k, list) in [&slice.heartbeat, &slice.fault, &slice.reset]
                 .into_iter()
                 .enumerate()
@@ -459,8 +491,14 @@ impl SimProbe {
                 if open.batch.is_some() {
                     Self::flush_edges(open, out, seq, status);
                 }
-                let flags = if open.lost { FLAG_LOST_BEFORE } else { 0 };
+                let flags = if open.lost { FLAG_LOST_BEFORE } else { 0 }
+                    | if open.burst_start {
+                        FLAG_BURST_START
+                    } else {
+                        0
+                    };
                 open.lost = false;
+                open.burst_start = false;
                 open.batch = Some(EdgeBatch::start(
                     &mut open.body[..],
                     open.channel,

@@ -1,0 +1,334 @@
+//! Command-line edge for recordings: `record` and `report`.
+
+use std::io::{IsTerminal, Write};
+use std::path::PathBuf;
+use std::sync::atomic::Ordering;
+use std::time::{Duration, Instant};
+
+use firmware_protocol::StreamDecoder;
+use miette::{IntoDiagnostic, Result, miette};
+
+use crate::budget::design::{DEMO_DESIGN, DEMO_NAME};
+use crate::cli_probe::{SimModelArgs, build_model, interrupt_flag, pos_time};
+use crate::link::{Link, LinkConfig, LinkEvent, host_ns_now};
+use crate::measure::{EngineConfig, Feed, Window};
+use crate::record::{EmbeddedDesign, Header, Recorder, Recording, ReplayOptions};
+use crate::sim::SimProbe;
+
+/// Options of `record`.
+#[derive(clap::Args, Debug)]
+pub struct RecordArgs {
+    /// Serial device of the probe (omit with --sim).
+    pub port: Option<PathBuf>,
+    /// Record the virtual probe (its flags as for `slackmeter sim`).
+    #[arg(long)]
+    pub sim: bool,
+    /// The virtual probe's settings (with --sim).
+    #[command(flatten)]
+    pub model: SimModelArgs,
+    /// The recording to write (refuses to overwrite), e.g. run.smrec.
+    #[arg(short = 'o', long, value_name = "FILE")]
+    pub output: PathBuf,
+    /// Stop after this long, e.g. 30s (otherwise at Ctrl-C).
+    #[arg(long, value_parser = pos_time)]
+    pub duration: Option<f64>,
+    /// A note stored in the file (repeatable).
+    #[arg(long)]
+    pub note: Vec<String>,
+    /// Baud rate of the port.
+    #[arg(long, default_value_t = 1_000_000)]
+    pub baud: u32,
+    /// With --sim: generate as fast as possible, host times following simulated time (for
+    /// making files; the content is the same as a paced run).
+    #[arg(long)]
+    pub fast: bool,
+}
+
+fn header(a: &RecordArgs, source: String, sim: Option<serde_json::Value>) -> Result<Header> {
+    let design = match &a.model.design {
+        Some(p) => Some(EmbeddedDesign {
+            file: p.display().to_string(),
+            text: std::fs::read_to_string(p)
+                .map_err(|e| miette!("cannot read design {}: {e}", p.display()))?,
+        }),
+        None if a.sim => Some(EmbeddedDesign {
+            file: DEMO_NAME.into(),
+            text: DEMO_DESIGN.into(),
+        }),
+        None => None,
+    };
+    Ok(Header {
+        tool: concat!("slackmeter ", env!("CARGO_PKG_VERSION")).into(),
+        host: std::fs::read_to_string("/etc/hostname")
+            .map(|s| s.trim().to_string())
+            .unwrap_or_else(|_| "unknown".into()),
+        start_unix_ns: host_ns_now(),
+        source,
+        notes: a.note.clone(),
+        design,
+        sim,
+    })
+}
+
+fn progress_line(
+    path: &str,
+    secs: f64,
+    rec: crate::record::RecCounts,
+    dec: &StreamDecoder,
+) -> String {
+    let c = dec.counters;
+    format!(
+        "\rrecording {path}: {secs:.1} s, {:.2} MB ({:.0} kB/s), {} frames ({:.0}/s), {} lost, {} CRC errors, backlog {} kB{}   ",
+        rec.file_bytes as f64 / 1e6,
+        rec.data_bytes as f64 / 1e3 / secs.max(1e-9),
+        c.frames,
+        c.frames as f64 / secs.max(1e-9),
+        c.lost_frames,
+        c.crc_errors,
+        rec.backlog / 1000,
+        if rec.dropped > 0 {
+            format!(", RECORDER DROPPED {} bytes", rec.dropped)
+        } else {
+            String::new()
+        }
+    )
+}
+
+/// `slackmeter record`.
+pub fn record_cmd(a: RecordArgs) -> Result<i32> {
+    if a.sim == a.port.is_some() {
+        return Err(miette!(
+            help = "e.g. `slackmeter record --sim -o run.smrec --duration 10s` or `slackmeter record /dev/ttyUSB0 -o run.smrec`",
+            "give either a PORT or --sim"
+        ));
+    }
+    let stop = interrupt_flag();
+    let path = a.output.display().to_string();
+    let mut dec = StreamDecoder::new();
+    let started = Instant::now();
+    let deadline = a.duration.map(|ns| Duration::from_nanos(ns as u64));
+    let mut last_print = Instant::now();
+    let show = std::io::stderr().is_terminal() || std::env::var_os("SLACKMETER_PROGRESS").is_some();
+    if a.sim {
+        let (model, notes) = build_model(&a.model)?;
+        let mut shown = model.clone();
+        if let Some(f) = &mut shown.fault {
+            f.by_vcc.clear();
+        }
+        let h = header(
+            &a,
+            format!("virtual probe, scenario {}", a.model.scenario),
+            Some(serde_json::to_value(&shown).into_diagnostic()?),
+        )?;
+        let t0 = h.start_unix_ns;
+        let rec = Recorder::create(&a.output, &h).map_err(miette::Report::new)?;
+        let mut probe = SimProbe::new(model, notes);
+        probe.start();
+        let end_ns = deadline.map_or(f64::INFINITY, |d| d.as_nanos() as f64);
+        if a.fast && !end_ns.is_finite() {
+            return Err(miette!(
+                help = "add --duration, e.g. --duration 10s",
+                "--fast needs --duration"
+            ));
+        }
+        loop {
+            let target = if a.fast {
+                (probe.now_ns() + 10e6).min(end_ns)
+            } else {
+                (started.elapsed().as_nanos() as f64).min(end_ns)
+            };
+            probe.run_until(target);
+            if probe.now_ns() >= end_ns {
+                probe.flush_all();
+            }
+            let bytes = std::mem::take(probe.output());
+            if !bytes.is_empty() {
+                dec.push(&bytes, |_| {});
+                let host = if a.fast {
+                    t0 + probe.now_ns() as u64
+                } else {
+                    host_ns_now()
+                };
+                rec.data(host, bytes);
+            }
+            if probe.now_ns() >= end_ns || stop.load(Ordering::Relaxed) {
+                break;
+            }
+            if show && last_print.elapsed() >= Duration::from_secs(1) {
+                last_print = Instant::now();
+                eprint!(
+                    "{}",
+                    progress_line(&path, probe.now_ns() * 1e-9, rec.counts(), &dec)
+                );
+            }
+            if !a.fast {
+                std::thread::sleep(Duration::from_millis(5));
+            }
+        }
+        let counts = rec.finish().into_diagnostic()?;
+        eprintln!(
+            "{}",
+            progress_line(&path, probe.now_ns() * 1e-9, counts, &dec).trim_start_matches('\r')
+        );
+        return Ok(crate::cli::EXIT_OK);
+    }
+    let port = a.port.clone().expect("checked");
+    let h = header(&a, format!("probe on {}", port.display()), None)?;
+    let rec = Recorder::create(&a.output, &h).map_err(miette::Report::new)?;
+    let mut cfg = LinkConfig::new(&port);
+    cfg.baud = a.baud;
+    let mut link = Link::start(cfg, 1024);
+    loop {
+        if stop.load(Ordering::Relaxed) || deadline.is_some_and(|d| started.elapsed() >= d) {
+            break;
+        }
+        match link.events.try_recv() {
+            Ok(LinkEvent::Data { host_ns, bytes }) => {
+                dec.push(&bytes, |_| {});
+                rec.data(host_ns, bytes);
+            }
+            Ok(LinkEvent::Connected { probe, reconnects }) => {
+                if reconnects > 0 {
+                    dec.reset_sequence();
+                }
+                rec.link(
+                    host_ns_now(),
+                    format!(
+                        "{{\"event\":\"connected\",\"reconnects\":{reconnects},\"firmware\":{:?}}}",
+                        probe.firmware
+                    ),
+                );
+            }
+            Ok(LinkEvent::Lost { reason }) => {
+                eprintln!("\nlink lost: {reason}; recording goes on when it returns");
+                rec.link(
+                    host_ns_now(),
+                    format!("{{\"event\":\"lost\",\"reason\":{reason:?}}}"),
+                );
+            }
+            Ok(LinkEvent::Failed(e)) => {
+                let _ = rec.finish();
+                return Err(miette::Report::new(e));
+            }
+            Ok(_) => {}
+            Err(tokio::sync::mpsc::error::TryRecvError::Empty) => {
+                std::thread::sleep(Duration::from_millis(5))
+            }
+            Err(_) => break,
+        }
+        if show && last_print.elapsed() >= Duration::from_secs(1) {
+            last_print = Instant::now();
+            eprint!(
+                "{}",
+                progress_line(&path, started.elapsed().as_secs_f64(), rec.counts(), &dec)
+            );
+        }
+    }
+    link.events.close();
+    let counts = rec.finish().into_diagnostic()?;
+    eprintln!(
+        "{}",
+        progress_line(&path, started.elapsed().as_secs_f64(), counts, &dec)
+            .trim_start_matches('\r')
+    );
+    Ok(crate::cli::EXIT_OK)
+}
+
+/// Options of `report`.
+#[derive(clap::Args, Debug)]
+pub struct ReportArgs {
+    /// The recording.
+    pub file: PathBuf,
+    /// Print the JSON document.
+    #[arg(long, conflicts_with = "markdown")]
+    pub json: bool,
+    /// Print Markdown.
+    #[arg(long)]
+    pub markdown: bool,
+    /// Analyse from this many seconds into the recording.
+    #[arg(long, value_parser = pos_time_or_zero)]
+    pub from: Option<f64>,
+    /// Analyse up to this many seconds into the recording.
+    #[arg(long, value_parser = pos_time)]
+    pub to: Option<f64>,
+}
+
+fn pos_time_or_zero(s: &str) -> std::result::Result<f64, String> {
+    crate::units::parse_time_ns(s)
+        .map_err(|e| e.to_string())
+        .and_then(|v| {
+            if v >= 0.0 {
+                Ok(v)
+            } else {
+                Err("must not be negative".into())
+            }
+        })
+}
+
+/// Replay a recording through the engine: (recording, final snapshot, summary).
+pub fn analyse(
+    file: &std::path::Path,
+    opts: ReplayOptions,
+    cfg: EngineConfig,
+) -> Result<(
+    Recording,
+    crate::measure::Snapshot,
+    crate::record::ReplaySummary,
+)> {
+    let mut rec = Recording::open(file).map_err(miette::Report::new)?;
+    let mut feed = Feed::new(cfg);
+    let bar = (std::io::stderr().is_terminal() && rec.len > 32 << 20).then(|| {
+        let b = indicatif::ProgressBar::new(rec.len);
+        b.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{msg} [{bar:40}] {bytes}/{total_bytes} ({eta})",
+            )
+            .expect("valid template"),
+        );
+        b.set_message("replaying");
+        b
+    });
+    let sum = rec
+        .replay(&mut feed, opts, |at| {
+            if let Some(b) = &bar {
+                b.set_position(at);
+            }
+        })
+        .map_err(miette::Report::new)?;
+    if let Some(b) = bar {
+        b.finish_and_clear();
+    }
+    let snap = feed.engine.snapshot(Window::Session);
+    Ok((rec, snap, sum))
+}
+
+/// `slackmeter report`.
+pub fn report_cmd(a: ReportArgs) -> Result<i32> {
+    let opts = ReplayOptions {
+        from_s: a.from.map(|ns| ns * 1e-9),
+        to_s: a.to.map(|ns| ns * 1e-9),
+        speed: None,
+    };
+    let (rec, snap, sum) = analyse(&a.file, opts, EngineConfig::default())?;
+    let file = a.file.display().to_string();
+    let mut out = std::io::stdout().lock();
+    if a.json {
+        let doc = crate::report::recording::doc(&file, &rec.parsed.header, &snap, &sum);
+        serde_json::to_writer_pretty(&mut out, &doc).into_diagnostic()?;
+        writeln!(out).into_diagnostic()?;
+    } else {
+        write!(
+            out,
+            "{}",
+            crate::report::recording::render(&file, &rec.parsed.header, &snap, &sum, a.markdown)
+        )
+        .into_diagnostic()?;
+    }
+    if sum.data_bytes == 0 {
+        return Err(miette!(
+            help = "the file has a valid header but no readable data chunk",
+            "{file}: no probe data"
+        ));
+    }
+    Ok(crate::cli::EXIT_OK)
+}

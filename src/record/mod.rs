@@ -1,0 +1,9 @@
+//! Recordings: the `.smrec` format, the recorder thread, and replay through the same engine.
+
+pub mod format;
+pub mod replay;
+pub mod writer;
+
+pub use format::{EmbeddedDesign, Header, RecordingError};
+pub use replay::{Recording, ReplayOptions, ReplaySummary};
+pub use writer::{RecCounts, Recorder};

@@ -1,0 +1,331 @@
+//! The analysis of a recording as text, Markdown or a JSON document (pure).
+
+use std::fmt::Write;
+
+use serde::Serialize;
+
+use crate::measure::{ClockSnapshot, Snapshot};
+use crate::record::{Header, ReplaySummary};
+use crate::units::{hz, ns};
+
+/// The JSON document of `slackmeter report --json`.
+#[derive(Serialize)]
+pub struct ReportDoc<'a> {
+    /// File analysed.
+    pub file: &'a str,
+    /// Recording header.
+    pub recording: &'a Header,
+    /// Host time covered, s.
+    pub duration_s: f64,
+    /// The first clock (the one a budget is held against).
+    pub clock: Option<&'a ClockSnapshot>,
+    /// Every clock.
+    pub clocks: &'a [ClockSnapshot],
+    /// Rails.
+    pub rails: &'a [crate::measure::RailSnapshot],
+    /// Lines.
+    pub lines: &'a [crate::measure::LineSnapshot],
+    /// Lowest rail.
+    pub worst_rail: &'a Option<(String, f64)>,
+    /// Frames lost (sequence gaps).
+    pub lost_frames: u64,
+    /// CRC errors.
+    pub crc_errors: u64,
+    /// All trust counters.
+    pub trust: &'a crate::measure::Trust,
+    /// Marks.
+    pub marks: &'a [crate::record::replay::MarkAt],
+    /// Link events.
+    pub links: &'a [crate::record::replay::LinkAt],
+    /// Damage found in the file.
+    pub damage: &'a [crate::record::format::Damage],
+    /// Glitches (most recent).
+    pub glitch_events: &'a [crate::measure::Glitch],
+    /// Sags (most recent).
+    pub sag_events: &'a [(String, crate::measure::Sag)],
+}
+
+/// Build the JSON document.
+pub fn doc<'a>(
+    file: &'a str,
+    header: &'a Header,
+    snap: &'a Snapshot,
+    sum: &'a ReplaySummary,
+) -> ReportDoc<'a> {
+    ReportDoc {
+        file,
+        recording: header,
+        duration_s: sum.duration_s,
+        clock: snap.clock(),
+        clocks: &snap.clocks,
+        rails: &snap.rails,
+        lines: &snap.lines,
+        worst_rail: &snap.worst_rail,
+        lost_frames: snap.trust.lost_frames,
+        crc_errors: snap.trust.crc_errors,
+        trust: &snap.trust,
+        marks: &sum.marks,
+        links: &sum.links,
+        damage: &sum.damage,
+        glitch_events: &snap.glitch_events,
+        sag_events: &snap.sag_events,
+    }
+}
+
+fn opt_ns(v: Option<f64>) -> String {
+    v.map_or("—".into(), |x| ns(x).to_string())
+}
+
+fn pm(v: Option<f64>, u: Option<f64>, f: impl Fn(f64) -> String) -> String {
+    match (v, u) {
+        (Some(v), Some(u)) => format!("{} ± {}", f(v), f(u)),
+        (Some(v), None) => f(v),
+        _ => "—".into(),
+    }
+}
+
+/// Text of one clock's figures.
+pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
+    let _ = writeln!(
+        out,
+        "Clock {} (channel {}, {}, resolution {} per time)",
+        c.label,
+        c.channel,
+        c.method,
+        ns(c.resolution_ns)
+    );
+    let _ = writeln!(
+        out,
+        "  frequency     {}   ({} cycles, {} edges)",
+        pm(c.frequency_hz, c.frequency_uncertainty_hz, |x| hz(x)
+            .to_string()),
+        c.cycles,
+        c.edges
+    );
+    if let Some(a) = c.frequency_accuracy_hz {
+        let _ = writeln!(out, "                (timebase accuracy ± {})", hz(a));
+    }
+    let _ = writeln!(
+        out,
+        "  duty          {}",
+        pm(
+            c.duty.map(|d| d * 100.0),
+            c.duty_uncertainty.map(|d| d * 100.0),
+            |x| format!("{x:.3} %")
+        )
+    );
+    if let Some((p, lo, hi)) = c.duty_sampled {
+        let _ = writeln!(
+            out,
+            "  sampled duty  {:.2} % (Wilson 95 %: {:.2} … {:.2} %)",
+            p * 100.0,
+            lo * 100.0,
+            hi * 100.0
+        );
+    }
+    let _ = writeln!(
+        out,
+        "  period        mean {}, min {}, max {}",
+        opt_ns(c.period_mean_ns),
+        opt_ns(c.period_min_ns),
+        opt_ns(c.period_max_ns)
+    );
+    let _ = writeln!(
+        out,
+        "  high time     mean {}, WORST {} (± {}, cycle {}, at {})",
+        opt_ns(c.high_mean_ns),
+        opt_ns(c.high_min_ns),
+        ns(c.resolution_ns),
+        c.high_min_cycle.map_or("—".into(), |v| v.to_string()),
+        c.high_min_at_s.map_or("—".into(), |t| format!("{t:.6} s"))
+    );
+    let _ = writeln!(
+        out,
+        "  low time      mean {}, WORST {} (± {}, cycle {}, at {})",
+        opt_ns(c.low_mean_ns),
+        opt_ns(c.low_min_ns),
+        ns(c.resolution_ns),
+        c.low_min_cycle.map_or("—".into(), |v| v.to_string()),
+        c.low_min_at_s.map_or("—".into(), |t| format!("{t:.6} s"))
+    );
+    let jitter = if c.period_jitter_below_resolution {
+        format!(
+            "below resolution (< {}); de-biased estimate {}",
+            ns(c.period_jitter_floor_ns),
+            opt_ns(c.period_jitter_debiased_ns)
+        )
+    } else {
+        format!(
+            "{} RMS (± {}), pk-pk {} over N = {}",
+            opt_ns(c.period_jitter_rms_ns),
+            opt_ns(c.period_jitter_uncertainty_ns),
+            opt_ns(c.period_jitter_pkpk_ns),
+            c.period_jitter_n
+        )
+    };
+    let _ = writeln!(out, "  period jitter {jitter}");
+    let _ = writeln!(
+        out,
+        "  cycle-to-cycle {} RMS, max |·| {} (floor {})",
+        opt_ns(c.cycle_to_cycle_rms_ns),
+        opt_ns(c.cycle_to_cycle_max_ns),
+        ns(c.cycle_to_cycle_floor_ns)
+    );
+    let _ = writeln!(
+        out,
+        "  TIE           {} RMS against a least-squares clock, pk-pk {} within {}-cycle records",
+        opt_ns(c.tie_rms_ns),
+        opt_ns(c.tie_pkpk_ns),
+        c.tie_record_cycles
+    );
+    for n in &c.n_cycle {
+        let _ = writeln!(
+            out,
+            "  {}-cycle error {} RMS, max |·| {}",
+            n.n,
+            ns(n.rms_ns),
+            ns(n.max_abs_ns)
+        );
+    }
+    if !c.allan.is_empty() {
+        let pts: Vec<String> = c
+            .allan
+            .iter()
+            .take(6)
+            .map(|a| format!("τ {:.0e} s: {:.2e}", a.tau_s, a.adev))
+            .collect();
+        let _ = writeln!(out, "  Allan dev.    {}", pts.join("; "));
+    }
+    if let Some(p) = &c.period_percentiles {
+        let _ = writeln!(
+            out,
+            "  period %iles  0.1 % {}, 1 % {}, 50 % {}, 99 % {}, 99.9 % {}",
+            ns(p.p0_1),
+            ns(p.p1),
+            ns(p.p50),
+            ns(p.p99),
+            ns(p.p99_9)
+        );
+    }
+    let _ = writeln!(out, "  glitches      {}   stalls {}", c.glitches, c.stalls);
+    for u in &c.unavailable {
+        let _ = writeln!(out, "  {}: unavailable — {}", u.figure, u.reason);
+    }
+}
+
+/// The full analysis as text (Markdown when `markdown`).
+pub fn render(
+    file: &str,
+    header: &Header,
+    snap: &Snapshot,
+    sum: &ReplaySummary,
+    markdown: bool,
+) -> String {
+    let mut out = String::new();
+    let h1 = if markdown { "# " } else { "" };
+    let h2 = if markdown { "\n## " } else { "\n" };
+    let _ = writeln!(out, "{h1}Recording {file}");
+    let _ = writeln!(
+        out,
+        "source {}, {:.1} s, written by {} on {}",
+        header.source, sum.duration_s, header.tool, header.host
+    );
+    for n in &header.notes {
+        let _ = writeln!(out, "note: {n}");
+    }
+    if let Some(p) = &snap.probe {
+        let _ = writeln!(out, "probe {}, tick {}", p.firmware, ns(p.tick_ns));
+    }
+    if markdown {
+        out.push_str("\n```text\n");
+    }
+    for c in &snap.clocks {
+        let _ = writeln!(out);
+        clock_lines(&mut out, c);
+    }
+    if !snap.rails.is_empty() {
+        let _ = writeln!(out, "\nRails");
+        for r in &snap.rails {
+            let v = |x: Option<f64>| x.map_or("—".into(), |m| format!("{:.3} V", m / 1000.0));
+            let _ = writeln!(
+                out,
+                "  {:<10} min {} (at {}), mean {}, max {}; ripple {} pk-pk, noise {} RMS; below {:.2} V for {:.3} s; {} sags (deepest {:.0} mV)",
+                r.name,
+                v(r.min_mv),
+                r.min_at_s.map_or("—".into(), |t| format!("{t:.3} s")),
+                v(r.mean_mv),
+                v(r.max_mv),
+                r.ripple_pkpk_mv
+                    .map_or("—".into(), |m| format!("{m:.1} mV")),
+                r.noise_rms_mv.map_or("—".into(), |m| format!("{m:.1} mV")),
+                r.limit_mv / 1000.0,
+                r.below_limit_s,
+                r.sag_events,
+                r.deepest_sag_mv
+            );
+        }
+        if let Some((n, mv)) = &snap.worst_rail {
+            let _ = writeln!(out, "  lowest rail: {n} at {:.3} V", mv / 1000.0);
+        }
+    }
+    if !snap.lines.is_empty() {
+        let _ = writeln!(out, "\nLines");
+        for l in &snap.lines {
+            let _ = writeln!(
+                out,
+                "  {:<10} ({}) {} edges, {}, level now {}",
+                l.name,
+                l.role,
+                l.edges,
+                l.rate_hz
+                    .map_or("no rate".into(), |r| format!("{r:.3} rises/s")),
+                l.level
+                    .map_or("unknown", |b| if b { "high" } else { "low" })
+            );
+        }
+    }
+    let t = &snap.trust;
+    let _ = writeln!(
+        out,
+        "\nTrust: {} frames, {} lost (sequence gaps), {} CRC errors, {} other rejects, probe drops {} edges / {} samples, {} reconnects{}",
+        t.frames,
+        t.lost_frames,
+        t.crc_errors,
+        t.other_rejects,
+        t.probe_edges_dropped,
+        t.probe_samples_dropped,
+        t.reconnects,
+        if t.clean() {
+            " — nothing lost"
+        } else {
+            " — figures cover incomplete data"
+        }
+    );
+    if !sum.marks.is_empty() {
+        let _ = writeln!(out, "\nMarks");
+        for m in &sum.marks {
+            let _ = writeln!(out, "  {:>9.3} s  {}", m.at_s, m.text);
+        }
+    }
+    if !sum.links.is_empty() {
+        let _ = writeln!(out, "\nLink events");
+        for l in &sum.links {
+            let _ = writeln!(out, "  {:>9.3} s  {}", l.at_s, l.event);
+        }
+    }
+    if !sum.damage.is_empty() {
+        let _ = writeln!(out, "\nFile damage");
+        for d in &sum.damage {
+            let _ = writeln!(
+                out,
+                "  byte offset {}: {} ({} bytes skipped)",
+                d.offset, d.what, d.skipped
+            );
+        }
+    }
+    if markdown {
+        out.push_str("```\n");
+    }
+    let _ = h2;
+    out
+}
