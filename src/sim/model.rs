@@ -202,7 +202,7 @@ impl BenchModel {
                 m.rails[1].sag_rate_hz = 4.0;
                 m.rails[1].sag_depth_mv = 120.0;
                 m.rails[1].sag_ms = 30.0;
-                m.glitch_rate_hz = 3.0;
+                m.glitch_rate_hz = 100.0;
                 m.seed = 2;
                 Some(m)
             }

@@ -1,0 +1,98 @@
+//! `slackmeter report` on the demo recordings shows what recordings/README.md says it shows.
+
+use std::process::Command;
+
+fn report(name: &str) -> serde_json::Value {
+    let path = format!("{}/recordings/{name}", env!("CARGO_MANIFEST_DIR"));
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["report", &path, "--json"])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+fn rail<'a>(d: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
+    d["rails"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["name"] == name)
+        .unwrap()
+}
+
+fn line<'a>(d: &'a serde_json::Value, role: &str) -> &'a serde_json::Value {
+    d["lines"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["role"] == role)
+        .unwrap()
+}
+
+#[test]
+fn steady_run() {
+    let d = report("larkspur-steady.smrec");
+    let c = &d["clock"];
+    let f = c["frequency_hz"].as_f64().unwrap();
+    assert!((f - 2.0e6).abs() / 2.0e6 < 20e-6, "{f}");
+    assert!((c["duty"].as_f64().unwrap() - 0.5).abs() < 0.002);
+    assert_eq!(c["high_min_ns"], 248.0);
+    assert_eq!(c["low_min_ns"], 248.0);
+    assert_eq!(c["glitches"], 0);
+    assert_eq!(c["resolution_ns"], 8.0);
+    assert!(c["edges"].as_u64().unwrap() > 700_000);
+    for key in [
+        "frequency_uncertainty_hz",
+        "period_jitter_rms_ns",
+        "cycle_to_cycle_max_ns",
+    ] {
+        assert!(c[key].is_number(), "{key}");
+    }
+    let far = rail(&d, "VCC_FAR");
+    assert!((far["mean_mv"].as_f64().unwrap() - 4880.0).abs() < 5.0);
+    assert_eq!(far["sag_events"], 0);
+    assert_eq!(far["below_limit_s"], 0.0);
+    assert!(far["min_mv"].is_number() && far["max_mv"].is_number());
+    assert!((line(&d, "heartbeat")["rate_hz"].as_f64().unwrap() - 2.0).abs() < 0.05);
+    assert_eq!(d["lost_frames"], 0);
+    assert_eq!(d["crc_errors"], 0);
+    assert_eq!(d["recording"]["design"]["file"], "designs/larkspur-8.toml");
+}
+
+#[test]
+fn sagging_run() {
+    let d = report("larkspur-sagging.smrec");
+    let c = &d["clock"];
+    assert!(c["glitches"].as_u64().unwrap() >= 15, "{}", c["glitches"]);
+    let far = rail(&d, "VCC_FAR");
+    let sags = far["sag_events"].as_u64().unwrap();
+    assert!((50..=110).contains(&sags), "{sags} sags in 20 s at 4/s");
+    assert!(far["min_mv"].as_f64().unwrap() < 4520.0);
+    assert!(far["below_limit_s"].as_f64().unwrap() > 0.0);
+    assert!(rail(&d, "VCC_MID")["sag_events"].as_u64().unwrap() > 20);
+    assert_eq!(rail(&d, "VCC_NEAR")["sag_events"], 0);
+    assert_eq!(d["worst_rail"][0], "VCC_FAR");
+}
+
+#[test]
+fn sweep_to_failure() {
+    let d = report("larkspur-sweep.smrec");
+    let c = &d["clock"];
+    assert!(c["frequency_hz"].as_f64().unwrap() > 1.5e6);
+    assert!(
+        c["period_min_ns"].as_f64().unwrap() < 250.0,
+        "swept past 4 MHz"
+    );
+    let fault = line(&d, "fault");
+    assert_eq!(fault["level"], true);
+    let hb = line(&d, "heartbeat");
+    assert!(
+        hb["since_change_s"].as_f64().unwrap() > 1.0,
+        "the heartbeat stopped"
+    );
+}
