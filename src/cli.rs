@@ -67,6 +67,8 @@ slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --p
     Record(Box<crate::cli_record::RecordArgs>),
     /// Analyse a recording: every clock, rail and line figure with its uncertainty.
     Report(crate::cli_record::ReportArgs),
+    /// Export a recording's signals for a waveform viewer (VCD) or a spreadsheet (CSV).
+    Export(crate::cli_record::ExportArgs),
 }
 
 #[derive(clap::Args, Debug)]
@@ -176,6 +178,7 @@ pub fn run(cli: Cli) -> std::result::Result<i32, (i32, miette::Report)> {
         Command::Listen(a) => crate::cli_probe::listen_cmd(a).map_err(|e| (EXIT_RUNTIME, e)),
         Command::Record(a) => crate::cli_record::record_cmd(*a).map_err(input),
         Command::Report(a) => crate::cli_record::report_cmd(a).map_err(input),
+        Command::Export(a) => crate::cli_record::export_cmd(a).map_err(input),
     }
 }
 

@@ -332,3 +332,48 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
     }
     Ok(crate::cli::EXIT_OK)
 }
+
+/// Options of `export`.
+#[derive(clap::Args, Debug)]
+pub struct ExportArgs {
+    /// The recording.
+    pub file: PathBuf,
+    /// Write a value change dump (IEEE 1364 VCD) here.
+    #[arg(long, value_name = "OUT")]
+    pub vcd: Option<PathBuf>,
+    /// Write a CSV here (time_s, channel, label, kind, value).
+    #[arg(long, value_name = "OUT")]
+    pub csv: Option<PathBuf>,
+}
+
+/// `slackmeter export`.
+pub fn export_cmd(a: ExportArgs) -> Result<i32> {
+    if a.vcd.is_none() && a.csv.is_none() {
+        return Err(miette!(
+            help = "e.g. --vcd run.vcd or --csv run.csv",
+            "nothing to export: give --vcd and/or --csv"
+        ));
+    }
+    let mut rec = Recording::open(&a.file).map_err(miette::Report::new)?;
+    let s = crate::export::collect(&mut rec).map_err(miette::Report::new)?;
+    if s.signals.is_empty() {
+        return Err(miette!(
+            "{}: the recording holds no probe self-description, so its channels are unknown",
+            a.file.display()
+        ));
+    }
+    let create = |p: &PathBuf| {
+        std::fs::File::create(p)
+            .map(std::io::BufWriter::new)
+            .map_err(|e| miette!("cannot create {}: {e}", p.display()))
+    };
+    if let Some(p) = &a.vcd {
+        crate::export::write_vcd(&s, create(p)?).into_diagnostic()?;
+        eprintln!("wrote {} ({} events)", p.display(), s.events.len());
+    }
+    if let Some(p) = &a.csv {
+        crate::export::write_csv(&s, create(p)?).into_diagnostic()?;
+        eprintln!("wrote {} ({} rows)", p.display(), s.events.len());
+    }
+    Ok(crate::cli::EXIT_OK)
+}

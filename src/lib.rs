@@ -7,6 +7,7 @@ pub mod cli;
 pub mod cli_probe;
 pub mod cli_record;
 pub mod diag;
+pub mod export;
 pub mod link;
 pub mod measure;
 pub mod record;

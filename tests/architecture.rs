@@ -49,6 +49,10 @@ const FORBIDDEN: &[(&str, &[&str])] = &[
         ],
     ),
     ("report", &["link", "sim", "tui", "cli"]),
+    (
+        "export",
+        &["link", "sim", "measure", "budget", "margin", "tui", "cli"],
+    ),
     ("tui", &["cli"]),
 ];
 

@@ -105,6 +105,11 @@ impl Recording {
         })
     }
 
+    /// The chunk reader (positioned after the header until read).
+    pub fn chunk_reader(&mut self) -> &mut ChunkReader<BufReader<File>> {
+        &mut self.reader
+    }
+
     /// Feed every chunk into `feed`; `progress(bytes_read)` is called as it goes.
     pub fn replay(
         &mut self,
