@@ -251,6 +251,9 @@ pub struct ReportArgs {
     /// Analyse up to this many seconds into the recording.
     #[arg(long, value_parser = pos_time)]
     pub to: Option<f64>,
+    /// Also write SVG plots into this folder (histograms, TIE, rails over time).
+    #[arg(long, value_name = "DIR")]
+    pub plots: Option<PathBuf>,
 }
 
 fn pos_time_or_zero(s: &str) -> std::result::Result<f64, String> {
@@ -265,16 +268,22 @@ fn pos_time_or_zero(s: &str) -> std::result::Result<f64, String> {
         })
 }
 
-/// Replay a recording through the engine: (recording, final snapshot, summary).
+/// What `analyse` returns: the recording, the engine after the replay, its session snapshot and
+/// the replay summary.
+pub type Analysis = (
+    Recording,
+    Feed,
+    crate::measure::Snapshot,
+    crate::record::ReplaySummary,
+);
+
+/// Replay a recording through the engine (and `tap`, for plots).
 pub fn analyse(
     file: &std::path::Path,
     opts: ReplayOptions,
     cfg: EngineConfig,
-) -> Result<(
-    Recording,
-    crate::measure::Snapshot,
-    crate::record::ReplaySummary,
-)> {
+    tap: impl FnMut(&[u8]),
+) -> Result<Analysis> {
     let mut rec = Recording::open(file).map_err(miette::Report::new)?;
     let mut feed = Feed::new(cfg);
     let bar = (std::io::stderr().is_terminal() && rec.len > 32 << 20).then(|| {
@@ -289,17 +298,22 @@ pub fn analyse(
         b
     });
     let sum = rec
-        .replay(&mut feed, opts, |at| {
-            if let Some(b) = &bar {
-                b.set_position(at);
-            }
-        })
+        .replay_tapped(
+            &mut feed,
+            opts,
+            |at| {
+                if let Some(b) = &bar {
+                    b.set_position(at);
+                }
+            },
+            tap,
+        )
         .map_err(miette::Report::new)?;
     if let Some(b) = bar {
         b.finish_and_clear();
     }
     let snap = feed.engine.snapshot(Window::Session);
-    Ok((rec, snap, sum))
+    Ok((rec, feed, snap, sum))
 }
 
 /// `slackmeter report`.
@@ -309,8 +323,30 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
         to_s: a.to.map(|ns| ns * 1e-9),
         speed: None,
     };
-    let (rec, snap, sum) = analyse(&a.file, opts, EngineConfig::default())?;
+    let mut plots = a
+        .plots
+        .as_ref()
+        .map(|_| crate::report::plots::PlotCollector::new());
+    let (rec, feed, snap, sum) = analyse(&a.file, opts, EngineConfig::default(), |b| {
+        if let Some(p) = plots.as_mut() {
+            p.push(b);
+        }
+    })?;
     let file = a.file.display().to_string();
+    if let (Some(dir), Some(mut p)) = (&a.plots, plots) {
+        p.finish();
+        let limits = snap
+            .rails
+            .iter()
+            .map(|r| (r.name.clone(), r.limit_mv / 1000.0))
+            .collect();
+        let hists = feed.engine.clock_histograms(Window::Session);
+        let files = crate::report::plots::write(dir, &p, hists.as_ref(), &limits)
+            .map_err(|e| miette!("cannot write plots into {}: {e}", dir.display()))?;
+        for f in files {
+            eprintln!("wrote {}", f.display());
+        }
+    }
     let mut out = std::io::stdout().lock();
     if a.json {
         let doc = crate::report::recording::doc(&file, &rec.parsed.header, &snap, &sum);

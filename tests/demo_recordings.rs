@@ -96,3 +96,42 @@ fn sweep_to_failure() {
         "the heartbeat stopped"
     );
 }
+
+#[test]
+fn plots_are_written_as_svg() {
+    let dir = std::env::temp_dir().join(format!("slackmeter-plots-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let path = format!(
+        "{}/recordings/larkspur-sagging.smrec",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["report", &path, "--plots"])
+        .arg(&dir)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    for (file, title) in [
+        ("period_histogram.svg", "Clock period histogram"),
+        ("high_time_histogram.svg", "High time histogram"),
+        ("low_time_histogram.svg", "Low time histogram"),
+        ("tie.svg", "Time interval error"),
+        ("rail_VCC_FAR.svg", "Rail VCC_FAR over time"),
+    ] {
+        let svg = std::fs::read_to_string(dir.join(file)).unwrap_or_else(|e| panic!("{file}: {e}"));
+        assert!(
+            svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"),
+            "{file}"
+        );
+        assert!(svg.contains(title), "{file} has its title");
+    }
+    let far = std::fs::read_to_string(dir.join("rail_VCC_FAR.svg")).unwrap();
+    assert!(
+        far.contains("limit 4.50 V"),
+        "the limit is labelled in words, not only by colour"
+    );
+}

@@ -503,6 +503,44 @@ impl Engine {
         }
     }
 
+    /// Histograms of the first clock (period, high, low) over a window, with the tick in ns.
+    pub fn clock_histograms(&self, window: Window) -> Option<([stats::DevHistogram; 3], f64)> {
+        let c = self.clocks.values().next()?;
+        let acc = match window {
+            Window::Session => {
+                let mut a = c.blocks.session.clone();
+                if let Some(cur) = &c.state.acc {
+                    match &mut a {
+                        Some(x) => x.merge(cur),
+                        None => a = Some(cur.clone()),
+                    }
+                }
+                a
+            }
+            Window::Recent => {
+                let mut a: Option<clock::ClockAcc> = None;
+                for (_, b) in c.blocks.closed.iter().chain(
+                    c.state
+                        .acc
+                        .iter()
+                        .map(|x| (0, x.clone()))
+                        .collect::<Vec<_>>()
+                        .iter(),
+                ) {
+                    match &mut a {
+                        Some(x) => x.merge(b),
+                        None => a = Some(b.clone()),
+                    }
+                }
+                a
+            }
+        }?;
+        Some((
+            [acc.hist_period, acc.hist_high, acc.hist_low],
+            c.state.tick_ns(),
+        ))
+    }
+
     /// Probe time of the latest event, s.
     pub fn snapshot_time_s(&self) -> f64 {
         self.now_tick as f64 * self.probe.as_ref().map_or(1.0, |p| p.tick_ns) * 1e-9

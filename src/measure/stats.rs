@@ -176,6 +176,39 @@ impl DevHistogram {
         let _ = self.below.add(&o.below);
     }
 
+    /// (value, count) of every non-empty bucket, ascending (outliers at their bucket's top).
+    pub fn buckets(&self) -> Vec<(i64, u64)> {
+        let mut out: Vec<(i64, u64)> = self
+            .below
+            .iter_recorded()
+            .map(|v| {
+                (
+                    self.reference
+                        - DENSE_HALF
+                        - self.below.highest_equivalent(v.value_iterated_to()) as i64,
+                    v.count_at_value() as u64,
+                )
+            })
+            .collect();
+        out.reverse();
+        out.extend(
+            self.dense
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| **c > 0)
+                .map(|(i, c)| (self.reference - DENSE_HALF + i as i64, *c)),
+        );
+        out.extend(self.above.iter_recorded().map(|v| {
+            (
+                self.reference
+                    + DENSE_HALF
+                    + self.above.highest_equivalent(v.value_iterated_to()) as i64,
+                v.count_at_value() as u64,
+            )
+        }));
+        out
+    }
+
     /// The value at quantile q (0…1): the smallest recorded value with at least q of the samples
     /// at or below it (bucket-equivalent beyond the dense range).
     pub fn quantile(&self, q: f64) -> Option<i64> {

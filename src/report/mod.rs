@@ -1,4 +1,5 @@
 //! Human-readable and machine-readable renderings of analysis results (pure).
 
 pub mod budget;
+pub mod plots;
 pub mod recording;

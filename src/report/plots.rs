@@ -1,0 +1,406 @@
+//! SVG plots of a recording (plotters, SVG backend: no system fonts needed): period and
+//! high/low time histograms, TIE over time, each rail over time with its limit.
+//!
+//! Time series are decimated while streaming (min/max per bucket, buckets doubling in width
+//! past 2048), so memory stays bounded whatever the recording's length.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use firmware_protocol::{FLAG_BURST_START, FLAG_LOST_BEFORE, Message, StreamDecoder};
+use plotters::prelude::*;
+
+use crate::measure::stats::DevHistogram;
+
+const MAX_BUCKETS: usize = 2048;
+
+/// Min/max per time bucket, with adaptive bucket width.
+#[derive(Clone, Debug, Default)]
+pub struct Decimator {
+    start: Option<u64>,
+    width: u64,
+    buckets: Vec<Option<(f64, f64)>>,
+}
+
+impl Decimator {
+    fn new(width_ticks: u64) -> Decimator {
+        Decimator {
+            start: None,
+            width: width_ticks.max(1),
+            buckets: Vec::new(),
+        }
+    }
+
+    fn push(&mut self, tick: u64, v: f64) {
+        let start = *self.start.get_or_insert(tick);
+        let Some(off) = tick.checked_sub(start) else {
+            return;
+        };
+        let mut i = (off / self.width) as usize;
+        while i >= MAX_BUCKETS {
+            // merge pairs: the buckets double in width
+            let merged: Vec<Option<(f64, f64)>> = self
+                .buckets
+                .chunks(2)
+                .map(|c| {
+                    c.iter()
+                        .flatten()
+                        .fold(None, |acc: Option<(f64, f64)>, &(lo, hi)| {
+                            Some(acc.map_or((lo, hi), |(a, b)| (a.min(lo), b.max(hi))))
+                        })
+                })
+                .collect();
+            self.buckets = merged;
+            self.width *= 2;
+            i = (off / self.width) as usize;
+        }
+        if self.buckets.len() <= i {
+            self.buckets.resize(i + 1, None);
+        }
+        let b = &mut self.buckets[i];
+        *b = Some(b.map_or((v, v), |(lo, hi)| (lo.min(v), hi.max(v))));
+    }
+
+    /// (time s, min, max) per non-empty bucket.
+    pub fn points(&self, tick_ns: f64) -> Vec<(f64, f64, f64)> {
+        let start = self.start.unwrap_or(0);
+        self.buckets
+            .iter()
+            .enumerate()
+            .filter_map(|(i, b)| {
+                b.map(|(lo, hi)| {
+                    (
+                        ((start + i as u64 * self.width) as f64 + self.width as f64 / 2.0)
+                            * tick_ns
+                            * 1e-9,
+                        lo,
+                        hi,
+                    )
+                })
+            })
+            .collect()
+    }
+}
+
+struct RailSeries {
+    label: String,
+    scale: (i32, u32, i32),
+    series: Decimator,
+}
+
+/// Watches the same bytes as the engine and keeps what the plots need.
+#[derive(Default)]
+pub struct PlotCollector {
+    dec: StreamDecoder,
+    tick_ns: f64,
+    clock: Option<u8>,
+    rails: BTreeMap<u8, RailSeries>,
+    tie: Decimator,
+    record: Vec<u64>,
+    level: bool,
+    typ_period: f64,
+}
+
+impl PlotCollector {
+    /// A new collector.
+    pub fn new() -> PlotCollector {
+        PlotCollector {
+            tie: Decimator::new(1),
+            ..PlotCollector::default()
+        }
+    }
+
+    fn flush_record(&mut self) {
+        let t = std::mem::take(&mut self.record);
+        if t.len() < 8 {
+            return;
+        }
+        // TIE within the record: rising edges against their own least-squares line
+        let n = t.len() as f64;
+        let t0 = t[0] as f64;
+        let (mut sk, mut skk, mut su, mut sku) = (0.0, 0.0, 0.0, 0.0);
+        for (k, &x) in t.iter().enumerate() {
+            let (k, u) = (k as f64, x as f64 - t0);
+            sk += k;
+            skk += k * k;
+            su += u;
+            sku += k * u;
+        }
+        let b = (n * sku - sk * su) / (n * skk - sk * sk);
+        let a = (su - b * sk) / n;
+        for (k, &x) in t.iter().enumerate() {
+            let r = (x as f64 - t0 - a - b * k as f64) * self.tick_ns;
+            self.tie.push(x, r);
+        }
+    }
+
+    /// Bytes as recorded.
+    pub fn push(&mut self, bytes: &[u8]) {
+        let mut hellos = Vec::new();
+        let mut edges: Vec<(u8, bool, u8, Vec<u64>)> = Vec::new();
+        let mut analog: Vec<(u8, u64, u32, Vec<u16>)> = Vec::new();
+        self.dec.push(bytes, |f| match Message::decode(&f) {
+            Ok(Message::Hello(h)) => hellos.push((
+                1e9 * f64::from(h.tick_den) / h.tick_num_hz as f64,
+                h.channels
+                    .iter()
+                    .map(|c| {
+                        (
+                            c.id,
+                            c.kind,
+                            c.label.to_string(),
+                            (c.scale_num_uv, c.scale_den, c.offset_uv),
+                        )
+                    })
+                    .collect::<Vec<_>>(),
+            )),
+            Ok(Message::Edges(e)) => {
+                edges.push((e.channel, e.first_rising, e.flags, e.ticks().collect()))
+            }
+            Ok(Message::Analog(a)) => analog.push((
+                a.channel,
+                a.first_tick,
+                a.interval_ticks,
+                a.samples().collect(),
+            )),
+            Ok(_) | Err(_) => {}
+        });
+        for (tick_ns, chans) in hellos {
+            self.tick_ns = tick_ns;
+            let ms = (1e6 / tick_ns).max(1.0) as u64;
+            self.tie = Decimator::new(ms);
+            self.clock = chans
+                .iter()
+                .find(|c| c.1 == firmware_protocol::ChannelKind::Edge)
+                .map(|c| c.0);
+            for (id, kind, label, scale) in chans {
+                if kind == firmware_protocol::ChannelKind::Analog {
+                    self.rails.insert(
+                        id,
+                        RailSeries {
+                            label,
+                            scale,
+                            series: Decimator::new(ms),
+                        },
+                    );
+                }
+            }
+        }
+        for (ch, first, flags, ticks) in edges {
+            if Some(ch) != self.clock {
+                continue;
+            }
+            if flags & (FLAG_LOST_BEFORE | FLAG_BURST_START) != 0 {
+                self.flush_record();
+            }
+            self.level = first;
+            for t in ticks {
+                if self.level {
+                    // a rising edge closer than ¾ of the typical period to the last one kept is a
+                    // glitch's: it is not a clock cycle
+                    let keep = match self.record.last() {
+                        Some(&last) => {
+                            (t - last) as f64 >= 0.75 * self.typ_period || self.typ_period == 0.0
+                        }
+                        None => true,
+                    };
+                    if keep {
+                        if let Some(&last) = self.record.last() {
+                            let p = (t - last) as f64;
+                            self.typ_period = if self.typ_period == 0.0 {
+                                p
+                            } else {
+                                self.typ_period + (p - self.typ_period) / 64.0
+                            };
+                        }
+                        self.record.push(t);
+                        if self.record.len() >= 1024 {
+                            self.flush_record();
+                        }
+                    }
+                }
+                self.level = !self.level;
+            }
+        }
+        for (ch, first, interval, samples) in analog {
+            if let Some(r) = self.rails.get_mut(&ch) {
+                let (num, den, off) = r.scale;
+                let mut t = first;
+                for s in samples {
+                    // volts (µV → V)
+                    r.series.push(
+                        t,
+                        (f64::from(s) * f64::from(num) / f64::from(den) + f64::from(off)) * 1e-6,
+                    );
+                    t += u64::from(interval);
+                }
+            }
+        }
+    }
+
+    /// Finish the open TIE record.
+    pub fn finish(&mut self) {
+        self.flush_record();
+    }
+}
+
+fn err(e: impl std::fmt::Display) -> std::io::Error {
+    std::io::Error::other(e.to_string())
+}
+
+fn histogram_svg(path: &Path, title: &str, h: &DevHistogram, tick_ns: f64) -> std::io::Result<()> {
+    let b = h.buckets();
+    if b.is_empty() {
+        return Ok(());
+    }
+    let lo = b.first().map_or(0.0, |x| x.0 as f64 * tick_ns) - tick_ns;
+    let hi = b.last().map_or(1.0, |x| x.0 as f64 * tick_ns) + tick_ns;
+    let top = b.iter().map(|x| x.1).max().unwrap_or(1) as f64 * 1.1;
+    let root = SVGBackend::new(path, (900, 500)).into_drawing_area();
+    root.fill(&WHITE).map_err(err)?;
+    let mut chart = ChartBuilder::on(&root)
+        .caption(title, ("sans-serif", 22))
+        .margin(15)
+        .x_label_area_size(45)
+        .y_label_area_size(70)
+        .build_cartesian_2d(lo..hi, (0.5f64..top.max(2.0)).log_scale())
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .x_desc("ns")
+        .y_desc("cycles (log)")
+        .draw()
+        .map_err(err)?;
+    let w = tick_ns * 0.45;
+    chart
+        .draw_series(b.iter().map(|&(v, c)| {
+            let x = v as f64 * tick_ns;
+            Rectangle::new([(x - w, 0.5), (x + w, c as f64)], BLUE.mix(0.7).filled())
+        }))
+        .map_err(err)?;
+    root.present().map_err(err)
+}
+
+fn series_svg(
+    path: &Path,
+    title: &str,
+    unit: &str,
+    pts: &[(f64, f64, f64)],
+    limit: Option<f64>,
+) -> std::io::Result<()> {
+    if pts.is_empty() {
+        return Ok(());
+    }
+    let t0 = pts[0].0;
+    let t1 = pts[pts.len() - 1].0.max(t0 + 1e-9);
+    let mut lo = pts.iter().map(|p| p.1).fold(f64::INFINITY, f64::min);
+    let mut hi = pts.iter().map(|p| p.2).fold(f64::NEG_INFINITY, f64::max);
+    if let Some(l) = limit {
+        lo = lo.min(l);
+        hi = hi.max(l);
+    }
+    let pad = ((hi - lo) * 0.08).max(1e-9);
+    let root = SVGBackend::new(path, (900, 450)).into_drawing_area();
+    root.fill(&WHITE).map_err(err)?;
+    let mut chart = ChartBuilder::on(&root)
+        .caption(title, ("sans-serif", 22))
+        .margin(15)
+        .x_label_area_size(45)
+        .y_label_area_size(70)
+        .build_cartesian_2d(t0..t1, (lo - pad)..(hi + pad))
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .x_desc("probe time, s")
+        .y_desc(unit)
+        .draw()
+        .map_err(err)?;
+    // min and max per bucket as a band (vertical strokes), drawn in one series
+    chart
+        .draw_series(
+            pts.iter()
+                .map(|&(t, a, b)| PathElement::new(vec![(t, a), (t, b)], BLUE.stroke_width(1))),
+        )
+        .map_err(err)?
+        .label("min … max per time bucket")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE));
+    if let Some(l) = limit {
+        chart
+            .draw_series(LineSeries::new(vec![(t0, l), (t1, l)], RED.stroke_width(2)))
+            .map_err(err)?
+            .label(format!("limit {l:.2} {unit}"))
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], RED));
+    }
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.8))
+        .border_style(BLACK)
+        .draw()
+        .map_err(err)?;
+    root.present().map_err(err)
+}
+
+/// Write every plot into `dir`; returns the files written.
+pub fn write(
+    dir: &Path,
+    c: &PlotCollector,
+    hists: Option<&([DevHistogram; 3], f64)>,
+    limits_v: &BTreeMap<String, f64>,
+) -> std::io::Result<Vec<PathBuf>> {
+    std::fs::create_dir_all(dir)?;
+    let mut out = Vec::new();
+    if let Some((h, tick)) = hists {
+        for (name, title, hist) in [
+            ("period_histogram.svg", "Clock period histogram", &h[0]),
+            (
+                "high_time_histogram.svg",
+                "High time histogram (worst cycles at the left)",
+                &h[1],
+            ),
+            (
+                "low_time_histogram.svg",
+                "Low time histogram (worst cycles at the left)",
+                &h[2],
+            ),
+        ] {
+            let p = dir.join(name);
+            histogram_svg(&p, title, hist, *tick)?;
+            out.push(p);
+        }
+    }
+    let tie = c.tie.points(c.tick_ns);
+    if !tie.is_empty() {
+        let p = dir.join("tie.svg");
+        series_svg(
+            &p,
+            "Time interval error (within 1024-cycle records)",
+            "ns",
+            &tie,
+            None,
+        )?;
+        out.push(p);
+    }
+    for r in c.rails.values() {
+        let p = dir.join(format!(
+            "rail_{}.svg",
+            r.label
+                .chars()
+                .map(|x| if x.is_ascii_alphanumeric() || x == '_' {
+                    x
+                } else {
+                    '_'
+                })
+                .collect::<String>()
+        ));
+        let limit = limits_v.get(&r.label).copied();
+        series_svg(
+            &p,
+            &format!("Rail {} over time", r.label),
+            "V",
+            &r.series.points(c.tick_ns),
+            limit,
+        )?;
+        out.push(p);
+    }
+    Ok(out)
+}
