@@ -172,6 +172,26 @@ fn duty(s: &str) -> Result<f64, String> {
 fn temp(s: &str) -> Result<f64, String> {
     units::parse_temp_c(s).map_err(|e| e.to_string())
 }
+
+/// A temperature argument.
+pub(crate) fn temp_arg(s: &str) -> Result<f64, String> {
+    temp(s)
+}
+
+/// A fraction given as "0.2" or "20%" (0 allowed).
+pub(crate) fn fraction(s: &str) -> Result<f64, String> {
+    let t = s.trim();
+    let v = match t.strip_suffix('%') {
+        Some(p) => p.trim().parse::<f64>().map(|x| x / 100.0),
+        None => t.parse::<f64>(),
+    }
+    .map_err(|_| format!("\"{s}\" is not a fraction: write 0.2 or 20%"))?;
+    if (0.0..10.0).contains(&v) {
+        Ok(v)
+    } else {
+        Err(format!("\"{s}\" is out of range"))
+    }
+}
 fn freq_range(s: &str) -> Result<(f64, f64), String> {
     let (a, b) = s
         .split_once("..")

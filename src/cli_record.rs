@@ -254,6 +254,18 @@ pub struct ReportArgs {
     /// Also write SVG plots into this folder (histograms, TIE, rails over time).
     #[arg(long, value_name = "DIR")]
     pub plots: Option<PathBuf>,
+    /// Judge the clock against this design (the design embedded in the recording otherwise).
+    #[arg(long)]
+    pub design: Option<PathBuf>,
+    /// Do not judge against any design, even an embedded one.
+    #[arg(long, conflicts_with = "design")]
+    pub no_design: bool,
+    /// Margin required over the worst-case budget, e.g. 20% (common practice, no source).
+    #[arg(long, value_parser = crate::cli_probe::fraction, default_value = "20%")]
+    pub guard_band: f64,
+    /// Temperature to derate at (the design's otherwise).
+    #[arg(long, value_parser = crate::cli_probe::temp_arg)]
+    pub temp: Option<f64>,
 }
 
 fn pos_time_or_zero(s: &str) -> std::result::Result<f64, String> {
@@ -333,6 +345,45 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
         }
     })?;
     let file = a.file.display().to_string();
+    // the design: given, or embedded in the recording
+    let lib = crate::budget::Library::builtin();
+    let design = if a.no_design {
+        None
+    } else {
+        match (&a.design, &rec.parsed.header.design) {
+            (Some(p), _) => {
+                Some(crate::budget::Design::load(p, &lib).map_err(miette::Report::new)?)
+            }
+            (None, Some(e)) => Some(
+                crate::budget::Design::parse(
+                    crate::diag::Source::new(
+                        format!("{} (embedded in {file})", e.file),
+                        e.text.clone(),
+                    ),
+                    &lib,
+                )
+                .map_err(|e| miette::Report::new(*e))?,
+            ),
+            (None, None) => None,
+        }
+    };
+    let margin = match &design {
+        Some(d) => {
+            let cfg = crate::margin::MarginConfig {
+                guard_band: a.guard_band,
+                temp_c: a.temp,
+                vcc_v: None,
+            };
+            match crate::margin::evaluate(&snap, d, &lib, &cfg) {
+                Ok(m) => Some(m),
+                Err(e) => {
+                    eprintln!("no margin: {e}");
+                    None
+                }
+            }
+        }
+        None => None,
+    };
     if let (Some(dir), Some(mut p)) = (&a.plots, plots) {
         p.finish();
         let limits = snap
@@ -350,7 +401,11 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
     let mut out = std::io::stdout().lock();
     if a.json {
         let doc = crate::report::recording::doc(&file, &rec.parsed.header, &snap, &sum);
-        serde_json::to_writer_pretty(&mut out, &doc).into_diagnostic()?;
+        let mut v = serde_json::to_value(&doc).into_diagnostic()?;
+        if let Some(m) = &margin {
+            v["margin"] = serde_json::to_value(m).into_diagnostic()?;
+        }
+        serde_json::to_writer_pretty(&mut out, &v).into_diagnostic()?;
         writeln!(out).into_diagnostic()?;
     } else {
         write!(
@@ -359,6 +414,9 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
             crate::report::recording::render(&file, &rec.parsed.header, &snap, &sum, a.markdown)
         )
         .into_diagnostic()?;
+        if let (Some(m), Some(d)) = (&margin, &design) {
+            write!(out, "{}", crate::report::margin::render(m, &d.name)).into_diagnostic()?;
+        }
     }
     if sum.data_bytes == 0 {
         return Err(miette!(
@@ -366,7 +424,10 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
             "{file}: no probe data"
         ));
     }
-    Ok(crate::cli::EXIT_OK)
+    Ok(match &margin {
+        Some(m) if m.verdict != crate::margin::Verdict::InsideWorstCase => crate::cli::EXIT_MARGIN,
+        _ => crate::cli::EXIT_OK,
+    })
 }
 
 /// Options of `export`.

@@ -9,6 +9,7 @@ pub mod cli_record;
 pub mod diag;
 pub mod export;
 pub mod link;
+pub mod margin;
 pub mod measure;
 pub mod record;
 pub mod report;

@@ -29,7 +29,10 @@ const FORBIDDEN: &[(&str, &[&str])] = &[
             "budget", "margin", "link", "sim", "record", "report", "tui", "cli",
         ],
     ),
-    ("margin", &["link", "sim", "record", "report", "tui", "cli"]),
+    (
+        "margin",
+        &["link", "sim", "record", "report", "tui", "cli", "export"],
+    ),
     (
         "sim",
         &[

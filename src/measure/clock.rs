@@ -115,6 +115,35 @@ impl FitSums {
 /// Coverage factor of every expanded uncertainty.
 pub const K: f64 = 2.5;
 
+/// Figures of a short stretch of cycles (about 20 ms, or one burst), for failure onsets.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize)]
+pub struct ShortRun {
+    /// Probe time of its last cycle, s.
+    pub end_s: f64,
+    /// Cycles in it.
+    pub cycles: u64,
+    /// Mean frequency, Hz.
+    pub frequency_hz: f64,
+    /// Duty (mean high / mean period).
+    pub duty: f64,
+    /// Shortest high time, ns.
+    pub high_min_ns: f64,
+    /// Shortest low time, ns.
+    pub low_min_ns: f64,
+}
+
+#[derive(Clone, Copy, Debug, Default)]
+struct RunAcc {
+    start: u64,
+    last: u64,
+    n: u64,
+    sum_p: u64,
+    sum_h: u64,
+    nh: u64,
+    min_h: u64,
+    min_l: u64,
+}
+
 /// Periods per batch: summing 256 contiguous periods lifts their random walk far above the
 /// quantisation of the two end stamps, so period noise is measurable even below one tick.
 pub const BATCH: u32 = 256;
@@ -264,6 +293,9 @@ pub struct ClockState {
     allan_countdown: u64,
     /// The current block.
     pub acc: Option<ClockAcc>,
+    run: RunAcc,
+    /// The last two finished short runs (older first).
+    pub runs: [Option<ShortRun>; 2],
     /// Recent glitches.
     pub glitch_events: Vec<Glitch>,
     /// Recent stalls.
@@ -302,6 +334,8 @@ impl ClockState {
             allan_every: 1,
             allan_countdown: 0,
             acc: None,
+            run: RunAcc::default(),
+            runs: [None, None],
             glitch_events: Vec::new(),
             stall_events: Vec::new(),
         }
@@ -327,8 +361,52 @@ impl ClockState {
         self.allan.as_ref()
     }
 
-    /// Continuity is broken (data lost, new connection): no interval spans the break.
+    /// The current short run so far (None when empty).
+    pub fn current_run(&self) -> Option<ShortRun> {
+        self.short(&self.run)
+    }
+
+    fn short(&self, r: &RunAcc) -> Option<ShortRun> {
+        (r.n > 0).then(|| {
+            let q = self.tick_ns;
+            let mean_p = r.sum_p as f64 / r.n as f64;
+            ShortRun {
+                end_s: r.last as f64 * q * 1e-9,
+                cycles: r.n,
+                frequency_hz: 1e9 / (mean_p * q),
+                duty: if r.nh > 0 {
+                    r.sum_h as f64 / r.nh as f64 / mean_p
+                } else {
+                    0.0
+                },
+                high_min_ns: if r.nh > 0 {
+                    r.min_h as f64 * q
+                } else {
+                    f64::NAN
+                },
+                low_min_ns: if r.min_l < u64::MAX {
+                    r.min_l as f64 * q
+                } else {
+                    f64::NAN
+                },
+            }
+        })
+    }
+
+    fn close_run(&mut self) {
+        if let Some(s) = self.short(&self.run) {
+            self.runs = [self.runs[1], Some(s)];
+        }
+        self.run = RunAcc {
+            min_h: u64::MAX,
+            min_l: u64::MAX,
+            ..RunAcc::default()
+        };
+    }
+
+    /// Continuity is broken (data lost, new connection, burst): no interval spans the break.
     pub fn break_continuity(&mut self) {
+        self.close_run();
         self.pending = None;
         self.suspect = None;
         self.last_rise = None;
@@ -480,6 +558,7 @@ impl ClockState {
             }
             if let Some(l) = low {
                 self.typ_low = ema(self.typ_low, l as f64);
+                self.run.min_l = self.run.min_l.min(l as u64);
                 let a = self.acc.as_mut().expect("block exists");
                 a.low.add(l, t, idx);
                 a.hist_low.record(l);
@@ -496,6 +575,11 @@ impl ClockState {
             if let Some(r) = self.last_rise {
                 let h = (t - r) as i64;
                 self.typ_high = ema(self.typ_high, h as f64);
+                if self.run.n > 0 {
+                    self.run.sum_h += h as u64;
+                    self.run.nh += 1;
+                    self.run.min_h = self.run.min_h.min(h as u64);
+                }
                 let idx = self.anchor.map_or(0, |a| a.1);
                 if self.ensure_acc(None).is_some() {
                     let a = self.acc.as_mut().expect("block exists");
@@ -566,6 +650,20 @@ impl ClockState {
             ));
         }
         let every = self.allan_every;
+        let run_ticks = (20e6 / self.tick_ns) as u64;
+        if self.run.n > 0 && t - self.run.start > run_ticks {
+            self.close_run();
+        }
+        if self.run.n == 0 {
+            self.run.start = t;
+            if self.run.min_h == 0 {
+                self.run.min_h = u64::MAX;
+                self.run.min_l = u64::MAX;
+            }
+        }
+        self.run.n += 1;
+        self.run.sum_p += p as u64;
+        self.run.last = t;
         self.batch_sum += p;
         self.batch_n += 1;
         let batch_done = (self.batch_n == BATCH).then(|| std::mem::take(&mut self.batch_sum));

@@ -47,6 +47,27 @@ impl Default for EngineConfig {
     }
 }
 
+/// The machine failed: the fault line rose. Figures at that moment.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct FaultOnset {
+    /// Probe time of the fault edge, s.
+    pub at_s: f64,
+    /// Clock frequency at the fault: the last observed cycles' frequency, extrapolated along
+    /// the trend of the last two observations to the fault's time.
+    pub frequency_hz: f64,
+    /// Its uncertainty (k = 2.5): the frequency change between the last observation and the
+    /// fault, plus the observations' own spread.
+    pub frequency_uncertainty_hz: f64,
+    /// Duty of the last observed cycles.
+    pub duty: f64,
+    /// Shortest high time of the last observed cycles, ns (± one tick).
+    pub high_min_ns: f64,
+    /// Shortest low time of the last observed cycles, ns (± one tick).
+    pub low_min_ns: f64,
+    /// The lowest rail's latest value at the fault (name, mV).
+    pub rail: Option<(String, f64)>,
+}
+
 /// Which stretch of time a snapshot covers.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
@@ -173,6 +194,7 @@ pub struct Engine {
     block_ticks: u64,
     /// LOG lines from the probe (the most recent 64).
     pub logs: VecDeque<String>,
+    onsets: Vec<FaultOnset>,
 }
 
 /// A figure set for one moment: every clock, rail and line, with the trust counters.
@@ -200,6 +222,8 @@ pub struct Snapshot {
     pub stall_events: Vec<Stall>,
     /// Recent sags (rail name, sag).
     pub sag_events: Vec<(String, Sag)>,
+    /// Failures seen (fault line rising), oldest first.
+    pub fault_onsets: Vec<FaultOnset>,
     /// Trust counters.
     pub trust: Trust,
 }
@@ -243,6 +267,7 @@ impl Engine {
             block_start: 0,
             block_ticks: 1,
             logs: VecDeque::new(),
+            onsets: Vec::new(),
         }
     }
 
@@ -444,9 +469,16 @@ impl Engine {
                     return;
                 };
                 let mut high = e.first_rising;
+                let mut rises = Vec::new();
                 for t in e.ticks() {
                     l.state.change(t, high);
+                    if high && l.role == "fault" {
+                        rises.push(t);
+                    }
                     high = !high;
+                }
+                for t in rises {
+                    self.capture_onset(t);
                 }
             }
             Message::Count(w) => {
@@ -544,6 +576,67 @@ impl Engine {
     /// Probe time of the latest event, s.
     pub fn snapshot_time_s(&self) -> f64 {
         self.now_tick as f64 * self.probe.as_ref().map_or(1.0, |p| p.tick_ns) * 1e-9
+    }
+
+    fn capture_onset(&mut self, tick: u64) {
+        let Some(c) = self.clocks.values().next() else {
+            return;
+        };
+        let q = c.state.tick_ns();
+        let t = tick as f64 * q * 1e-9;
+        // the newest observation with enough cycles, and the one before it
+        let mut obs: Vec<clock::ShortRun> = c.state.runs.iter().flatten().copied().collect();
+        if let Some(cur) = c.state.current_run()
+            && cur.cycles >= 16
+        {
+            obs.push(cur);
+        }
+        let Some(last) = obs.last().copied() else {
+            return;
+        };
+        let (f, u) = match obs.len() {
+            n if n >= 2 => {
+                let prev = obs[n - 2];
+                let dt = last.end_s - prev.end_s;
+                let slope = if dt > 0.0 {
+                    (last.frequency_hz - prev.frequency_hz) / dt
+                } else {
+                    0.0
+                };
+                let ahead = (t - last.end_s).max(0.0);
+                // the failure lies between the last observation and the fault edge
+                let f = last.frequency_hz + slope * ahead * 0.5;
+                (
+                    f,
+                    clock::K
+                        * (slope.abs() * ahead * 0.5 / 3f64.sqrt()).max(
+                            last.frequency_hz * q * 1e-9 * last.frequency_hz
+                                / last.cycles.max(1) as f64,
+                        ),
+                )
+            }
+            _ => (
+                last.frequency_hz,
+                clock::K * last.frequency_hz * q * 1e-9 * last.frequency_hz
+                    / last.cycles.max(1) as f64,
+            ),
+        };
+        let rail = self
+            .rails
+            .values()
+            .filter_map(|r| r.state.last_mv.map(|m| (r.label.clone(), m)))
+            .min_by(|a, b| a.1.total_cmp(&b.1));
+        if self.onsets.len() < 100 {
+            self.onsets.push(FaultOnset {
+                at_s: t,
+                frequency_hz: f,
+                frequency_uncertainty_hz: u,
+                duty: last.duty,
+                high_min_ns: last.high_min_ns,
+                low_min_ns: last.low_min_ns,
+                rail,
+            });
+        }
     }
 
     /// A frame passed its CRC but its body did not decode.
@@ -672,6 +765,7 @@ impl Engine {
             glitch_events,
             stall_events,
             sag_events,
+            fault_onsets: self.onsets.clone(),
             trust: self.trust,
         }
     }

@@ -1,5 +1,6 @@
 //! Human-readable and machine-readable renderings of analysis results (pure).
 
 pub mod budget;
+pub mod margin;
 pub mod plots;
 pub mod recording;

@@ -1,0 +1,283 @@
+//! The margin verdict: hand-computed slack, the direction and size of derating, and the
+//! measured failure onset against the virtual probe's true failure point.
+
+use firmware_protocol::*;
+use slackmeter::budget::{Design, Library, OperatingPoint, solve};
+use slackmeter::diag::Source;
+use slackmeter::margin::{MarginConfig, Verdict, evaluate};
+use slackmeter::measure::{EngineConfig, Feed, Window};
+use slackmeter::sim::model::{Bench, Slice};
+use slackmeter::sim::{BenchModel, FaultLimit, RailModel, SimProbe};
+
+/// The worked example of DESIGN.md §4 as a design: L = 500 ns, H = 125 ns, P = 0.
+const EXAMPLE: &str = r#"
+[design]
+name = "worked example"
+[[part]]
+ref = "U1"
+type = "74HC574"
+[[launch]]
+edge = "fall"
+part = "U1"
+arc = "CLK->Q"
+to = "a"
+[[launch]]
+edge = "rise"
+part = "U1"
+arc = "CLK->Q"
+to = "b"
+[[arc]]
+from = "a"
+to = "a2"
+delay = { max = "500 ns", typ = "400 ns" }
+[[arc]]
+from = "b"
+to = "b2"
+delay = { max = "125 ns", typ = "100 ns" }
+[[capture]]
+signal = "a2"
+edge = "rise"
+setup = "0 ns"
+[[capture]]
+signal = "b2"
+edge = "fall"
+setup = "0 ns"
+[[override]]
+part = "U1"
+arc = "CLK->Q"
+max = "0 ns"
+"#;
+
+fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snapshot {
+    let chans = [Channel {
+        id: 0,
+        kind: ChannelKind::Edge,
+        info: caps::TIMESTAMPS,
+        label: "CLK",
+        scale_num_uv: 0,
+        scale_den: 1,
+        offset_uv: 0,
+    }];
+    let h = Message::Hello(Hello {
+        protocol_version: 1,
+        tick_num_hz: 1_000_000_000,
+        tick_den: 1,
+        timebase_ppm: 0,
+        max_edge_rate_khz: 0,
+        firmware: "t",
+        channels: Channels::List(&chans),
+    });
+    let mut wire = [0u8; MAX_WIRE];
+    let mut bytes = Vec::new();
+    let n = encode_message(&h, 0, &mut wire).unwrap();
+    bytes.extend_from_slice(&wire[..n]);
+    let mut body = [0u8; MAX_BODY];
+    let mut w = EdgeWriter::new(&mut body, 0, true, 0, 100);
+    for k in 0..cycles {
+        let r = 100 + k * period;
+        if k > 0 {
+            assert!(w.push(r));
+        }
+        assert!(w.push(r + high));
+    }
+    assert!(w.push(100 + cycles * period));
+    let nb = w.finish();
+    let n = encode_frame(types::EDGES, 1, &body[..nb], &mut wire).unwrap();
+    bytes.extend_from_slice(&wire[..n]);
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&bytes);
+    f.engine.snapshot(Window::Session)
+}
+
+#[test]
+fn hand_computed_slack() {
+    let lib = Library::builtin();
+    let d = Design::parse(Source::new("example.toml", EXAMPLE.to_string()), &lib).unwrap();
+    // a 1 MHz clock at 30 % duty: high 300 ns, low 700 ns (tick 1 ns, no jitter)
+    let s = snapshot_of(1000, 300, 200);
+    let m = evaluate(
+        &s,
+        &d,
+        &lib,
+        &MarginConfig {
+            vcc_v: Some(5.0),
+            ..MarginConfig::default()
+        },
+    )
+    .unwrap();
+    // worst case: low 700 − 500 = +200 ns (+40 %), high 300 − 125 = +175 ns (+140 %), period 1000 − 0
+    assert!((m.low_slack_ns - 200.0).abs() < 1e-9, "{}", m.low_slack_ns);
+    assert!((m.high_slack_ns - 175.0).abs() < 1e-9);
+    assert!((m.period_slack_ns - 1000.0).abs() < 1e-9);
+    assert!((m.worst_case.phases[0].slack_pct.unwrap() - 40.0).abs() < 1e-9);
+    assert_eq!(m.verdict, Verdict::InsideWorstCase);
+    assert!(m.guard_band_met, "40 % ≥ 20 %");
+    // typical: low 700 − 400 = +300, high 300 − 100 = +200
+    assert!((m.typical.phases[0].slack_ns - 300.0).abs() < 1e-9);
+    assert!((m.typical.phases[1].slack_ns - 200.0).abs() < 1e-9);
+    // a 1.6 MHz clock at 30 %: low 437 ns (< 500 worst case, > 400 typical), high 187 ns
+    let s = snapshot_of(625, 187, 200);
+    let m = evaluate(
+        &s,
+        &d,
+        &lib,
+        &MarginConfig {
+            vcc_v: Some(5.0),
+            ..MarginConfig::default()
+        },
+    )
+    .unwrap();
+    assert_eq!(m.verdict, Verdict::BeyondWorstCaseInsideTypical);
+    assert!(
+        (m.low_slack_ns - (438.0 - 500.0)).abs() < 1e-9,
+        "{}",
+        m.low_slack_ns
+    );
+    assert!(
+        m.verdict_text
+            .contains("beyond the worst-case budget, inside the typical one")
+    );
+    // 2.5 MHz at 30 %: low 280 ns, beyond both
+    let s = snapshot_of(400, 120, 200);
+    let m = evaluate(
+        &s,
+        &d,
+        &lib,
+        &MarginConfig {
+            vcc_v: Some(5.0),
+            ..MarginConfig::default()
+        },
+    )
+    .unwrap();
+    assert_eq!(m.verdict, Verdict::BeyondTypical);
+    assert!(m.verdict_text.starts_with("no margin left"));
+}
+
+#[test]
+fn a_lower_rail_costs_exactly_what_the_derating_predicts() {
+    let lib = Library::builtin();
+    let d = Design::demo(&lib);
+    let s = snapshot_of(500, 250, 200); // 2 MHz, 50 %
+    let at = |v: f64| {
+        evaluate(
+            &s,
+            &d,
+            &lib,
+            &MarginConfig {
+                vcc_v: Some(v),
+                ..MarginConfig::default()
+            },
+        )
+        .unwrap()
+    };
+    let (hi, lo) = (at(5.0), at(4.6));
+    let mut op = OperatingPoint::of(&d);
+    op.vcc_v = 5.0;
+    let b5 = solve(&d, &lib, &op, None, None);
+    op.vcc_v = 4.6;
+    let b46 = solve(&d, &lib, &op, None, None);
+    assert!(lo.low_slack_ns < hi.low_slack_ns);
+    let predicted = b46.low_required_ns - b5.low_required_ns;
+    assert!(
+        ((hi.low_slack_ns - lo.low_slack_ns) - predicted).abs() < 1e-9,
+        "{} vs {predicted}",
+        hi.low_slack_ns - lo.low_slack_ns
+    );
+    assert!(
+        ((hi.high_slack_ns - lo.high_slack_ns) - (b46.high_required_ns - b5.high_required_ns))
+            .abs()
+            < 1e-9
+    );
+}
+
+/// The typical budget of the demo design against supply, as the sim's fault rule.
+fn typical_limit(lib: &Library, d: &Design) -> FaultLimit {
+    let mut op = OperatingPoint::of(d);
+    op.corner = slackmeter::budget::Corner::Typ;
+    let rows = slackmeter::budget::sweep_vcc(d, lib, &op, 3.0, 6.0, 151)
+        .into_iter()
+        .map(|p| {
+            (
+                p.vcc_v,
+                p.low_required_ns,
+                p.high_required_ns,
+                p.period_required_ns,
+            )
+        })
+        .collect();
+    FaultLimit {
+        by_vcc: rows,
+        source: "typ".into(),
+    }
+}
+
+#[test]
+fn measured_failure_onset_matches_the_true_limit() {
+    let lib = Library::builtin();
+    let d = Design::demo(&lib);
+    let limit = typical_limit(&lib, &d);
+    let mut found = 0;
+    for (i, v) in [4.5, 4.6, 4.7, 4.8, 4.9, 5.0, 5.1, 5.2, 5.3, 5.4]
+        .into_iter()
+        .enumerate()
+    {
+        let mut m = BenchModel::scenario("sweep").unwrap();
+        m.rails = vec![RailModel {
+            noise_mv: 2.0,
+            ..RailModel::quiet("VCC_FAR", v * 1000.0)
+        }];
+        m.sweep = Some(slackmeter::sim::Sweep {
+            from_hz: 1.5e6,
+            to_hz: 3.0e6,
+            over_s: 1.5,
+        });
+        m.freq_hz = 1.5e6;
+        m.fault = Some(limit.clone());
+        m.seed = 100 + i as u64;
+        m.burst_edges = Some(1000);
+        m.burst_every_s = 0.01;
+        m.analog_rate_hz = 1000.0;
+        // the truth: the bench itself, slice by slice, until the fault rises
+        let mut b = Bench::new(m.clone());
+        let mut s = Slice::default();
+        let mut true_hz = None;
+        for _ in 0..1500 {
+            let start_s = b.now_ns() * 1e-9;
+            b.advance(1e6, &mut s);
+            if !s.fault.is_empty() {
+                true_hz = Some(1e9 / m.period_at_ns(start_s));
+                break;
+            }
+        }
+        let true_hz = true_hz.expect("the sweep reaches the limit");
+        // the measurement: the same model through the probe protocol and the engine
+        let mut p = SimProbe::new(m, vec![]);
+        p.start();
+        p.run_until(1.5e9);
+        p.flush_all();
+        let mut f = Feed::new(EngineConfig::default());
+        f.push(&std::mem::take(p.output()));
+        let snap = f.engine.snapshot(Window::Session);
+        let onset = snap
+            .fault_onsets
+            .first()
+            .expect("the engine saw the fault")
+            .clone();
+        let err = onset.frequency_hz - true_hz;
+        println!(
+            "rail {v:.1} V: true limit {:.4} MHz, onset {:.4} ± {:.4} MHz (error {:+.4})",
+            true_hz / 1e6,
+            onset.frequency_hz / 1e6,
+            onset.frequency_uncertainty_hz / 1e6,
+            err / 1e6
+        );
+        assert!(
+            err.abs() <= onset.frequency_uncertainty_hz,
+            "at {v} V: error {err} Hz > {} Hz",
+            onset.frequency_uncertainty_hz
+        );
+        assert!((onset.rail.as_ref().unwrap().1 - v * 1000.0).abs() < 20.0);
+        found += 1;
+    }
+    assert_eq!(found, 10);
+}
