@@ -105,6 +105,10 @@ pub struct BudgetArgs {
     /// Print a JSON document instead of the table.
     #[arg(long)]
     pub json: bool,
+    /// Take the supply (each section's measured rail minimum, else the lowest rail) and the
+    /// clock (measured frequency and duty) from a recording.
+    #[arg(long, value_name = "FILE")]
+    pub recording: Option<PathBuf>,
 }
 
 #[derive(clap::Args, Debug)]
@@ -217,6 +221,36 @@ fn budget_cmd(a: BudgetArgs) -> Result<i32> {
     }
     op.section_vcc_v = sections;
 
+    let mut measured_clock = None;
+    if let Some(file) = &a.recording {
+        let (_, _, snap, _) = crate::cli_record::analyse(
+            file,
+            crate::record::ReplayOptions::default(),
+            crate::measure::EngineConfig::default(),
+            |_| {},
+        )?;
+        if a.vcc.is_none()
+            && let Some((_, mv)) = &snap.worst_rail
+        {
+            op.vcc_v = mv / 1000.0;
+            for s in &design.sections {
+                if let Some(r) = s.rail.as_ref().and_then(|l| snap.rail(l))
+                    && let Some(m) = r.min_mv
+                {
+                    op.section_vcc_v.entry(s.name.clone()).or_insert(m / 1000.0);
+                }
+            }
+        }
+        if let Some(c) = snap.clock()
+            && let Some(f) = c.frequency_hz
+        {
+            measured_clock = Some(ClockInput {
+                freq_hz: f,
+                duty: c.duty.unwrap_or(0.5),
+            });
+        }
+    }
+
     if let Some((from, to)) = a.sweep_vcc {
         let pts = budget::sweep_vcc(&design, &lib, &op, from, to, a.points as usize);
         if a.json {
@@ -233,10 +267,16 @@ fn budget_cmd(a: BudgetArgs) -> Result<i32> {
         return Ok(EXIT_OK);
     }
 
-    let clock = a.freq.or(design.clock.freq_hz).map(|f| ClockInput {
-        freq_hz: f,
-        duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
-    });
+    let clock = match (a.freq, measured_clock) {
+        (None, Some(m)) => Some(ClockInput {
+            duty: a.duty.unwrap_or(m.duty),
+            ..m
+        }),
+        _ => a.freq.or(design.clock.freq_hz).map(|f| ClockInput {
+            freq_hz: f,
+            duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
+        }),
+    };
     let b = budget::solve(&design, &lib, &op, clock, a.duty);
     if a.json {
         println!("{}", serde_json::to_string_pretty(&b).into_diagnostic()?);

@@ -392,8 +392,53 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
             .map(|r| (r.name.clone(), r.limit_mv / 1000.0))
             .collect();
         let hists = feed.engine.clock_histograms(Window::Session);
-        let files = crate::report::plots::write(dir, &p, hists.as_ref(), &limits)
+        let mut files = crate::report::plots::write(dir, &p, hists.as_ref(), &limits)
             .map_err(|e| miette!("cannot write plots into {}: {e}", dir.display()))?;
+        if let (Some(d), Some(m)) = (&design, &margin) {
+            let duty = m.duty;
+            let curve = |corner| {
+                let mut op = crate::budget::OperatingPoint::of(d);
+                op.corner = corner;
+                if let Some(t) = a.temp {
+                    op.temp_c = t;
+                }
+                crate::budget::sweep_vcc(d, &lib, &op, 4.0, 5.5, 61)
+                    .into_iter()
+                    .map(|pt| {
+                        (
+                            pt.vcc_v,
+                            1e9 / crate::budget::solver::min_period_ns(
+                                pt.low_required_ns,
+                                pt.high_required_ns,
+                                pt.period_required_ns,
+                                duty,
+                            ),
+                        )
+                    })
+                    .collect::<Vec<_>>()
+            };
+            let worst = curve(crate::budget::Corner::Max);
+            let typ = curve(crate::budget::Corner::Typ);
+            let failure = m.failure.as_ref().map(|f| {
+                (
+                    f.onset.rail.as_ref().map_or(m.vcc_used_v, |r| r.1 / 1000.0),
+                    f.onset.frequency_hz,
+                    f.onset.frequency_uncertainty_hz,
+                )
+            });
+            let path = dir.join("fmax_vs_supply.svg");
+            crate::report::plots::fmax_vcc_svg(
+                &path,
+                &[
+                    ("worst-case budget (max corner)", worst),
+                    ("typical budget", typ),
+                ],
+                Some((m.vcc_used_v, m.clock_hz)),
+                failure,
+            )
+            .map_err(|e| miette!("cannot write {}: {e}", path.display()))?;
+            files.push(path);
+        }
         for f in files {
             eprintln!("wrote {}", f.display());
         }

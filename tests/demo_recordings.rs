@@ -135,3 +135,92 @@ fn plots_are_written_as_svg() {
         "the limit is labelled in words, not only by colour"
     );
 }
+
+#[test]
+fn report_judges_against_the_embedded_design() {
+    let path = format!(
+        "{}/recordings/larkspur-steady.smrec",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["report", &path, "--json"])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "inside the worst-case budget: exit 0"
+    );
+    let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let m = &d["margin"];
+    for key in [
+        "low_slack_ns",
+        "high_slack_ns",
+        "period_slack_ns",
+        "verdict",
+        "vcc_used_v",
+    ] {
+        assert!(!m[key].is_null(), "margin.{key}");
+    }
+    assert_eq!(m["verdict"], "inside-worst-case");
+    // 248 ns measured high time against the budget's high-phase requirement at the rails
+    let h = m["high_slack_ns"].as_f64().unwrap();
+    assert!(h > 0.0 && h < 8.0, "{h}");
+    assert_eq!(m["guard_band_met"], false);
+    assert!(m["fail_onset_hz"].is_null());
+}
+
+#[test]
+fn sweep_report_finds_the_failure_and_exits_with_the_margin_code() {
+    let path = format!(
+        "{}/recordings/larkspur-sweep.smrec",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["report", &path, "--json"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(3), "the sweep ran past the budget");
+    let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let m = &d["margin"];
+    let onset = m["fail_onset_hz"].as_f64().unwrap();
+    // the sim faults past the typical budget at 47 % duty: just under 2.07 MHz at these rails
+    assert!((1.95e6..2.10e6).contains(&onset), "{onset}");
+    assert!(m["headroom"].is_number());
+    let text = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["report", &path])
+        .output()
+        .unwrap();
+    let t = String::from_utf8_lossy(&text.stdout);
+    assert!(
+        t.contains("VERDICT:") && t.contains("Measured failure onset"),
+        "{t}"
+    );
+    // judged against no design: no margin, exit 0
+    let none = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["report", &path, "--no-design"])
+        .output()
+        .unwrap();
+    assert_eq!(none.status.code(), Some(0));
+}
+
+#[test]
+fn budget_takes_supply_and_clock_from_a_recording() {
+    let path = format!(
+        "{}/recordings/larkspur-sagging.smrec",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["budget", "--json", "--recording", &path])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let far = d["section_vcc_v"]["far"].as_f64().unwrap();
+    assert!(far < 4.55, "the far section at its sagging rail: {far}");
+    assert!((d["clock_hz"].as_f64().unwrap() - 2.0e6).abs() < 100.0);
+}

@@ -404,3 +404,96 @@ pub fn write(
     }
     Ok(out)
 }
+
+/// f_max against supply from the budget (worst case and typical, at the measured duty), with the
+/// measured operating point and the measured failure onset.
+pub fn fmax_vcc_svg(
+    path: &Path,
+    curves: &[(&str, Vec<(f64, f64)>)],
+    operating: Option<(f64, f64)>,
+    failure: Option<(f64, f64, f64)>,
+) -> std::io::Result<()> {
+    let all: Vec<(f64, f64)> = curves.iter().flat_map(|c| c.1.iter().copied()).collect();
+    if all.is_empty() {
+        return Ok(());
+    }
+    let (vlo, vhi) = all
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| {
+            (a.min(p.0), b.max(p.0))
+        });
+    let mut fhi = all.iter().map(|p| p.1).fold(0.0, f64::max);
+    if let Some((_, f)) = operating {
+        fhi = fhi.max(f);
+    }
+    if let Some((_, f, u)) = failure {
+        fhi = fhi.max(f + u);
+    }
+    let root = SVGBackend::new(path, (900, 500)).into_drawing_area();
+    root.fill(&WHITE).map_err(err)?;
+    let mut chart = ChartBuilder::on(&root)
+        .caption(
+            "f_max against supply: budget and measurement",
+            ("sans-serif", 22),
+        )
+        .margin(15)
+        .x_label_area_size(45)
+        .y_label_area_size(70)
+        .build_cartesian_2d(vlo..vhi, 0.0..fhi * 1.15 / 1e6)
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .x_desc("supply, V")
+        .y_desc("MHz")
+        .draw()
+        .map_err(err)?;
+    let styles = [
+        BLUE.stroke_width(2),
+        GREEN.stroke_width(2),
+        MAGENTA.stroke_width(2),
+    ];
+    for (i, (name, pts)) in curves.iter().enumerate() {
+        let st = styles[i % styles.len()];
+        chart
+            .draw_series(LineSeries::new(pts.iter().map(|&(v, f)| (v, f / 1e6)), st))
+            .map_err(err)?
+            .label(*name)
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], st));
+    }
+    if let Some((v, f)) = operating {
+        chart
+            .draw_series(std::iter::once(Circle::new(
+                (v, f / 1e6),
+                6,
+                BLACK.filled(),
+            )))
+            .map_err(err)?
+            .label("measured operating point (filled circle)")
+            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
+    }
+    if let Some((v, f, u)) = failure {
+        chart
+            .draw_series(std::iter::once(TriangleMarker::new(
+                (v, f / 1e6),
+                8,
+                RED.filled(),
+            )))
+            .map_err(err)?
+            .label("measured failure onset (triangle)")
+            .legend(|(x, y)| TriangleMarker::new((x + 10, y), 6, RED.filled()));
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![(v, (f - u) / 1e6), (v, (f + u) / 1e6)],
+                RED.stroke_width(2),
+            )))
+            .map_err(err)?;
+    }
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::LowerRight)
+        .background_style(WHITE.mix(0.8))
+        .border_style(BLACK)
+        .draw()
+        .map_err(err)?;
+    root.present().map_err(err)
+}
