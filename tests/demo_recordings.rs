@@ -8,8 +8,9 @@ fn report(name: &str) -> serde_json::Value {
         .args(["report", &path, "--json"])
         .output()
         .unwrap();
+    // 0: inside the worst-case budget; 3: the margin is violated (the sweep)
     assert!(
-        out.status.success(),
+        matches!(out.status.code(), Some(0 | 3)),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
