@@ -9,7 +9,19 @@ use std::time::{Duration, Instant};
 use serde::Serialize;
 
 use super::format::{ChunkKind, ChunkReader, Damage, Parsed, RecordingError, parse_header};
-use crate::measure::Feed;
+
+/// What a replay feeds: the measurement engine's byte feed implements it (in `report`), so
+/// this module needs no knowledge of the engine.
+pub trait ReplaySink {
+    /// Probe bytes as recorded.
+    fn data(&mut self, bytes: &[u8]);
+    /// The link came back (a recorded reconnection).
+    fn reconnect(&mut self);
+    /// Forget the statistics so far (the start of `--from`).
+    fn reset(&mut self);
+    /// Probe time reached, s (to place marks).
+    fn probe_time_s(&self) -> f64;
+}
 
 /// A recording opened for reading.
 pub struct Recording {
@@ -113,7 +125,7 @@ impl Recording {
     /// Feed every chunk into `feed`; `progress(bytes_read)` is called as it goes.
     pub fn replay(
         &mut self,
-        feed: &mut Feed,
+        feed: &mut impl ReplaySink,
         opts: ReplayOptions,
         progress: impl FnMut(u64),
     ) -> Result<ReplaySummary, RecordingError> {
@@ -123,7 +135,7 @@ impl Recording {
     /// [`Recording::replay`], also handing every data payload to `tap` (plots, exports).
     pub fn replay_tapped(
         &mut self,
-        feed: &mut Feed,
+        feed: &mut impl ReplaySink,
         opts: ReplayOptions,
         mut progress: impl FnMut(u64),
         mut tap: impl FnMut(&[u8]),
@@ -145,7 +157,7 @@ impl Recording {
                 break;
             }
             if !reset_done && opts.from_s.is_some_and(|from| at_s >= from) {
-                feed.engine.reset();
+                feed.reset();
                 reset_done = true;
             }
             if let Some(speed) = opts.speed {
@@ -161,11 +173,11 @@ impl Recording {
             match c.kind {
                 ChunkKind::Data => {
                     s.data_bytes += c.payload.len() as u64;
-                    feed.push(&c.payload);
+                    feed.data(&c.payload);
                     tap(&c.payload);
                 }
                 ChunkKind::Mark => {
-                    let probe_s = feed.engine.snapshot_time_s();
+                    let probe_s = feed.probe_time_s();
                     s.marks.push(MarkAt {
                         at_s,
                         probe_s,
@@ -182,7 +194,7 @@ impl Recording {
                             .unwrap_or(0)
                             > 0
                     {
-                        feed.note_reconnect();
+                        feed.reconnect();
                     }
                     s.links.push(LinkAt { at_s, event });
                 }

@@ -4,3 +4,19 @@ pub mod budget;
 pub mod margin;
 pub mod plots;
 pub mod recording;
+
+/// A recording replays into the measurement engine's byte feed.
+impl crate::record::replay::ReplaySink for crate::measure::Feed {
+    fn data(&mut self, bytes: &[u8]) {
+        self.push(bytes);
+    }
+    fn reconnect(&mut self) {
+        self.note_reconnect();
+    }
+    fn reset(&mut self) {
+        self.engine.reset();
+    }
+    fn probe_time_s(&self) -> f64 {
+        self.engine.snapshot_time_s()
+    }
+}
