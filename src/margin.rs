@@ -233,10 +233,18 @@ pub fn evaluate(
         op.vcc_v = mv / 1000.0;
         vcc_source = format!("lowest measured rail {name} (minimum over the window)");
         for s in &design.sections {
-            if let Some(r) = s.rail.as_ref().and_then(|label| snap.rail(label))
-                && let Some(m) = r.min_mv
-            {
-                op.section_vcc_v.insert(s.name.clone(), m / 1000.0);
+            match s.rail.as_ref().map(|label| (label, snap.rail(label))) {
+                Some((_, Some(r))) => {
+                    if let Some(m) = r.min_mv {
+                        op.section_vcc_v.insert(s.name.clone(), m / 1000.0);
+                    }
+                }
+                Some((label, None)) => notes.push(format!(
+                    "the design's section {} names rail {label}, which the recording does not have (rails: {}): the lowest rail stands in",
+                    s.name,
+                    snap.rails.iter().map(|r| r.name.as_str()).collect::<Vec<_>>().join(", ")
+                )),
+                None => {}
             }
         }
         if !op.section_vcc_v.is_empty() {

@@ -281,3 +281,31 @@ fn measured_failure_onset_matches_the_true_limit() {
     }
     assert_eq!(found, 10);
 }
+
+#[test]
+fn a_design_whose_rails_the_recording_lacks_is_reported() {
+    let lib = Library::builtin();
+    let d = Design::demo(&lib);
+    // a recording whose only rail is called VCC (the demo design names VCC_NEAR/MID/FAR)
+    let mut m = BenchModel::scenario("steady").unwrap();
+    m.rails = vec![RailModel::quiet("VCC", 4950.0)];
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(20e6);
+    p.flush_all();
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&std::mem::take(p.output()));
+    let snap = f.engine.snapshot(Window::Session);
+    let mg = evaluate(&snap, &d, &lib, &MarginConfig::default()).unwrap();
+    assert!(
+        mg.notes
+            .iter()
+            .any(|n| n.contains("names rail VCC_FAR") && n.contains("rails: VCC")),
+        "{:?}",
+        mg.notes
+    );
+    assert!(
+        (mg.vcc_used_v - 4.95).abs() < 0.01,
+        "the lowest rail stands in"
+    );
+}

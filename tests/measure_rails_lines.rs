@@ -122,3 +122,59 @@ fn dropped_frames_show_in_the_trust_counters() {
     clean.push(&bytes);
     assert!(clean.engine.snapshot(Window::Session).trust.clean());
 }
+
+#[test]
+fn a_stopped_heartbeat_marks_a_failure_onset_when_there_is_no_fault_line() {
+    let mut m = BenchModel::scenario("sweep").unwrap();
+    m.heartbeat_hz = 10.0;
+    // the machine fails (heartbeat stops) but this probe has no fault line wired: the sim's fault
+    // channel simply stays silent because we drop its events from the stream below
+    // fail on a phase shorter than 1 µs: at 47 % duty that is 470 kHz, reached 1.75 s into a
+    // 400 → 520 kHz sweep over 3 s (jitter brings it slightly earlier)
+    m.fault = Some(slackmeter::sim::FaultLimit {
+        by_vcc: vec![(0.0, 1000.0, 1000.0, 2000.0), (9.0, 1000.0, 1000.0, 2000.0)],
+        source: "test".into(),
+    });
+    m.sweep = Some(slackmeter::sim::Sweep {
+        from_hz: 400e3,
+        to_hz: 520e3,
+        over_s: 3.0,
+    });
+    m.freq_hz = 400e3;
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(2.3e9);
+    p.flush_all();
+    let bytes = std::mem::take(p.output());
+    // keep every frame except the fault line's (channel 2) LINES frames
+    let mut keep = Vec::new();
+    let mut d = firmware_protocol::StreamDecoder::new();
+    let mut wire = [0u8; firmware_protocol::MAX_WIRE];
+    d.push(&bytes, |f| {
+        let fault_line =
+            f.header.msg_type == firmware_protocol::types::LINES && f.body.first() == Some(&2);
+        if !fault_line {
+            let n =
+                firmware_protocol::encode_frame(f.header.msg_type, f.header.seq, f.body, &mut wire)
+                    .unwrap();
+            keep.extend_from_slice(&wire[..n]);
+        }
+    });
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&keep);
+    let s = f.engine.snapshot(Window::Session);
+    let o = s
+        .fault_onsets
+        .first()
+        .expect("an onset from the stopped heartbeat");
+    assert_eq!(o.cause, "heartbeat stopped");
+    // the onset is the last heartbeat before the failure: at most one heartbeat interval (50 ms)
+    // before it, and the failure comes at or a little before 1.75 s
+    assert!((1.3..1.8).contains(&o.at_s), "{}", o.at_s);
+    let f_then = 400e3 + 40e3 * o.at_s;
+    assert!(
+        (o.frequency_hz - f_then).abs() < 2e3,
+        "{} vs {f_then}",
+        o.frequency_hz
+    );
+}

@@ -50,7 +50,9 @@ impl Default for EngineConfig {
 /// The machine failed: the fault line rose. Figures at that moment.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct FaultOnset {
-    /// Probe time of the fault edge, s.
+    /// What showed the failure: "fault line" or "heartbeat stopped".
+    pub cause: String,
+    /// Probe time of the fault edge (or of the last heartbeat), s.
     pub at_s: f64,
     /// Clock frequency at the fault: the last observed cycles' frequency, extrapolated along
     /// the trend of the last two observations to the fault's time.
@@ -195,6 +197,8 @@ pub struct Engine {
     /// LOG lines from the probe (the most recent 64).
     pub logs: VecDeque<String>,
     onsets: Vec<FaultOnset>,
+    /// The onset a stopped heartbeat would mean (captured at each heartbeat edge).
+    heartbeat_onset: Option<FaultOnset>,
 }
 
 /// A figure set for one moment: every clock, rail and line, with the trust counters.
@@ -268,6 +272,7 @@ impl Engine {
             block_ticks: 1,
             logs: VecDeque::new(),
             onsets: Vec::new(),
+            heartbeat_onset: None,
         }
     }
 
@@ -470,15 +475,26 @@ impl Engine {
                 };
                 let mut high = e.first_rising;
                 let mut rises = Vec::new();
+                let mut beats = Vec::new();
                 for t in e.ticks() {
                     l.state.change(t, high);
                     if high && l.role == "fault" {
                         rises.push(t);
                     }
+                    if l.role == "heartbeat" {
+                        beats.push(t);
+                    }
                     high = !high;
                 }
                 for t in rises {
-                    self.capture_onset(t);
+                    if let Some(o) = self.onset_at(t, "fault line")
+                        && self.onsets.len() < 100
+                    {
+                        self.onsets.push(o);
+                    }
+                }
+                if let Some(&t) = beats.last() {
+                    self.heartbeat_onset = self.onset_at(t, "heartbeat stopped");
                 }
             }
             Message::Count(w) => {
@@ -578,10 +594,8 @@ impl Engine {
         self.now_tick as f64 * self.probe.as_ref().map_or(1.0, |p| p.tick_ns) * 1e-9
     }
 
-    fn capture_onset(&mut self, tick: u64) {
-        let Some(c) = self.clocks.values().next() else {
-            return;
-        };
+    fn onset_at(&self, tick: u64, cause: &str) -> Option<FaultOnset> {
+        let c = self.clocks.values().next()?;
         let q = c.state.tick_ns();
         let t = tick as f64 * q * 1e-9;
         // the newest observation with enough cycles, and the one before it
@@ -591,9 +605,7 @@ impl Engine {
         {
             obs.push(cur);
         }
-        let Some(last) = obs.last().copied() else {
-            return;
-        };
+        let last = obs.last().copied()?;
         let (f, u) = match obs.len() {
             n if n >= 2 => {
                 let prev = obs[n - 2];
@@ -626,17 +638,16 @@ impl Engine {
             .values()
             .filter_map(|r| r.state.last_mv.map(|m| (r.label.clone(), m)))
             .min_by(|a, b| a.1.total_cmp(&b.1));
-        if self.onsets.len() < 100 {
-            self.onsets.push(FaultOnset {
-                at_s: t,
-                frequency_hz: f,
-                frequency_uncertainty_hz: u,
-                duty: last.duty,
-                high_min_ns: last.high_min_ns,
-                low_min_ns: last.low_min_ns,
-                rail,
-            });
-        }
+        Some(FaultOnset {
+            cause: cause.to_string(),
+            at_s: t,
+            frequency_hz: f,
+            frequency_uncertainty_hz: u,
+            duty: last.duty,
+            high_min_ns: last.high_min_ns,
+            low_min_ns: last.low_min_ns,
+            rail,
+        })
     }
 
     /// A frame passed its CRC but its body did not decode.
@@ -735,7 +746,7 @@ impl Engine {
             })
             .collect();
         sag_events.sort_by(|a, b| a.1.start_s.total_cmp(&b.1.start_s));
-        let lines = self
+        let lines: Vec<LineSnapshot> = self
             .lines
             .iter()
             .map(|(id, l)| {
@@ -753,6 +764,16 @@ impl Engine {
             Window::Session => probe_time_s,
             Window::Recent => self.cfg.window_s.min(probe_time_s),
         };
+        let mut fault_onsets = self.onsets.clone();
+        // a heartbeat silent for more than three of its intervals, with no fault line
+        if fault_onsets.is_empty()
+            && let Some(hb) = lines.iter().find(|l: &&LineSnapshot| l.role == "heartbeat")
+            && let (Some(rate), Some(since)) = (hb.rate_hz, hb.since_change_s)
+            && since > 3.0 / (2.0 * rate)
+            && let Some(on) = &self.heartbeat_onset
+        {
+            fault_onsets.push(on.clone());
+        }
         Snapshot {
             window,
             window_s,
@@ -765,7 +786,7 @@ impl Engine {
             glitch_events,
             stall_events,
             sag_events,
-            fault_onsets: self.onsets.clone(),
+            fault_onsets,
             trust: self.trust,
         }
     }
