@@ -69,6 +69,13 @@ slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --p
     Report(crate::cli_record::ReportArgs),
     /// Export a recording's signals for a waveform viewer (VCD) or a spreadsheet (CSV).
     Export(crate::cli_record::ExportArgs),
+    /// The live bench view: watch a probe (or the virtual probe) with figures and slack.
+    #[command(
+        after_help = "Keys are shown at the bottom of the view; ? shows them all.\nExample: slackmeter watch --sim"
+    )]
+    Watch(Box<crate::cli_watch::WatchArgs>),
+    /// Replay a recording in the live view (p pauses, + - change speed, n jumps to a mark).
+    Replay(crate::cli_watch::ReplayArgs),
 }
 
 #[derive(clap::Args, Debug)]
@@ -183,6 +190,8 @@ pub fn run(cli: Cli) -> std::result::Result<i32, (i32, miette::Report)> {
         Command::Record(a) => crate::cli_record::record_cmd(*a).map_err(input),
         Command::Report(a) => crate::cli_record::report_cmd(a).map_err(input),
         Command::Export(a) => crate::cli_record::export_cmd(a).map_err(input),
+        Command::Watch(a) => crate::cli_watch::watch_cmd(*a).map_err(|e| (EXIT_RUNTIME, e)),
+        Command::Replay(a) => crate::cli_watch::replay_cmd(a).map_err(|e| (EXIT_RUNTIME, e)),
     }
 }
 
