@@ -34,7 +34,7 @@ fn readme_opens_with_the_job_then_the_two_commands() {
     let text = readme();
     let fresh = text.split("## On a fresh machine").nth(1).unwrap();
     let block = fresh.split("```").nth(1).unwrap();
-    assert!(block.contains("cargo run --release -- budget"));
+    assert!(block.contains("cargo run --release -- watch --sim"));
     assert!(block.contains("cargo test --workspace"));
     let ci = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/.ci/run")).unwrap();
     assert!(

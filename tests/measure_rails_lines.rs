@@ -178,3 +178,130 @@ fn a_stopped_heartbeat_marks_a_failure_onset_when_there_is_no_fault_line() {
         o.frequency_hz
     );
 }
+
+/// Whatever well-formed messages a probe sends (any ticks, channels, counts, restarts), the
+/// engine takes them without panicking and its snapshot stays finite where it reports numbers.
+#[test]
+fn arbitrary_probe_messages_never_panic_the_engine() {
+    use firmware_protocol::*;
+    let mut x: u64 = 0xdead_beef;
+    let mut rnd = |n: u64| {
+        x ^= x << 13;
+        x ^= x >> 7;
+        x ^= x << 17;
+        x % n.max(1)
+    };
+    let chans = [
+        Channel {
+            id: 0,
+            kind: ChannelKind::Edge,
+            info: 7,
+            label: "CLK",
+            scale_num_uv: 0,
+            scale_den: 1,
+            offset_uv: 0,
+        },
+        Channel {
+            id: 1,
+            kind: ChannelKind::Line,
+            info: roles::FAULT,
+            label: "F",
+            scale_num_uv: 0,
+            scale_den: 1,
+            offset_uv: 0,
+        },
+        Channel {
+            id: 2,
+            kind: ChannelKind::Analog,
+            info: 12,
+            label: "V",
+            scale_num_uv: -5000,
+            scale_den: 3,
+            offset_uv: i32::MAX,
+        },
+    ];
+    for round in 0..300 {
+        let mut f = Feed::new(EngineConfig::default());
+        let mut wire = [0u8; MAX_WIRE];
+        let mut bytes = Vec::new();
+        for i in 0..40u16 {
+            let pick = rnd(6);
+            let big = [0u64, 1, 255, u32::MAX as u64, u64::MAX / 2, u64::MAX - 5][rnd(6) as usize];
+            let m = match pick {
+                0 => Message::Hello(Hello {
+                    protocol_version: 1,
+                    tick_num_hz: 1 + rnd(u64::MAX / 2),
+                    tick_den: 1 + rnd(1000) as u32,
+                    timebase_ppm: 50,
+                    max_edge_rate_khz: 0,
+                    firmware: "x",
+                    channels: Channels::List(&chans),
+                }),
+                1 | 2 => {
+                    let mut body = [0u8; MAX_BODY];
+                    let mut w = EdgeWriter::new(
+                        &mut body,
+                        rnd(3) as u8,
+                        rnd(2) == 0,
+                        rnd(4) as u8,
+                        big.wrapping_add(rnd(1000)),
+                    );
+                    let mut t = big;
+                    for _ in 0..rnd(200) {
+                        let span = if rnd(2) == 0 { 3 } else { 1 << 40 };
+                        t = t.wrapping_add(1 + rnd(span));
+                        if !w.push(t) {
+                            break;
+                        }
+                    }
+                    let n = w.finish();
+                    let ty = if pick == 1 {
+                        types::EDGES
+                    } else {
+                        types::LINES
+                    };
+                    let len = encode_frame(ty, i, &body[..n], &mut wire).unwrap();
+                    bytes.extend_from_slice(&wire[..len]);
+                    continue;
+                }
+                3 => {
+                    let raw: Vec<u8> = (0..rnd(40) * 2).map(|_| rnd(256) as u8).collect();
+                    let msg = Message::Analog(Analog {
+                        channel: rnd(4) as u8,
+                        flags: rnd(2) as u8,
+                        first_tick: big,
+                        interval_ticks: 1 + rnd(u32::MAX as u64) as u32,
+                        raw: &raw,
+                    });
+                    let len = encode_message(&msg, i, &mut wire).unwrap();
+                    bytes.extend_from_slice(&wire[..len]);
+                    continue;
+                }
+                4 => Message::Count(CountWindow {
+                    channel: 0,
+                    method: rnd(2) as u8,
+                    start_tick: big,
+                    gate_ticks: rnd(u32::MAX as u64) as u32,
+                    edges: rnd(u32::MAX as u64) as u32,
+                    samples: 10,
+                    samples_high: rnd(11) as u32,
+                }),
+                _ => Message::Status(Status {
+                    overflows: rnd(9) as u16,
+                    ..Status::default()
+                }),
+            };
+            let len = encode_message(&m, i, &mut wire).unwrap();
+            bytes.extend_from_slice(&wire[..len]);
+        }
+        f.push(&bytes);
+        for w in [Window::Session, Window::Recent] {
+            let s = f.engine.snapshot(w);
+            if let Some(c) = s.clock()
+                && let Some(fr) = c.frequency_hz
+            {
+                assert!(!fr.is_nan(), "round {round}: NaN frequency");
+            }
+        }
+    }
+}

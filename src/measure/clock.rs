@@ -81,20 +81,21 @@ impl FitSums {
     #[inline]
     fn add(&mut self, k: i64, u: i64) {
         let (k, u) = (i128::from(k), i128::from(u));
+        // saturating: only an absurd probe gets near the limits, and then the TIE is garbage anyway
         self.n += 1;
-        self.sk += k;
-        self.skk += k * k;
-        self.su += u;
-        self.sku += k * u;
-        self.suu += u * u;
+        self.sk = self.sk.saturating_add(k);
+        self.skk = self.skk.saturating_add(k.saturating_mul(k));
+        self.su = self.su.saturating_add(u);
+        self.sku = self.sku.saturating_add(k.saturating_mul(u));
+        self.suu = self.suu.saturating_add(u.saturating_mul(u));
     }
     fn merge(&mut self, o: &FitSums) {
         self.n += o.n;
-        self.sk += o.sk;
-        self.skk += o.skk;
-        self.su += o.su;
-        self.sku += o.sku;
-        self.suu += o.suu;
+        self.sk = self.sk.saturating_add(o.sk);
+        self.skk = self.skk.saturating_add(o.skk);
+        self.su = self.su.saturating_add(o.su);
+        self.sku = self.sku.saturating_add(o.sku);
+        self.suu = self.suu.saturating_add(o.suu);
     }
     /// RMS residual (ticks) against the least-squares line.
     fn residual_rms(&self) -> Option<f64> {
@@ -102,15 +103,28 @@ impl FitSums {
             return None;
         }
         let n = self.n as f64;
-        let sxx = (self.n * self.skk - self.sk * self.sk) as f64 / n;
-        let sxy = (self.n * self.sku - self.sk * self.su) as f64 / n;
-        let syy = (self.n * self.suu - self.su * self.su) as f64 / n;
+        // n·Σab − Σa·Σb exactly when it fits, in floating point otherwise
+        let centred = |sab: i128, sa: i128, sb: i128| match self
+            .n
+            .checked_mul(sab)
+            .and_then(|x| sa.checked_mul(sb).and_then(|y| x.checked_sub(y)))
+        {
+            Some(v) => v as f64,
+            None => n * sab as f64 - sa as f64 * sb as f64,
+        };
+        let sxx = centred(self.skk, self.sk, self.sk) / n;
+        let sxy = centred(self.sku, self.sk, self.su) / n;
+        let syy = centred(self.suu, self.su, self.su) / n;
         if sxx <= 0.0 {
             return None;
         }
         Some(((syy - sxy * sxy / sxx).max(0.0) / n).sqrt())
     }
 }
+
+/// A gap longer than this (in ticks) is never one period: continuity restarts after it, which
+/// also bounds every sum of periods.
+pub const MAX_GAP_TICKS: u64 = 1 << 40;
 
 /// Coverage factor of every expanded uncertainty.
 pub const K: f64 = 2.5;
@@ -457,6 +471,21 @@ impl ClockState {
     /// One edge (ticks strictly increasing, polarities alternating).
     #[inline]
     pub fn edge(&mut self, tick: u64, rising: bool) {
+        // time never runs backwards here: a probe that does (a bug, a restart) starts a new run
+        let newest = self
+            .suspect
+            .or(self.pending)
+            .map(|p| p.0)
+            .or(self.last_edge);
+        if newest.is_some_and(|n| tick <= n) || self.anchor.is_some_and(|(at, _)| tick <= at) {
+            self.break_continuity();
+            // the cycle index carries on from here (the ideal clock cannot follow a restart)
+            self.anchor = self.anchor.map(|(_, k)| (tick, k));
+            self.last_edge = None;
+            if let Some(a) = self.acc.as_mut() {
+                a.span = None;
+            }
+        }
         if let Some(a) = self.acc.as_mut() {
             a.edges += 1;
             a.span = Some(a.span.map_or((tick, tick), |(s, _)| (s, tick)));
@@ -520,7 +549,7 @@ impl ClockState {
 
     fn commit(&mut self, t: u64, rising: bool) {
         if let Some(last) = self.last_edge
-            && t - last > self.stall_ticks
+            && (t - last > self.stall_ticks || t - last > MAX_GAP_TICKS)
         {
             let s = Stall {
                 at_s: last as f64 * self.tick_ns * 1e-9,
@@ -546,7 +575,9 @@ impl ClockState {
             let idx = match (self.last_rise, self.anchor) {
                 (Some(_), Some((_, k))) => k + 1,
                 (None, Some((at, k))) if self.typ_period > 0.0 => {
-                    k + ((t - at) as f64 / self.typ_period).round().max(1.0) as u64
+                    k + (t.saturating_sub(at) as f64 / self.typ_period)
+                        .round()
+                        .max(1.0) as u64
                 }
                 (None, Some((_, k))) => k + 1,
                 (_, None) => 0,
@@ -609,8 +640,10 @@ impl ClockState {
         // also brings its opening edge into the fit
         let first_fit = self.fit_origin.is_none();
         let (k0, t0) = *self.fit_origin.get_or_insert((k, t - p as u64));
-        let kk = (k + 1 - k0) as i64;
-        let u = (t as i64 - t0 as i64) - kk * pref;
+        // in i128 and clamped: a probe's ticks may be anywhere in u64
+        let clamp = |v: i128| v.clamp(i128::from(i64::MIN / 4), i128::from(i64::MAX / 4)) as i64;
+        let kk = clamp(i128::from(k) + 1 - i128::from(k0));
+        let u = clamp(i128::from(t) - i128::from(t0) - i128::from(kk) * i128::from(pref));
         // N-cycle error: the ring holds the last rising edges of this run
         let ring_cap = self.ring.len();
         let mask = ring_cap - 1;

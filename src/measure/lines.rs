@@ -82,6 +82,10 @@ impl LineState {
     }
     /// One change to `high` at `tick`.
     pub fn change(&mut self, tick: u64, high: bool) {
+        if self.last_change.is_some_and(|l| tick <= l) {
+            // time ran backwards (a probe restart or bug): forget the open pulse
+            self.last_rise = None;
+        }
         self.level = Some(high);
         self.last_change = Some(tick);
         self.acc.edges += 1;
@@ -90,7 +94,9 @@ impl LineState {
             self.last_rise = Some(tick);
             self.acc.rise_span = Some(self.acc.rise_span.map_or((tick, tick), |(s, _)| (s, tick)));
         } else if let Some(r) = self.last_rise.take() {
-            self.acc.high_pulses.add((tick - r) as i64, tick, 0);
+            self.acc
+                .high_pulses
+                .add(tick.saturating_sub(r) as i64, tick, 0);
         }
         if self.events.len() >= self.max_events {
             self.events.remove(0);

@@ -197,6 +197,10 @@ pub struct Engine {
     /// LOG lines from the probe (the most recent 64).
     pub logs: VecDeque<String>,
     onsets: Vec<FaultOnset>,
+    /// Added to every tick: after a later HELLO (a probe restart or reconnection) the probe's
+    /// ticks start again, and the engine's timeline must not run backwards.
+    tick_offset: u64,
+    seen_data: bool,
     /// The onset a stopped heartbeat would mean (captured at each heartbeat edge).
     heartbeat_onset: Option<FaultOnset>,
 }
@@ -272,6 +276,8 @@ impl Engine {
             block_ticks: 1,
             logs: VecDeque::new(),
             onsets: Vec::new(),
+            tick_offset: 0,
+            seen_data: false,
             heartbeat_onset: None,
         }
     }
@@ -367,7 +373,7 @@ impl Engine {
         if tick > self.now_tick {
             self.now_tick = tick;
         }
-        if self.now_tick < self.block_start + self.block_ticks {
+        if self.now_tick < self.block_start.saturating_add(self.block_ticks) {
             return;
         }
         // close the current block of every channel
@@ -445,12 +451,17 @@ impl Engine {
                 } else {
                     self.break_all();
                 }
+                if self.seen_data {
+                    self.tick_offset = self.now_tick + 1;
+                }
             }
             Message::Edges(e) => {
                 if e.flags & FLAG_LOST_BEFORE != 0 {
                     self.trust.probe_lost_flags += 1;
                 }
-                self.advance(e.first_tick);
+                self.seen_data = true;
+                let off = self.tick_offset;
+                self.advance(e.first_tick.saturating_add(off));
                 let Some(c) = self.clocks.get_mut(&e.channel) else {
                     self.trust.unknown_channel += 1;
                     return;
@@ -459,8 +470,8 @@ impl Engine {
                     c.state.break_continuity();
                 }
                 let mut rising = e.first_rising;
-                let mut last = e.first_tick;
-                for t in e.ticks() {
+                let mut last = e.first_tick.saturating_add(off);
+                for t in e.ticks().map(|t| t.saturating_add(off)) {
                     c.state.edge(t, rising);
                     rising = !rising;
                     last = t;
@@ -468,7 +479,9 @@ impl Engine {
                 self.advance(last);
             }
             Message::Lines(e) => {
-                self.advance(e.first_tick);
+                self.seen_data = true;
+                let off = self.tick_offset;
+                self.advance(e.first_tick.saturating_add(off));
                 let Some(l) = self.lines.get_mut(&e.channel) else {
                     self.trust.unknown_channel += 1;
                     return;
@@ -476,7 +489,7 @@ impl Engine {
                 let mut high = e.first_rising;
                 let mut rises = Vec::new();
                 let mut beats = Vec::new();
-                for t in e.ticks() {
+                for t in e.ticks().map(|t| t.saturating_add(off)) {
                     l.state.change(t, high);
                     if high && l.role == "fault" {
                         rises.push(t);
@@ -498,7 +511,12 @@ impl Engine {
                 }
             }
             Message::Count(w) => {
-                self.advance(w.start_tick + u64::from(w.gate_ticks));
+                self.seen_data = true;
+                self.advance(
+                    w.start_tick
+                        .saturating_add(u64::from(w.gate_ticks))
+                        .saturating_add(self.tick_offset),
+                );
                 let Some(c) = self.clocks.get_mut(&w.channel) else {
                     self.trust.unknown_channel += 1;
                     return;
@@ -515,7 +533,9 @@ impl Engine {
                 if a.flags & FLAG_LOST_BEFORE != 0 {
                     self.trust.probe_lost_flags += 1;
                 }
-                self.advance(a.first_tick);
+                self.seen_data = true;
+                let off = self.tick_offset;
+                self.advance(a.first_tick.saturating_add(off));
                 let tick_ns = self.probe.as_ref().map_or(1.0, |p| p.tick_ns);
                 let Some(r) = self.rails.get_mut(&a.channel) else {
                     self.trust.unknown_channel += 1;
@@ -525,10 +545,10 @@ impl Engine {
                     r.state.break_continuity();
                 }
                 r.interval_s = f64::from(a.interval_ticks) * tick_ns * 1e-9;
-                let mut t = a.first_tick;
+                let mut t = a.first_tick.saturating_add(off);
                 for s in a.samples() {
                     r.state.sample(t, s, a.interval_ticks);
-                    t += u64::from(a.interval_ticks);
+                    t = t.saturating_add(u64::from(a.interval_ticks));
                 }
             }
             Message::Status(s) => {

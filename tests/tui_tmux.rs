@@ -1,0 +1,128 @@
+//! The live view in a real terminal: tmux runs `slackmeter watch` against `slackmeter sim --pty`,
+//! send-keys drives it, capture-pane reads the screen. The link is cut and restored meanwhile.
+
+use std::path::Path;
+use std::process::{Child, Command, Stdio};
+use std::time::{Duration, Instant};
+
+fn tmux(args: &[&str]) -> String {
+    let out = Command::new("tmux").args(args).output().expect("tmux runs");
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+fn sim(link: &Path) -> Child {
+    let c = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["sim", "--pty", "--bursts", "4000/50ms", "--link"])
+        .arg(link)
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let until = Instant::now() + Duration::from_secs(10);
+    while std::fs::read_link(link).is_err() {
+        assert!(Instant::now() < until, "sim started");
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    c
+}
+
+fn wait_for(session: &str, what: &str, secs: u64) -> String {
+    let until = Instant::now() + Duration::from_secs(secs);
+    loop {
+        let screen = tmux(&["capture-pane", "-p", "-t", session]);
+        if screen.contains(what) {
+            return screen;
+        }
+        assert!(
+            Instant::now() < until,
+            "screen never showed {what:?}:\n{screen}"
+        );
+        std::thread::sleep(Duration::from_millis(100));
+    }
+}
+
+#[test]
+fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
+    if Command::new("tmux").arg("-V").output().is_err() {
+        eprintln!("tmux is not installed: skipped (CI installs it)");
+        return;
+    }
+    let dir = std::env::temp_dir().join(format!("slackmeter-tmux-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    let link = dir.join("probe");
+    let session = format!("slackmeter-test-{}", std::process::id());
+    let mut probe = sim(&link);
+    let cmd = format!(
+        "{} watch {} ; sleep 2",
+        env!("CARGO_BIN_EXE_slackmeter"),
+        link.display()
+    );
+    tmux(&["-L", &session, "kill-server"]);
+    let sock = ["-L", session.as_str()];
+    let t = |a: &[&str]| {
+        let mut v: Vec<&str> = sock.to_vec();
+        v.extend_from_slice(a);
+        tmux(&v)
+    };
+    t(&[
+        "new-session",
+        "-d",
+        "-s",
+        "w",
+        "-x",
+        "120",
+        "-y",
+        "34",
+        &cmd,
+    ]);
+    let cap = |what: &str, secs| {
+        let until = Instant::now() + Duration::from_secs(secs);
+        loop {
+            let screen = t(&["capture-pane", "-p", "-t", "w"]);
+            if screen.contains(what) {
+                return screen;
+            }
+            assert!(
+                Instant::now() < until,
+                "screen never showed {what:?}:\n{screen}"
+            );
+            std::thread::sleep(Duration::from_millis(100));
+        }
+    };
+    // the measured frequency of the scenario and the slack area
+    let screen = cap("2.000 MHz", 20);
+    assert!(screen.contains("STREAMING"));
+    assert!(screen.contains("slack against Larkspur-8"));
+    assert!(screen.contains("verdict"));
+    // a mark
+    t(&["send-keys", "-t", "w", "m"]);
+    t(&["send-keys", "-t", "w", "-l", "added decoupling"]);
+    t(&["send-keys", "-t", "w", "Enter"]);
+    cap("mark: added decoupling", 5);
+    // freeze the figures
+    t(&["send-keys", "-t", "w", " "]);
+    cap("FROZEN", 5);
+    t(&["send-keys", "-t", "w", " "]);
+    // cut the link: the probe goes away
+    probe.kill().unwrap();
+    probe.wait().unwrap();
+    cap("LINK LOST", 15);
+    // and back
+    let mut probe2 = sim(&link);
+    let screen = cap("reconnects 1", 25);
+    assert!(screen.contains("STREAMING"));
+    cap("link back", 5);
+    // quit restores the terminal and the program ends
+    t(&["send-keys", "-t", "w", "q"]);
+    std::thread::sleep(Duration::from_millis(800));
+    let after = t(&["capture-pane", "-p", "-t", "w"]);
+    assert!(
+        !after.contains("slack against"),
+        "the view is gone after q:\n{after}"
+    );
+    t(&["kill-server"]);
+    probe2.kill().unwrap();
+    let _ = probe2.wait();
+    let _ = wait_for;
+}
