@@ -24,13 +24,23 @@ fn full_frame_160x50(bencher: divan::Bencher) {
     f.push(&std::mem::take(p.output()));
     let snap = f.engine.snapshot(Window::Recent);
     let margin = evaluate(&snap, &d, &lib, &MarginConfig::default()).ok();
-    let mut app = App::new(Source::Streaming { probe: "sim".into(), reconnects: 0 }, Some(d.name.clone()), true);
+    let mut app = App::new(
+        Source::Streaming {
+            probe: "sim".into(),
+            reconnects: 0,
+        },
+        Some(d.name.clone()),
+        true,
+    );
     for i in 0..100 {
         app.event(i as f64, format!("event {i}"));
     }
     app.show(snap, margin);
     let mut t = Terminal::new(TestBackend::new(160, 50)).unwrap();
-    bencher.bench_local(|| t.draw(|fr| slackmeter::tui::view::render(fr, &app)).map(|_| ()));
+    bencher.bench_local(|| {
+        t.draw(|fr| slackmeter::tui::view::render(fr, &app))
+            .map(|_| ())
+    });
 }
 
 #[divan::bench]
@@ -45,6 +55,8 @@ fn snapshot_and_margin_of_the_recent_window(bencher: divan::Bencher) {
     f.push(&std::mem::take(p.output()));
     bencher.bench_local(|| {
         let snap = f.engine.snapshot(Window::Recent);
-        evaluate(&snap, &d, &lib, &MarginConfig::default()).ok().map(|m| m.low_slack_ns)
+        evaluate(&snap, &d, &lib, &MarginConfig::default())
+            .ok()
+            .map(|m| m.low_slack_ns)
     });
 }

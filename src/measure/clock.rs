@@ -779,27 +779,41 @@ fn ema(prev: f64, x: f64) -> f64 {
 /// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
 /// line (a detrended TIE record), in ticks.
 fn tie_record_pkpk(t: &[u64]) -> (f64, f64, u64) {
+    let r = detrended(t);
+    let (lo, hi, ss) = r.iter().fold(
+        (f64::INFINITY, f64::NEG_INFINITY, 0.0),
+        |(lo, hi, ss), &x| (lo.min(x), hi.max(x), ss + x * x),
+    );
+    (hi - lo, ss, t.len() as u64)
+}
+
+/// Residuals (in ticks) of edge times against their own least-squares line: the TIE of a
+/// record against an ideal clock fitted to it.
+pub fn detrended(t: &[u64]) -> Vec<f64> {
+    let Some(&first) = t.first() else {
+        return Vec::new();
+    };
     let n = t.len() as f64;
-    let t0 = t[0] as f64;
+    let t0 = first as f64;
     let (mut sk, mut skk, mut su, mut sku) = (0.0, 0.0, 0.0, 0.0);
     for (k, &ti) in t.iter().enumerate() {
-        let k = k as f64;
-        let u = ti as f64 - t0;
+        let (k, u) = (k as f64, ti as f64 - t0);
         sk += k;
         skk += k * k;
         su += u;
         sku += k * u;
     }
-    let b = (n * sku - sk * su) / (n * skk - sk * sk);
+    let den = n * skk - sk * sk;
+    let b = if den != 0.0 {
+        (n * sku - sk * su) / den
+    } else {
+        0.0
+    };
     let a = (su - b * sk) / n;
-    let (mut lo, mut hi, mut ss) = (f64::INFINITY, f64::NEG_INFINITY, 0.0);
-    for (k, &ti) in t.iter().enumerate() {
-        let r = ti as f64 - t0 - a - b * k as f64;
-        lo = lo.min(r);
-        hi = hi.max(r);
-        ss += r * r;
-    }
-    (hi - lo, ss, t.len() as u64)
+    t.iter()
+        .enumerate()
+        .map(|(k, &ti)| ti as f64 - t0 - a - b * k as f64)
+        .collect()
 }
 
 /// A figure the probe could not observe, and why.

@@ -574,35 +574,12 @@ impl Engine {
     /// Histograms of the first clock (period, high, low) over a window, with the tick in ns.
     pub fn clock_histograms(&self, window: Window) -> Option<([stats::DevHistogram; 3], f64)> {
         let c = self.clocks.values().next()?;
-        let acc = match window {
-            Window::Session => {
-                let mut a = c.blocks.session.clone();
-                if let Some(cur) = &c.state.acc {
-                    match &mut a {
-                        Some(x) => x.merge(cur),
-                        None => a = Some(cur.clone()),
-                    }
-                }
-                a
-            }
-            Window::Recent => {
-                let mut a: Option<clock::ClockAcc> = None;
-                for (_, b) in c.blocks.closed.iter().chain(
-                    c.state
-                        .acc
-                        .iter()
-                        .map(|x| (0, x.clone()))
-                        .collect::<Vec<_>>()
-                        .iter(),
-                ) {
-                    match &mut a {
-                        Some(x) => x.merge(b),
-                        None => a = Some(b.clone()),
-                    }
-                }
-                a
-            }
-        }?;
+        let acc = merged(
+            &c.blocks,
+            c.state.acc.as_ref(),
+            window,
+            clock::ClockAcc::merge,
+        )?;
         Some((
             [acc.hist_period, acc.hist_high, acc.hist_low],
             c.state.tick_ns(),
@@ -679,33 +656,6 @@ impl Engine {
     pub fn snapshot(&self, window: Window) -> Snapshot {
         let tick_ns = self.probe.as_ref().map_or(1.0, |p| p.tick_ns);
         let ppm = self.probe.as_ref().map_or(0, |p| p.timebase_ppm);
-        fn merged<A: Clone>(
-            b: &Blocks<A>,
-            current: Option<&A>,
-            window: Window,
-            merge: impl Fn(&mut A, &A),
-        ) -> Option<A> {
-            let mut out: Option<A> = match window {
-                Window::Session => b.session.clone(),
-                Window::Recent => {
-                    let mut acc: Option<A> = None;
-                    for (_, a) in &b.closed {
-                        match &mut acc {
-                            Some(x) => merge(x, a),
-                            None => acc = Some(a.clone()),
-                        }
-                    }
-                    acc
-                }
-            };
-            if let Some(c) = current {
-                match &mut out {
-                    Some(x) => merge(x, c),
-                    None => out = Some(c.clone()),
-                }
-            }
-            out
-        }
         let mut glitch_events = Vec::new();
         let mut stall_events = Vec::new();
         let clocks: Vec<ClockSnapshot> = self
@@ -810,6 +760,36 @@ impl Engine {
             trust: self.trust,
         }
     }
+}
+
+/// A window's statistics: the session total, or the closed blocks of the recent window, plus
+/// the current block.
+fn merged<A: Clone>(
+    b: &Blocks<A>,
+    current: Option<&A>,
+    window: Window,
+    merge: impl Fn(&mut A, &A),
+) -> Option<A> {
+    let mut out: Option<A> = match window {
+        Window::Session => b.session.clone(),
+        Window::Recent => {
+            let mut acc: Option<A> = None;
+            for (_, a) in &b.closed {
+                match &mut acc {
+                    Some(x) => merge(x, a),
+                    None => acc = Some(a.clone()),
+                }
+            }
+            acc
+        }
+    };
+    if let Some(c) = current {
+        match &mut out {
+            Some(x) => merge(x, c),
+            None => out = Some(c.clone()),
+        }
+    }
+    out
 }
 
 /// Raw bytes → frames → messages → engine: the one path for live, simulated and replayed data.

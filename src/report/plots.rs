@@ -116,21 +116,8 @@ impl PlotCollector {
             return;
         }
         // TIE within the record: rising edges against their own least-squares line
-        let n = t.len() as f64;
-        let t0 = t[0] as f64;
-        let (mut sk, mut skk, mut su, mut sku) = (0.0, 0.0, 0.0, 0.0);
-        for (k, &x) in t.iter().enumerate() {
-            let (k, u) = (k as f64, x as f64 - t0);
-            sk += k;
-            skk += k * k;
-            su += u;
-            sku += k * u;
-        }
-        let b = (n * sku - sk * su) / (n * skk - sk * sk);
-        let a = (su - b * sk) / n;
-        for (k, &x) in t.iter().enumerate() {
-            let r = (x as f64 - t0 - a - b * k as f64) * self.tick_ns;
-            self.tie.push(x, r);
+        for (&x, r) in t.iter().zip(crate::measure::clock::detrended(&t)) {
+            self.tie.push(x, r * self.tick_ns);
         }
     }
 

@@ -184,21 +184,20 @@ impl SimProbe {
     }
 
     fn send(&mut self, m: &Message<'_>) {
-        let mut wire = [0u8; MAX_WIRE];
-        if let Ok(n) = proto::encode_message(m, self.seq, &mut wire) {
-            self.out.extend_from_slice(&wire[..n]);
-            self.seq = self.seq.wrapping_add(1);
-            self.status.frames_sent = self.status.frames_sent.wrapping_add(1);
+        let mut body = [0u8; MAX_BODY];
+        if let Ok(n) = m.encode_body(&mut body) {
+            self.send_body(m.msg_type(), &body[..n]);
         }
     }
 
     fn send_body(&mut self, msg_type: u8, body: &[u8]) {
-        let mut wire = [0u8; MAX_WIRE];
-        if let Ok(n) = proto::encode_frame(msg_type, self.seq, body, &mut wire) {
-            self.out.extend_from_slice(&wire[..n]);
-            self.seq = self.seq.wrapping_add(1);
-            self.status.frames_sent = self.status.frames_sent.wrapping_add(1);
-        }
+        emit(
+            &mut self.out,
+            &mut self.seq,
+            &mut self.status,
+            msg_type,
+            body,
+        );
     }
 
     fn send_hello(&mut self) {
@@ -516,12 +515,7 @@ impl SimProbe {
     fn flush_edges(open: &mut OpenEdges, out: &mut Vec<u8>, seq: &mut u16, status: &mut Status) {
         if let Some(b) = open.batch.take() {
             let n = b.finish(&mut open.body[..]);
-            let mut wire = [0u8; MAX_WIRE];
-            if let Ok(len) = proto::encode_frame(open.msg_type, *seq, &open.body[..n], &mut wire) {
-                out.extend_from_slice(&wire[..len]);
-                *seq = seq.wrapping_add(1);
-                status.frames_sent = status.frames_sent.wrapping_add(1);
-            }
+            emit(out, seq, status, open.msg_type, &open.body[..n]);
         }
     }
 
@@ -582,6 +576,16 @@ impl SimProbe {
         for i in 0..self.analog.len() {
             self.flush_analog(i);
         }
+    }
+}
+
+/// Encode one frame onto the output, with the next sequence number, and count it.
+fn emit(out: &mut Vec<u8>, seq: &mut u16, status: &mut Status, msg_type: u8, body: &[u8]) {
+    let mut wire = [0u8; MAX_WIRE];
+    if let Ok(n) = proto::encode_frame(msg_type, *seq, body, &mut wire) {
+        out.extend_from_slice(&wire[..n]);
+        *seq = seq.wrapping_add(1);
+        status.frames_sent = status.frames_sent.wrapping_add(1);
     }
 }
 
