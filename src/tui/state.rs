@@ -93,7 +93,12 @@ pub struct App {
     pub quit: bool,
     /// Something changed since the last draw.
     pub dirty: bool,
+    /// Recent history of each rail (lowest value per update, mV), oldest first.
+    pub rail_history: std::collections::BTreeMap<String, std::collections::VecDeque<f64>>,
 }
+
+/// Updates kept in a rail's history (four a second: 15 s).
+pub const HISTORY: usize = 60;
 
 /// What the loop must do after an action.
 #[derive(Clone, Debug, PartialEq)]
@@ -136,6 +141,7 @@ impl App {
             color,
             quit: false,
             dirty: true,
+            rail_history: std::collections::BTreeMap::new(),
         }
     }
 
@@ -153,6 +159,15 @@ impl App {
 
     /// New figures (ignored while frozen).
     pub fn show(&mut self, snap: Snapshot, margin: Option<Margin>) {
+        for r in &snap.rails {
+            if let Some(v) = r.now_mv {
+                let h = self.rail_history.entry(r.name.clone()).or_default();
+                if h.len() >= HISTORY {
+                    h.pop_front();
+                }
+                h.push_back(v);
+            }
+        }
         if !self.frozen {
             self.snapshot = Some(snap);
             self.margin = margin;

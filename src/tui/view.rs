@@ -51,7 +51,7 @@ pub fn render(f: &mut Frame, app: &App) {
         .direction(Direction::Vertical)
         .constraints([
             Constraint::Length(1),
-            Constraint::Length(11),
+            Constraint::Length(14),
             Constraint::Min(8),
             Constraint::Length(1),
         ])
@@ -263,6 +263,23 @@ fn rails(f: &mut Frame, app: &App, r: Rect) {
             ),
             Span::raw(format!(" now {}  min {}", v(rail.now_mv), v(rail.min_mv))),
         ]));
+        if let Some(h) = app.rail_history.get(&rail.name)
+            && !h.is_empty()
+        {
+            let lo = h
+                .iter()
+                .copied()
+                .fold(f64::INFINITY, f64::min)
+                .min(rail.limit_mv);
+            let hi = h.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let w = (r.width as usize).saturating_sub(14).min(h.len());
+            let spark = sparkline(h.iter().skip(h.len() - w).copied(), lo, hi);
+            lines.push(Line::from(format!(
+                "  {spark} {:.2}…{:.2} V",
+                lo / 1000.0,
+                hi / 1000.0
+            )));
+        }
         lines.push(Line::from(vec![
             Span::raw("  "),
             if below {
@@ -288,6 +305,15 @@ fn rails(f: &mut Frame, app: &App, r: Rect) {
         )));
     }
     f.render_widget(Paragraph::new(lines).block(block), r);
+}
+
+/// A text sparkline of values between `lo` and `hi` (one block character per value).
+pub fn sparkline(values: impl Iterator<Item = f64>, lo: f64, hi: f64) -> String {
+    const BARS: [char; 8] = ['▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
+    let span = (hi - lo).max(1e-9);
+    values
+        .map(|v| BARS[(((v - lo) / span) * 7.0).round().clamp(0.0, 7.0) as usize])
+        .collect()
 }
 
 fn slack(f: &mut Frame, app: &App, r: Rect) {
