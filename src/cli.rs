@@ -69,6 +69,9 @@ slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --p
     Report(crate::cli_record::ReportArgs),
     /// Export a recording's signals for a waveform viewer (VCD) or a spreadsheet (CSV).
     Export(crate::cli_record::ExportArgs),
+    /// Set the failure onsets of several sweep recordings (one per supply) beside the budget's
+    /// f_max against supply: the measured f_fail(VCC) curve.
+    Failures(crate::cli_record::FailuresArgs),
     /// The live bench view: watch a probe (or the virtual probe) with figures and slack.
     #[command(
         after_help = "Keys are shown at the bottom of the view; ? shows them all.\nExample: slackmeter watch --sim"
@@ -190,6 +193,7 @@ pub fn run(cli: Cli) -> std::result::Result<i32, (i32, miette::Report)> {
         Command::Record(a) => crate::cli_record::record_cmd(*a).map_err(input),
         Command::Report(a) => crate::cli_record::report_cmd(a).map_err(input),
         Command::Export(a) => crate::cli_record::export_cmd(a).map_err(input),
+        Command::Failures(a) => crate::cli_record::failures_cmd(a).map_err(input),
         Command::Watch(a) => crate::cli_watch::watch_cmd(*a).map_err(|e| (EXIT_RUNTIME, e)),
         Command::Replay(a) => crate::cli_watch::replay_cmd(a).map_err(|e| (EXIT_RUNTIME, e)),
     }

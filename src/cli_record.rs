@@ -419,13 +419,17 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
             };
             let worst = curve(crate::budget::Corner::Max);
             let typ = curve(crate::budget::Corner::Typ);
-            let failure = m.failure.as_ref().map(|f| {
-                (
-                    f.onset.rail.as_ref().map_or(m.vcc_used_v, |r| r.1 / 1000.0),
-                    f.onset.frequency_hz,
-                    f.onset.frequency_uncertainty_hz,
-                )
-            });
+            let failure: Vec<(f64, f64, f64)> = m
+                .failure
+                .iter()
+                .map(|f| {
+                    (
+                        f.onset.rail.as_ref().map_or(m.vcc_used_v, |r| r.1 / 1000.0),
+                        f.onset.frequency_hz,
+                        f.onset.frequency_uncertainty_hz,
+                    )
+                })
+                .collect();
             let path = dir.join("fmax_vs_supply.svg");
             crate::report::plots::fmax_vcc_svg(
                 &path,
@@ -434,7 +438,7 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
                     ("typical budget", typ),
                 ],
                 Some((m.vcc_used_v, m.clock_hz)),
-                failure,
+                &failure,
             )
             .map_err(|e| miette!("cannot write {}: {e}", path.display()))?;
             files.push(path);
@@ -516,6 +520,174 @@ pub fn export_cmd(a: ExportArgs) -> Result<i32> {
     if let Some(p) = &a.csv {
         crate::export::write_csv(&s, create(p)?).into_diagnostic()?;
         eprintln!("wrote {} ({} rows)", p.display(), s.events.len());
+    }
+    Ok(crate::cli::EXIT_OK)
+}
+
+/// Options of `failures`.
+#[derive(clap::Args, Debug)]
+pub struct FailuresArgs {
+    /// Sweep recordings (one per supply voltage), each ending in a failure.
+    #[arg(required = true)]
+    pub files: Vec<PathBuf>,
+    /// The design whose f_max(VCC) the failures are set beside (the first file's embedded design
+    /// otherwise).
+    #[arg(long)]
+    pub design: Option<PathBuf>,
+    /// Also write fmax_vs_supply.svg into this folder.
+    #[arg(long, value_name = "DIR")]
+    pub plots: Option<PathBuf>,
+    /// Print JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// One sweep's failure beside the budget at its supply.
+#[derive(serde::Serialize)]
+struct FailureRow {
+    file: String,
+    vcc_v: f64,
+    fail_onset_hz: f64,
+    fail_onset_uncertainty_hz: f64,
+    duty: f64,
+    cause: String,
+    fmax_worst_case_hz: f64,
+    fmax_typical_hz: f64,
+}
+
+fn fmax_curve(
+    d: &crate::budget::Design,
+    lib: &crate::budget::Library,
+    corner: crate::budget::Corner,
+    duty: f64,
+) -> Vec<(f64, f64)> {
+    let mut op = crate::budget::OperatingPoint::of(d);
+    op.corner = corner;
+    crate::budget::sweep_vcc(d, lib, &op, 4.0, 5.5, 61)
+        .into_iter()
+        .map(|pt| {
+            (
+                pt.vcc_v,
+                1e9 / crate::budget::solver::min_period_ns(
+                    pt.low_required_ns,
+                    pt.high_required_ns,
+                    pt.period_required_ns,
+                    duty.clamp(0.01, 0.99),
+                ),
+            )
+        })
+        .collect()
+}
+
+/// `slackmeter failures`: the measured f_fail(VCC) of several sweeps beside the budget's f_max(VCC).
+pub fn failures_cmd(a: FailuresArgs) -> Result<i32> {
+    let lib = crate::budget::Library::builtin();
+    let mut design = match &a.design {
+        Some(p) => Some(crate::budget::Design::load(p, &lib).map_err(miette::Report::new)?),
+        None => None,
+    };
+    let mut rows = Vec::new();
+    for f in &a.files {
+        let (rec, _, snap, _) =
+            analyse(f, ReplayOptions::default(), EngineConfig::default(), |_| {})?;
+        if design.is_none()
+            && let Some(e) = &rec.parsed.header.design
+        {
+            design = Some(
+                crate::budget::Design::parse(
+                    crate::diag::Source::new(e.file.clone(), e.text.clone()),
+                    &lib,
+                )
+                .map_err(|e| miette::Report::new(*e))?,
+            );
+        }
+        let d = design
+            .as_ref()
+            .ok_or_else(|| miette!(help = "give --design", "{} embeds no design", f.display()))?;
+        let Some(o) = snap.fault_onsets.first() else {
+            eprintln!(
+                "{}: no failure in this recording (no fault line, and the heartbeat did not stop): left out",
+                f.display()
+            );
+            continue;
+        };
+        let vcc = o.rail.as_ref().map_or(d.operating.vcc_v, |r| r.1 / 1000.0);
+        let fmax = |corner| {
+            let mut op = crate::budget::OperatingPoint::of(d);
+            op.vcc_v = vcc;
+            op.corner = corner;
+            let b = crate::budget::solve(d, &lib, &op, None, None);
+            1e9 / crate::budget::solver::min_period_ns(
+                b.low_required_ns,
+                b.high_required_ns,
+                b.period_required_ns,
+                o.duty.clamp(0.01, 0.99),
+            )
+        };
+        rows.push(FailureRow {
+            file: f.display().to_string(),
+            vcc_v: vcc,
+            fail_onset_hz: o.frequency_hz,
+            fail_onset_uncertainty_hz: o.frequency_uncertainty_hz,
+            duty: o.duty,
+            cause: o.cause.clone(),
+            fmax_worst_case_hz: fmax(crate::budget::Corner::Max),
+            fmax_typical_hz: fmax(crate::budget::Corner::Typ),
+        });
+    }
+    if rows.is_empty() {
+        return Err(miette!("none of the recordings holds a failure"));
+    }
+    rows.sort_by(|x, y| x.vcc_v.total_cmp(&y.vcc_v));
+    if a.json {
+        println!("{}", serde_json::to_string_pretty(&rows).into_diagnostic()?);
+    } else {
+        println!(
+            "{:>9} {:>26} {:>12} {:>12} {:>9}  file",
+            "supply", "failure onset", "f_max worst", "f_max typ", "vs typ"
+        );
+        for r in &rows {
+            println!(
+                "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}",
+                r.vcc_v,
+                format!(
+                    "{} ± {}",
+                    crate::units::hz(r.fail_onset_hz),
+                    crate::units::hz(r.fail_onset_uncertainty_hz)
+                ),
+                crate::units::hz(r.fmax_worst_case_hz).to_string(),
+                crate::units::hz(r.fmax_typical_hz).to_string(),
+                100.0 * (r.fail_onset_hz / r.fmax_typical_hz - 1.0),
+                r.file
+            );
+        }
+    }
+    if let (Some(dir), Some(d)) = (&a.plots, &design) {
+        std::fs::create_dir_all(dir)
+            .map_err(|e| miette!("cannot create {}: {e}", dir.display()))?;
+        let duty = rows.iter().map(|r| r.duty).sum::<f64>() / rows.len() as f64;
+        let pts: Vec<(f64, f64, f64)> = rows
+            .iter()
+            .map(|r| (r.vcc_v, r.fail_onset_hz, r.fail_onset_uncertainty_hz))
+            .collect();
+        let path = dir.join("fmax_vs_supply.svg");
+        crate::report::plots::fmax_vcc_svg(
+            &path,
+            &[
+                (
+                    "worst-case budget (max corner)",
+                    fmax_curve(d, &lib, crate::budget::Corner::Max, duty),
+                ),
+                (
+                    "typical budget",
+                    fmax_curve(d, &lib, crate::budget::Corner::Typ, duty),
+                ),
+            ],
+            None,
+            &pts,
+        )
+        .map_err(|e| miette!("cannot write {}: {e}", path.display()))?;
+        eprintln!("wrote {}", path.display());
     }
     Ok(crate::cli::EXIT_OK)
 }

@@ -225,3 +225,64 @@ fn budget_takes_supply_and_clock_from_a_recording() {
     assert!(far < 4.55, "the far section at its sagging rail: {far}");
     assert!((d["clock_hz"].as_f64().unwrap() - 2.0e6).abs() < 100.0);
 }
+
+fn run_json(args: &[&str]) -> serde_json::Value {
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(args)
+        .output()
+        .unwrap();
+    // 0: fine; 3: the default 2 MHz clock misses this budget (still a full answer)
+    assert!(
+        matches!(out.status.code(), Some(0 | 3)),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+#[test]
+fn failures_sets_the_onset_beside_the_budget_at_that_supply() {
+    let path = format!(
+        "{}/recordings/larkspur-sweep.smrec",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let rows = run_json(&["failures", &path, "--json"]);
+    let row = &rows.as_array().unwrap()[0];
+    // the same onset as the report of the same file finds
+    let rep = report("larkspur-sweep.smrec");
+    let onset = row["fail_onset_hz"].as_f64().unwrap();
+    assert!((onset - rep["margin"]["fail_onset_hz"].as_f64().unwrap()).abs() < 1e-6);
+    assert!(row["fail_onset_uncertainty_hz"].as_f64().unwrap() > 0.0);
+    // f_max beside it is the budget's at the failing supply and duty
+    let vcc = format!("{}V", row["vcc_v"].as_f64().unwrap());
+    let duty = format!("{}", row["duty"].as_f64().unwrap());
+    for (corner, key) in [("typ", "fmax_typical_hz"), ("max", "fmax_worst_case_hz")] {
+        let b = run_json(&[
+            "budget", "--vcc", &vcc, "--duty", &duty, "--corner", corner, "--json",
+        ]);
+        let want = b["at_duty"]["fmax_hz"].as_f64().unwrap();
+        let got = row[key].as_f64().unwrap();
+        assert!(
+            (got - want).abs() < 1e-6 * want,
+            "{corner}: {got} vs {want}"
+        );
+    }
+    // the fault model fires at the typical timing: the onset sits near, not above, f_max typ
+    let typ = row["fmax_typical_hz"].as_f64().unwrap();
+    assert!(onset < typ * 1.01 && onset > typ * 0.9, "{onset} vs {typ}");
+}
+
+#[test]
+fn failures_refuses_a_recording_without_a_failure() {
+    let path = format!(
+        "{}/recordings/larkspur-steady.smrec",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["failures", &path])
+        .output()
+        .unwrap();
+    assert!(!out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("larkspur-steady"), "{err}");
+}

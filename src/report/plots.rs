@@ -398,7 +398,7 @@ pub fn fmax_vcc_svg(
     path: &Path,
     curves: &[(&str, Vec<(f64, f64)>)],
     operating: Option<(f64, f64)>,
-    failure: Option<(f64, f64, f64)>,
+    failures: &[(f64, f64, f64)],
 ) -> std::io::Result<()> {
     let all: Vec<(f64, f64)> = curves.iter().flat_map(|c| c.1.iter().copied()).collect();
     if all.is_empty() {
@@ -413,7 +413,7 @@ pub fn fmax_vcc_svg(
     if let Some((_, f)) = operating {
         fhi = fhi.max(f);
     }
-    if let Some((_, f, u)) = failure {
+    for &(_, f, u) in failures {
         fhi = fhi.max(f + u);
     }
     let root = SVGBackend::new(path, (900, 500)).into_drawing_area();
@@ -458,21 +458,23 @@ pub fn fmax_vcc_svg(
             .label("measured operating point (filled circle)")
             .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
     }
-    if let Some((v, f, u)) = failure {
+    if !failures.is_empty() {
         chart
-            .draw_series(std::iter::once(TriangleMarker::new(
-                (v, f / 1e6),
-                8,
-                RED.filled(),
-            )))
+            .draw_series(
+                failures
+                    .iter()
+                    .map(|&(v, f, _)| TriangleMarker::new((v, f / 1e6), 8, RED.filled())),
+            )
             .map_err(err)?
-            .label("measured failure onset (triangle)")
+            .label("measured failure onset (triangles, with uncertainty)")
             .legend(|(x, y)| TriangleMarker::new((x + 10, y), 6, RED.filled()));
         chart
-            .draw_series(std::iter::once(PathElement::new(
-                vec![(v, (f - u) / 1e6), (v, (f + u) / 1e6)],
-                RED.stroke_width(2),
-            )))
+            .draw_series(failures.iter().map(|&(v, f, u)| {
+                PathElement::new(
+                    vec![(v, (f - u) / 1e6), (v, (f + u) / 1e6)],
+                    RED.stroke_width(2),
+                )
+            }))
             .map_err(err)?;
     }
     chart
