@@ -396,27 +396,7 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
             .map_err(|e| miette!("cannot write plots into {}: {e}", dir.display()))?;
         if let (Some(d), Some(m)) = (&design, &margin) {
             let duty = m.duty;
-            let curve = |corner| {
-                let mut op = crate::budget::OperatingPoint::of(d);
-                op.corner = corner;
-                if let Some(t) = a.temp {
-                    op.temp_c = t;
-                }
-                crate::budget::sweep_vcc(d, &lib, &op, 4.0, 5.5, 61)
-                    .into_iter()
-                    .map(|pt| {
-                        (
-                            pt.vcc_v,
-                            1e9 / crate::budget::solver::min_period_ns(
-                                pt.low_required_ns,
-                                pt.high_required_ns,
-                                pt.period_required_ns,
-                                duty,
-                            ),
-                        )
-                    })
-                    .collect::<Vec<_>>()
-            };
+            let curve = |corner| fmax_curve(d, &lib, corner, duty, a.temp);
             let worst = curve(crate::budget::Corner::Max);
             let typ = curve(crate::budget::Corner::Typ);
             let failure: Vec<(f64, f64, f64)> = m
@@ -555,14 +535,19 @@ struct FailureRow {
     fmax_typical_hz: f64,
 }
 
+/// The budget's f_max against supply (4.0–5.5 V) at one corner and duty, for the supply plot.
 fn fmax_curve(
     d: &crate::budget::Design,
     lib: &crate::budget::Library,
     corner: crate::budget::Corner,
     duty: f64,
+    temp_c: Option<f64>,
 ) -> Vec<(f64, f64)> {
     let mut op = crate::budget::OperatingPoint::of(d);
     op.corner = corner;
+    if let Some(t) = temp_c {
+        op.temp_c = t;
+    }
     crate::budget::sweep_vcc(d, lib, &op, 4.0, 5.5, 61)
         .into_iter()
         .map(|pt| {
@@ -676,11 +661,11 @@ pub fn failures_cmd(a: FailuresArgs) -> Result<i32> {
             &[
                 (
                     "worst-case budget (max corner)",
-                    fmax_curve(d, &lib, crate::budget::Corner::Max, duty),
+                    fmax_curve(d, &lib, crate::budget::Corner::Max, duty, None),
                 ),
                 (
                     "typical budget",
-                    fmax_curve(d, &lib, crate::budget::Corner::Typ, duty),
+                    fmax_curve(d, &lib, crate::budget::Corner::Typ, duty, None),
                 ),
             ],
             None,
