@@ -573,8 +573,17 @@ pub fn failures_cmd(a: FailuresArgs) -> Result<i32> {
     };
     let mut rows = Vec::new();
     for f in &a.files {
-        let (rec, _, snap, _) =
+        let (rec, _, snap, sum) =
             analyse(f, ReplayOptions::default(), EngineConfig::default(), |_| {})?;
+        for dmg in &sum.damage {
+            eprintln!(
+                "{}: damaged at byte {}: {} ({} bytes skipped)",
+                f.display(),
+                dmg.offset,
+                dmg.what,
+                dmg.skipped
+            );
+        }
         if design.is_none()
             && let Some(e) = &rec.parsed.header.design
         {

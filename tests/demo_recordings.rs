@@ -286,3 +286,23 @@ fn failures_refuses_a_recording_without_a_failure() {
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("larkspur-steady"), "{err}");
 }
+
+#[test]
+fn failures_names_a_cut_file_and_keeps_the_whole_ones() {
+    let dir = format!("{}/recordings", env!("CARGO_MANIFEST_DIR"));
+    let whole = std::fs::read(format!("{dir}/larkspur-sweep.smrec")).unwrap();
+    let cut = std::env::temp_dir().join(format!("slackmeter-cut-{}.smrec", std::process::id()));
+    std::fs::write(&cut, &whole[..whole.len() / 5]).unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(["failures", "--json"])
+        .arg(&cut)
+        .arg(format!("{dir}/larkspur-sweep.smrec"))
+        .output()
+        .unwrap();
+    let _ = std::fs::remove_file(&cut);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(out.status.success(), "{err}");
+    assert!(err.contains("cut off") && err.contains("left out"), "{err}");
+    let rows: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(rows.as_array().unwrap().len(), 1);
+}
