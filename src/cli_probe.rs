@@ -444,6 +444,12 @@ pub fn sim_cmd(a: SimArgs) -> Result<i32> {
         "virtual probe stopped after {:.1} s: {} bytes sent, {} frames dropped for a slow host",
         stats.sim_s, stats.bytes, stats.dropped_frames
     );
+    if stats.unsent_bytes > 0 {
+        eprintln!(
+            "  {} bytes were never taken by a host (is anything reading the device?)",
+            stats.unsent_bytes
+        );
+    }
     Ok(crate::cli::EXIT_OK)
 }
 

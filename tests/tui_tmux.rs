@@ -26,6 +26,22 @@ fn sim(link: &Path) -> Child {
     c
 }
 
+/// Ends the probes and the tmux server however the test ends (a failed assertion included).
+struct Cleanup {
+    session: String,
+    probes: Vec<Child>,
+}
+
+impl Drop for Cleanup {
+    fn drop(&mut self) {
+        for p in &mut self.probes {
+            let _ = p.kill();
+            let _ = p.wait();
+        }
+        tmux(&["-L", &self.session, "kill-server"]);
+    }
+}
+
 fn wait_for(session: &str, what: &str, secs: u64) -> String {
     let until = Instant::now() + Duration::from_secs(secs);
     loop {
@@ -52,7 +68,10 @@ fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
     std::fs::create_dir_all(&dir).unwrap();
     let link = dir.join("probe");
     let session = format!("slackmeter-test-{}", std::process::id());
-    let mut probe = sim(&link);
+    let mut guard = Cleanup {
+        session: session.clone(),
+        probes: vec![sim(&link)],
+    };
     let cmd = format!(
         "{} watch {} ; sleep 2",
         env!("CARGO_BIN_EXE_slackmeter"),
@@ -105,11 +124,11 @@ fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
     cap("FROZEN", 5);
     t(&["send-keys", "-t", "w", " "]);
     // cut the link: the probe goes away
-    probe.kill().unwrap();
-    probe.wait().unwrap();
+    guard.probes[0].kill().unwrap();
+    guard.probes[0].wait().unwrap();
     cap("LINK LOST", 15);
     // and back
-    let mut probe2 = sim(&link);
+    guard.probes.push(sim(&link));
     let screen = cap("reconnects 1", 25);
     assert!(screen.contains("STREAMING"));
     cap("link back", 5);
@@ -121,8 +140,6 @@ fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
         !after.contains("slack against"),
         "the view is gone after q:\n{after}"
     );
-    t(&["kill-server"]);
-    probe2.kill().unwrap();
-    let _ = probe2.wait();
+    drop(guard);
     let _ = wait_for;
 }

@@ -17,6 +17,9 @@ use super::probe::SimProbe;
 /// Most wire bytes held for a slow host before whole frames are dropped (and reported).
 pub const BACKLOG_CAP: usize = 8 << 20;
 
+/// How long a timed run waits, once its time is up, for the host to take what is left.
+const DRAIN_GRACE: Duration = Duration::from_secs(1);
+
 /// A pseudo-terminal serving the virtual probe.
 pub struct PtyServer {
     master: File,
@@ -34,6 +37,8 @@ pub struct ServeStats {
     pub dropped_frames: u64,
     /// Simulated time, s.
     pub sim_s: f64,
+    /// Bytes still unsent when a timed run ended (no host took them).
+    pub unsent_bytes: u64,
 }
 
 fn cvt(r: libc::c_int) -> io::Result<libc::c_int> {
@@ -106,6 +111,7 @@ impl PtyServer {
         let mut stats = ServeStats::default();
         let mut backlog: Vec<u8> = Vec::new();
         let mut rx = [0u8; 4096];
+        let mut done_at: Option<Instant> = None;
         while !stop.load(Ordering::Relaxed) {
             // host → probe
             loop {
@@ -161,8 +167,14 @@ impl PtyServer {
                 }
             }
             stats.sim_s = (probe.now_ns() - t0) * 1e-9;
-            if duration_s.is_some_and(|d| stats.sim_s >= d - 1e-3) && backlog.is_empty() {
-                break;
+            if duration_s.is_some_and(|d| stats.sim_s >= d - 1e-3) {
+                // done: leave once the host has taken the rest, or after a second without a
+                // reader (nobody holds the device open, or it stopped reading)
+                let since = *done_at.get_or_insert_with(Instant::now);
+                if backlog.is_empty() || since.elapsed() > DRAIN_GRACE {
+                    stats.unsent_bytes = backlog.len() as u64;
+                    break;
+                }
             }
             std::thread::sleep(Duration::from_millis(2));
         }
