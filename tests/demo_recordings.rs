@@ -2,9 +2,21 @@
 
 use std::process::Command;
 
+/// Path of a demo recording.
+fn demo(name: &str) -> String {
+    format!("{}/recordings/{name}", env!("CARGO_MANIFEST_DIR"))
+}
+
+/// Run slackmeter with these arguments.
+fn run(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args(args)
+        .output()
+        .unwrap()
+}
+
 fn report(name: &str) -> serde_json::Value {
-    let path = format!("{}/recordings/{name}", env!("CARGO_MANIFEST_DIR"));
-    run_json(&["report", &path, "--json"])
+    run_json(&["report", &demo(name), "--json"])
 }
 
 fn rail<'a>(d: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
@@ -92,10 +104,7 @@ fn sweep_to_failure() {
 fn plots_are_written_as_svg() {
     let dir = std::env::temp_dir().join(format!("slackmeter-plots-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
-    let path = format!(
-        "{}/recordings/larkspur-sagging.smrec",
-        env!("CARGO_MANIFEST_DIR")
-    );
+    let path = demo("larkspur-sagging.smrec");
     let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
         .args(["report", &path, "--plots"])
         .arg(&dir)
@@ -129,14 +138,8 @@ fn plots_are_written_as_svg() {
 
 #[test]
 fn report_judges_against_the_embedded_design() {
-    let path = format!(
-        "{}/recordings/larkspur-steady.smrec",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["report", &path, "--json"])
-        .output()
-        .unwrap();
+    let path = demo("larkspur-steady.smrec");
+    let out = run(&["report", &path, "--json"]);
     assert_eq!(
         out.status.code(),
         Some(0),
@@ -163,14 +166,8 @@ fn report_judges_against_the_embedded_design() {
 
 #[test]
 fn sweep_report_finds_the_failure_and_exits_with_the_margin_code() {
-    let path = format!(
-        "{}/recordings/larkspur-sweep.smrec",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["report", &path, "--json"])
-        .output()
-        .unwrap();
+    let path = demo("larkspur-sweep.smrec");
+    let out = run(&["report", &path, "--json"]);
     assert_eq!(out.status.code(), Some(3), "the sweep ran past the budget");
     let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let m = &d["margin"];
@@ -178,33 +175,21 @@ fn sweep_report_finds_the_failure_and_exits_with_the_margin_code() {
     // the sim faults past the typical budget at 47 % duty: just under 2.07 MHz at these rails
     assert!((1.95e6..2.10e6).contains(&onset), "{onset}");
     assert!(m["headroom"].is_number());
-    let text = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["report", &path])
-        .output()
-        .unwrap();
+    let text = run(&["report", &path]);
     let t = String::from_utf8_lossy(&text.stdout);
     assert!(
         t.contains("VERDICT:") && t.contains("Measured failure onset"),
         "{t}"
     );
     // judged against no design: no margin, exit 0
-    let none = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["report", &path, "--no-design"])
-        .output()
-        .unwrap();
+    let none = run(&["report", &path, "--no-design"]);
     assert_eq!(none.status.code(), Some(0));
 }
 
 #[test]
 fn budget_takes_supply_and_clock_from_a_recording() {
-    let path = format!(
-        "{}/recordings/larkspur-sagging.smrec",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["budget", "--json", "--recording", &path])
-        .output()
-        .unwrap();
+    let path = demo("larkspur-sagging.smrec");
+    let out = run(&["budget", "--json", "--recording", &path]);
     assert!(
         out.status.success(),
         "{}",
@@ -217,10 +202,7 @@ fn budget_takes_supply_and_clock_from_a_recording() {
 }
 
 fn run_json(args: &[&str]) -> serde_json::Value {
-    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(args)
-        .output()
-        .unwrap();
+    let out = run(args);
     // 0: fine; 3: the clock misses the budget or its margin (still a full answer)
     assert!(
         matches!(out.status.code(), Some(0 | 3)),
@@ -232,10 +214,7 @@ fn run_json(args: &[&str]) -> serde_json::Value {
 
 #[test]
 fn failures_sets_the_onset_beside_the_budget_at_that_supply() {
-    let path = format!(
-        "{}/recordings/larkspur-sweep.smrec",
-        env!("CARGO_MANIFEST_DIR")
-    );
+    let path = demo("larkspur-sweep.smrec");
     let rows = run_json(&["failures", &path, "--json"]);
     let row = &rows.as_array().unwrap()[0];
     // the same onset as the report of the same file finds
@@ -264,14 +243,8 @@ fn failures_sets_the_onset_beside_the_budget_at_that_supply() {
 
 #[test]
 fn failures_refuses_a_recording_without_a_failure() {
-    let path = format!(
-        "{}/recordings/larkspur-steady.smrec",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["failures", &path])
-        .output()
-        .unwrap();
+    let path = demo("larkspur-steady.smrec");
+    let out = run(&["failures", &path]);
     assert!(!out.status.success());
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("larkspur-steady"), "{err}");
@@ -279,16 +252,11 @@ fn failures_refuses_a_recording_without_a_failure() {
 
 #[test]
 fn failures_names_a_cut_file_and_keeps_the_whole_ones() {
-    let dir = format!("{}/recordings", env!("CARGO_MANIFEST_DIR"));
-    let whole = std::fs::read(format!("{dir}/larkspur-sweep.smrec")).unwrap();
+    let sweep = demo("larkspur-sweep.smrec");
+    let whole = std::fs::read(&sweep).unwrap();
     let cut = std::env::temp_dir().join(format!("slackmeter-cut-{}.smrec", std::process::id()));
     std::fs::write(&cut, &whole[..whole.len() / 5]).unwrap();
-    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .args(["failures", "--json"])
-        .arg(&cut)
-        .arg(format!("{dir}/larkspur-sweep.smrec"))
-        .output()
-        .unwrap();
+    let out = run(&["failures", "--json", cut.to_str().unwrap(), &sweep]);
     let _ = std::fs::remove_file(&cut);
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(out.status.success(), "{err}");

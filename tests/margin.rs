@@ -49,15 +49,7 @@ max = "0 ns"
 "#;
 
 fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snapshot {
-    let chans = [Channel {
-        id: 0,
-        kind: ChannelKind::Edge,
-        info: caps::TIMESTAMPS,
-        label: "CLK",
-        scale_num_uv: 0,
-        scale_den: 1,
-        offset_uv: 0,
-    }];
+    let chans = [Channel::edge(0, caps::TIMESTAMPS, "CLK")];
     let h = Message::Hello(Hello {
         protocol_version: 1,
         tick_num_hz: 1_000_000_000,
@@ -93,18 +85,15 @@ fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snap
 fn hand_computed_slack() {
     let lib = Library::builtin();
     let d = Design::parse(Source::new("example.toml", EXAMPLE.to_string()), &lib).unwrap();
-    // a 1 MHz clock at 30 % duty: high 300 ns, low 700 ns (tick 1 ns, no jitter)
-    let s = snapshot_of(1000, 300, 200);
-    let m = evaluate(
-        &s,
-        &d,
-        &lib,
-        &MarginConfig {
+    let at_5v = |s| {
+        let cfg = MarginConfig {
             vcc_v: Some(5.0),
             ..MarginConfig::default()
-        },
-    )
-    .unwrap();
+        };
+        evaluate(&s, &d, &lib, &cfg).unwrap()
+    };
+    // a 1 MHz clock at 30 % duty: high 300 ns, low 700 ns (tick 1 ns, no jitter)
+    let m = at_5v(snapshot_of(1000, 300, 200));
     // worst case: low 700 − 500 = +200 ns (+40 %), high 300 − 125 = +175 ns (+140 %), period 1000 − 0
     assert!((m.low_slack_ns - 200.0).abs() < 1e-9, "{}", m.low_slack_ns);
     assert!((m.high_slack_ns - 175.0).abs() < 1e-9);
@@ -116,17 +105,7 @@ fn hand_computed_slack() {
     assert!((m.typical.phases[0].slack_ns - 300.0).abs() < 1e-9);
     assert!((m.typical.phases[1].slack_ns - 200.0).abs() < 1e-9);
     // a 1.6 MHz clock at 30 %: low 437 ns (< 500 worst case, > 400 typical), high 187 ns
-    let s = snapshot_of(625, 187, 200);
-    let m = evaluate(
-        &s,
-        &d,
-        &lib,
-        &MarginConfig {
-            vcc_v: Some(5.0),
-            ..MarginConfig::default()
-        },
-    )
-    .unwrap();
+    let m = at_5v(snapshot_of(625, 187, 200));
     assert_eq!(m.verdict, Verdict::BeyondWorstCaseInsideTypical);
     assert!(
         (m.low_slack_ns - (438.0 - 500.0)).abs() < 1e-9,
@@ -138,17 +117,7 @@ fn hand_computed_slack() {
             .contains("beyond the worst-case budget, inside the typical one")
     );
     // 2.5 MHz at 30 %: low 280 ns, beyond both
-    let s = snapshot_of(400, 120, 200);
-    let m = evaluate(
-        &s,
-        &d,
-        &lib,
-        &MarginConfig {
-            vcc_v: Some(5.0),
-            ..MarginConfig::default()
-        },
-    )
-    .unwrap();
+    let m = at_5v(snapshot_of(400, 120, 200));
     assert_eq!(m.verdict, Verdict::BeyondTypical);
     assert!(m.verdict_text.starts_with("no margin left"));
 }

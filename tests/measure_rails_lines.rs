@@ -192,24 +192,8 @@ fn arbitrary_probe_messages_never_panic_the_engine() {
         x % n.max(1)
     };
     let chans = [
-        Channel {
-            id: 0,
-            kind: ChannelKind::Edge,
-            info: 7,
-            label: "CLK",
-            scale_num_uv: 0,
-            scale_den: 1,
-            offset_uv: 0,
-        },
-        Channel {
-            id: 1,
-            kind: ChannelKind::Line,
-            info: roles::FAULT,
-            label: "F",
-            scale_num_uv: 0,
-            scale_den: 1,
-            offset_uv: 0,
-        },
+        Channel::edge(0, 7, "CLK"),
+        Channel::line(1, roles::FAULT, "F"),
         Channel {
             id: 2,
             kind: ChannelKind::Analog,

@@ -8,24 +8,8 @@ const TICK_1NS: (u64, u32) = (1_000_000_000, 1);
 
 fn hello(tick: (u64, u32)) -> Vec<u8> {
     let chans = [
-        Channel {
-            id: 0,
-            kind: ChannelKind::Edge,
-            info: caps::TIMESTAMPS,
-            label: "CLK",
-            scale_num_uv: 0,
-            scale_den: 1,
-            offset_uv: 0,
-        },
-        Channel {
-            id: 1,
-            kind: ChannelKind::Line,
-            info: roles::HEARTBEAT,
-            label: "HB",
-            scale_num_uv: 0,
-            scale_den: 1,
-            offset_uv: 0,
-        },
+        Channel::edge(0, caps::TIMESTAMPS, "CLK"),
+        Channel::line(1, roles::HEARTBEAT, "HB"),
         Channel {
             id: 2,
             kind: ChannelKind::Analog,
@@ -244,20 +228,26 @@ fn count_windows_give_frequency_and_sampled_duty_but_no_worst_cycle() {
     );
 }
 
-#[test]
-fn glitches_are_set_aside_and_counted() {
-    // a 1 µs clock with a 20 ns high pulse inside one low phase
+/// Edge ticks of a 1 µs, 50 % clock (1 ns ticks) with one extra pulse from `rise_at` to `fall_at`
+/// ticks after the rise of cycle `cycle`.
+fn clock_with_pulse(cycle: u64, rise_at: u64, fall_at: u64) -> Vec<u64> {
     let mut ticks = Vec::new();
     for k in 0..100u64 {
         let r = 100 + k * 1000;
         ticks.push(r);
         ticks.push(r + 500);
-        if k == 50 {
-            ticks.push(r + 700);
-            ticks.push(r + 720);
+        if k == cycle {
+            ticks.push(r + rise_at);
+            ticks.push(r + fall_at);
         }
     }
-    let c = jitter_of(&ticks, TICK_1NS);
+    ticks
+}
+
+#[test]
+fn glitches_are_set_aside_and_counted() {
+    // a 1 µs clock with a 20 ns high pulse inside one low phase
+    let c = jitter_of(&clock_with_pulse(50, 700, 720), TICK_1NS);
     assert_eq!(c.glitches, 1);
     assert_eq!(c.high_min_ns, Some(500.0), "the glitch is not a cycle");
     assert_eq!(c.period_jitter_pkpk_ns, Some(0.0));
@@ -267,17 +257,7 @@ fn glitches_are_set_aside_and_counted() {
 fn a_glitch_close_to_an_edge_does_not_shorten_the_phase() {
     // a 1 µs clock; a 12 ns high pulse 40 ns after a falling edge (two short pulses in a row:
     // 40 ns low, then the 12 ns glitch); the shorter one is the glitch, the low phase stays 500 ns
-    let mut ticks = Vec::new();
-    for k in 0..100u64 {
-        let r = 100 + k * 1000;
-        ticks.push(r);
-        ticks.push(r + 500);
-        if k == 30 {
-            ticks.push(r + 540);
-            ticks.push(r + 552);
-        }
-    }
-    let c = jitter_of(&ticks, TICK_1NS);
+    let c = jitter_of(&clock_with_pulse(30, 540, 552), TICK_1NS);
     assert_eq!(c.glitches, 1);
     assert_eq!(c.low_min_ns, Some(500.0));
     assert_eq!(c.high_min_ns, Some(500.0));

@@ -88,6 +88,30 @@ pub struct Channel<'a> {
     pub offset_uv: i32,
 }
 
+impl<'a> Channel<'a> {
+    /// An edge input with these capability bits ([`caps`]); no analog scale.
+    pub const fn edge(id: u8, capabilities: u8, label: &'a str) -> Self {
+        Self::digital(id, ChannelKind::Edge, capabilities, label)
+    }
+
+    /// A line input with this role ([`roles`]); no analog scale.
+    pub const fn line(id: u8, role: u8, label: &'a str) -> Self {
+        Self::digital(id, ChannelKind::Line, role, label)
+    }
+
+    const fn digital(id: u8, kind: ChannelKind, info: u8, label: &'a str) -> Self {
+        Self {
+            id,
+            kind,
+            info,
+            label,
+            scale_num_uv: 0,
+            scale_den: 1,
+            offset_uv: 0,
+        }
+    }
+}
+
 /// Channel list of a HELLO: borrowed from a frame, or given for encoding.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Channels<'a> {
@@ -992,15 +1016,7 @@ mod tests {
     #[test]
     fn every_message_round_trips() {
         let chans = [
-            Channel {
-                id: 0,
-                kind: ChannelKind::Edge,
-                info: 7,
-                label: "CLK",
-                scale_num_uv: 0,
-                scale_den: 1,
-                offset_uv: 0,
-            },
+            Channel::edge(0, 7, "CLK"),
             Channel {
                 id: 8,
                 kind: ChannelKind::Analog,

@@ -19,33 +19,13 @@ fn unhex(s: &str) -> Vec<u8> {
 }
 
 const CHANNELS: &[Channel<'static>] = &[
-    Channel {
-        id: 0,
-        kind: ChannelKind::Edge,
-        info: caps::TIMESTAMPS | caps::COUNT_WINDOWS | caps::LEVEL_SAMPLING,
-        label: "CLK",
-        scale_num_uv: 0,
-        scale_den: 1,
-        offset_uv: 0,
-    },
-    Channel {
-        id: 1,
-        kind: ChannelKind::Line,
-        info: roles::HEARTBEAT,
-        label: "HEARTBEAT",
-        scale_num_uv: 0,
-        scale_den: 1,
-        offset_uv: 0,
-    },
-    Channel {
-        id: 2,
-        kind: ChannelKind::Line,
-        info: roles::FAULT,
-        label: "FAULT",
-        scale_num_uv: 0,
-        scale_den: 1,
-        offset_uv: 0,
-    },
+    Channel::edge(
+        0,
+        caps::TIMESTAMPS | caps::COUNT_WINDOWS | caps::LEVEL_SAMPLING,
+        "CLK",
+    ),
+    Channel::line(1, roles::HEARTBEAT, "HEARTBEAT"),
+    Channel::line(2, roles::FAULT, "FAULT"),
     Channel {
         id: 3,
         kind: ChannelKind::Analog,

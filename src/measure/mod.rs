@@ -668,25 +668,12 @@ impl Engine {
                     window,
                     clock::ClockAcc::merge,
                 );
+                // the first clock that has events supplies them
                 if glitch_events.is_empty() {
-                    glitch_events = c
-                        .state
-                        .glitch_events
-                        .iter()
-                        .rev()
-                        .take(50)
-                        .rev()
-                        .copied()
-                        .collect();
-                    stall_events = c
-                        .state
-                        .stall_events
-                        .iter()
-                        .rev()
-                        .take(50)
-                        .rev()
-                        .copied()
-                        .collect();
+                    glitch_events = newest(&c.state.glitch_events, 50);
+                }
+                if stall_events.is_empty() {
+                    stall_events = newest(&c.state.stall_events, 50);
                 }
                 clock::snapshot(
                     *id,
@@ -828,4 +815,9 @@ impl Feed {
     pub fn counters(&self) -> Counters {
         self.decoder.counters
     }
+}
+
+/// The last `n` items, oldest first.
+fn newest<T: Copy>(v: &[T], n: usize) -> Vec<T> {
+    v[v.len().saturating_sub(n)..].to_vec()
 }

@@ -265,6 +265,16 @@ impl<R: Read> ChunkReader<R> {
         }
     }
 
+    /// The file ends inside the chunk at `at`: note it and skip the rest.
+    fn cut_off(&mut self, at: u64, avail: usize) {
+        self.damage.push(Damage {
+            offset: at,
+            what: "file ends inside a chunk (cut off)".into(),
+            skipped: avail as u64,
+        });
+        self.pos = self.buf.len();
+    }
+
     fn fill(&mut self, need: usize) -> io::Result<()> {
         while self.buf.len() - self.pos < need && !self.eof {
             if self.pos > 0 && self.pos > self.buf.len() / 2 {
@@ -295,12 +305,7 @@ impl<R: Read> ChunkReader<R> {
             let rest = &self.buf[self.pos..];
             if avail < CHUNK_HEAD + 4 || rest[..4] != SYNC {
                 if avail < CHUNK_HEAD + 4 && self.eof {
-                    self.damage.push(Damage {
-                        offset: at,
-                        what: "file ends inside a chunk (cut off)".into(),
-                        skipped: avail as u64,
-                    });
-                    self.pos = self.buf.len();
+                    self.cut_off(at, avail);
                     return Ok(None);
                 }
                 // resynchronise
@@ -330,12 +335,7 @@ impl<R: Read> ChunkReader<R> {
             self.fill(total)?;
             let avail = self.buf.len() - self.pos;
             if avail < total {
-                self.damage.push(Damage {
-                    offset: at,
-                    what: "file ends inside a chunk (cut off)".into(),
-                    skipped: avail as u64,
-                });
-                self.pos = self.buf.len();
+                self.cut_off(at, avail);
                 return Ok(None);
             }
             let rest = &self.buf[self.pos..self.pos + total];

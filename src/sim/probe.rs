@@ -202,42 +202,10 @@ impl SimProbe {
 
     fn send_hello(&mut self) {
         let mut chans = vec![
-            Channel {
-                id: CH_CLOCK,
-                kind: ChannelKind::Edge,
-                info: caps::TIMESTAMPS,
-                label: "CLK",
-                scale_num_uv: 0,
-                scale_den: 1,
-                offset_uv: 0,
-            },
-            Channel {
-                id: CH_HEARTBEAT,
-                kind: ChannelKind::Line,
-                info: roles::HEARTBEAT,
-                label: "HEARTBEAT",
-                scale_num_uv: 0,
-                scale_den: 1,
-                offset_uv: 0,
-            },
-            Channel {
-                id: CH_FAULT,
-                kind: ChannelKind::Line,
-                info: roles::FAULT,
-                label: "FAULT",
-                scale_num_uv: 0,
-                scale_den: 1,
-                offset_uv: 0,
-            },
-            Channel {
-                id: CH_RESET,
-                kind: ChannelKind::Line,
-                info: roles::RESET,
-                label: "RESET",
-                scale_num_uv: 0,
-                scale_den: 1,
-                offset_uv: 0,
-            },
+            Channel::edge(CH_CLOCK, caps::TIMESTAMPS, "CLK"),
+            Channel::line(CH_HEARTBEAT, roles::HEARTBEAT, "HEARTBEAT"),
+            Channel::line(CH_FAULT, roles::FAULT, "FAULT"),
+            Channel::line(CH_RESET, roles::RESET, "RESET"),
         ];
         let labels = self.labels.clone();
         for (i, l) in labels.iter().enumerate() {

@@ -41,6 +41,15 @@ pub struct ServeStats {
     pub unsent_bytes: u64,
 }
 
+/// An I/O error that only means "nothing more this round": would block, interrupted, or EIO
+/// (no one holds the device open).
+fn not_now(e: &io::Error) -> bool {
+    matches!(
+        e.kind(),
+        io::ErrorKind::WouldBlock | io::ErrorKind::Interrupted
+    ) || e.raw_os_error() == Some(libc::EIO)
+}
+
 fn cvt(r: libc::c_int) -> io::Result<libc::c_int> {
     if r < 0 {
         Err(io::Error::last_os_error())
@@ -118,14 +127,7 @@ impl PtyServer {
                 match self.master.read(&mut rx) {
                     Ok(0) => break,
                     Ok(n) => probe.handle_host(&rx[..n]),
-                    Err(e)
-                        if e.kind() == io::ErrorKind::WouldBlock
-                            || e.kind() == io::ErrorKind::Interrupted =>
-                    {
-                        break;
-                    }
-                    // EIO: no one holds the device open (cannot happen while we hold it)
-                    Err(e) if e.raw_os_error() == Some(libc::EIO) => break,
+                    Err(e) if not_now(&e) => break,
                     Err(e) => return Err(e),
                 }
             }
@@ -156,13 +158,7 @@ impl PtyServer {
                         stats.bytes += n as u64;
                         backlog.drain(..n);
                     }
-                    Err(e)
-                        if e.kind() == io::ErrorKind::WouldBlock
-                            || e.kind() == io::ErrorKind::Interrupted =>
-                    {
-                        break;
-                    }
-                    Err(e) if e.raw_os_error() == Some(libc::EIO) => break,
+                    Err(e) if not_now(&e) => break,
                     Err(e) => return Err(e),
                 }
             }
