@@ -1,6 +1,9 @@
 /* Simulator harness for the reference probe firmware (libsimavr).
  *
  * Usage: harness FIRMWARE.elf VECTORS.vec OUTDIR
+ *        harness --serve FIRMWARE.elf SECONDS FREQ_HZ
+ * The second form runs the probe behind simavr's pseudo-terminal bridge (/tmp/simavr-uart0) with a
+ * FREQ_HZ clock at 50 % duty for SECONDS of wall time, for host programs to connect to.
  * Checks the wire helpers against the protocol's test vectors, then runs one fresh simulated
  * ATmega328P per scenario: drives its pins from cycle timers with known signals, sends host
  * commands over the UART, writes the probe's byte stream to OUTDIR/<scenario>.bin and what was
@@ -24,6 +27,9 @@
 #include "sim_avr.h"
 #include "sim_cycle_timers.h"
 #include "sim_elf.h"
+#include "parts/uart_pty.h"
+#include <time.h>
+#include <unistd.h>
 
 #include "proto.h"
 
@@ -180,6 +186,15 @@ static void on_oc0a(struct avr_irq_t *irq, uint32_t value, void *param) {
     avr_raise_irq(avr_io_getirq(S.avr, AVR_IOCTL_ACOMP_GETIRQ, ACOMP_IRQ_AIN0), value ? 5000 : 0);
 }
 
+/* [sim] simavr does not disconnect ICP1 from its pin when the comparator feeds the capture, nor
+ * the comparator when the pin does: a run in count-window mode wires only the comparator path.
+ * On silicon OC0A (D6) reaches AIN0 through the pin and AIN1 (D7) sits at half supply. */
+static void wire_reciprocal(void) {
+    avr_unconnect_irq(S.pin_icp, S.icp_irq);
+    avr_irq_register_notify(avr_io_getirq(S.avr, AVR_IOCTL_IOPORT_GETIRQ('D'), 6), on_oc0a, NULL);
+    avr_raise_irq(avr_io_getirq(S.avr, AVR_IOCTL_ACOMP_GETIRQ, ACOMP_IRQ_AIN1), 2500);
+}
+
 /* ------------------------------------------------------------------ simulation control */
 
 static void nosleep(avr_t *avr, avr_cycle_count_t how_long) {
@@ -223,6 +238,7 @@ static void sim_open(const char *elf, const char *outdir, const char *name) {
     S.avr->frequency = (uint32_t)F_CPU;
     S.avr->vcc = S.avr->avcc = S.avr->aref = 5000;
     S.avr->sleep = nosleep;
+    if (getenv("HARNESS_LOG")) S.avr->log = (uint8_t)atoi(getenv("HARNESS_LOG"));
     avr_load_firmware(S.avr, &fw);
     uint32_t flags = 0;
     avr_ioctl(S.avr, AVR_IOCTL_UART_GET_FLAGS('0'), &flags);
@@ -407,12 +423,7 @@ static void scenario_commands(void) {
 static void scenario_count(const char *name, double f_hz, double duty) {
     truth[0] = 0;
     sim_open(ELF, OUT, name);
-    /* [sim] simavr does not disconnect ICP1 from its pin when the comparator feeds the capture,
-     * nor the comparator when the pin does: each scenario wires only the path it tests. On
-     * silicon OC0A (D6) reaches AIN0 through the pin and AIN1 (D7) sits at half supply. */
-    avr_unconnect_irq(S.pin_icp, S.icp_irq);
-    avr_irq_register_notify(avr_io_getirq(S.avr, AVR_IOCTL_IOPORT_GETIRQ('D'), 6), on_oc0a, NULL);
-    avr_raise_irq(avr_io_getirq(S.avr, AVR_IOCTL_ACOMP_GETIRQ, ACOMP_IRQ_AIN1), 2500);
+    wire_reciprocal();
     run_ms(2);
     configure(0xFF, CFG_GATE, 800000UL);
     clock_start(f_hz, duty, 0.0);
@@ -699,7 +710,40 @@ static void scenario_lines(void) {
     sim_close(OUT, name, truth);
 }
 
+/* The probe behind a pseudo-terminal for a host program, paced to about real time. */
+static int serve(const char *elf, double seconds, double f_hz) {
+    static uart_pty_t pty;
+    sim_open(elf, "/tmp", "simavr-serve");
+    wire_reciprocal(); /* the probe starts in count-window mode */
+    uart_pty_init(S.avr, &pty);
+    uart_pty_connect(&pty, '0');
+    uint32_t flags = 0; /* the bridge sets its own UART flags: clear the slow ones again */
+    avr_ioctl(S.avr, AVR_IOCTL_UART_GET_FLAGS('0'), &flags);
+    flags &= ~(uint32_t)(AVR_UART_FLAG_POLL_SLEEP | AVR_UART_FLAG_STDIO);
+    avr_ioctl(S.avr, AVR_IOCTL_UART_SET_FLAGS('0'), &flags);
+    clock_start(f_hz, 0.5, 0.0);
+    printf("serving on /tmp/simavr-uart0 for %.1f s\n", seconds);
+    fflush(stdout);
+    struct timespec t0, now;
+    clock_gettime(CLOCK_MONOTONIC, &t0);
+    for (;;) {
+        clock_gettime(CLOCK_MONOTONIC, &now);
+        double wall = (now.tv_sec - t0.tv_sec) + (now.tv_nsec - t0.tv_nsec) * 1e-9;
+        if (wall >= seconds) break;
+        double sim = S.avr->cycle / F_CPU;
+        if (sim > wall) {
+            struct timespec d = {0, 1000000};
+            nanosleep(&d, NULL);
+            continue;
+        }
+        run_until(S.avr->cycle + 16000);
+    }
+    fclose(S.bin);
+    _exit(0); /* uart_pty_stop() does not return in simavr 1.6 */
+}
+
 int main(int argc, char **argv) {
+    if (argc == 5 && !strcmp(argv[1], "--serve")) return serve(argv[2], atof(argv[3]), atof(argv[4]));
     if (argc != 4) {
         fprintf(stderr, "usage: %s FIRMWARE.elf VECTORS.vec OUTDIR\n", argv[0]);
         return 2;
