@@ -207,7 +207,13 @@ pub fn record_cmd(a: RecordArgs) -> Result<i32> {
                 );
             }
             Ok(LinkEvent::Failed(e)) => {
-                let _ = rec.finish();
+                // a file that holds only its header (the probe never answered) is not kept
+                if rec
+                    .finish()
+                    .is_ok_and(|c| c.data_bytes == 0 && c.marks == 0)
+                {
+                    let _ = std::fs::remove_file(&a.output);
+                }
                 return Err(miette::Report::new(e));
             }
             Ok(_) => {}

@@ -250,3 +250,36 @@ fn replay_equals_live() {
     assert_eq!(sum.marks[0].text, "half way");
     assert!(sum.damage.is_empty());
 }
+
+#[test]
+fn record_refuses_a_missing_port_and_an_existing_file() {
+    let bin = env!("CARGO_BIN_EXE_slackmeter");
+    let out_path = tmp("missing-port").join("x.smrec");
+    let _ = std::fs::remove_file(&out_path);
+    let out = Command::new(bin)
+        .args(["record", "/dev/does-not-exist-slackmeter", "-o"])
+        .arg(&out_path)
+        .args(["--duration", "5s"])
+        .output()
+        .expect("run");
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("not found") && err.contains("does-not-exist"),
+        "{err}"
+    );
+    assert!(!out_path.exists(), "a header-only file was left behind");
+
+    std::fs::write(&out_path, b"precious").expect("write");
+    let out = Command::new(bin)
+        .args(["record", "--sim", "-o"])
+        .arg(&out_path)
+        .args(["--duration", "1s"])
+        .output()
+        .expect("run");
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("already exists"), "{err}");
+    assert_eq!(std::fs::read(&out_path).expect("read"), b"precious");
+    let _ = std::fs::remove_file(&out_path);
+}

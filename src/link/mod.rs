@@ -599,7 +599,11 @@ fn run(cfg: LinkConfig, tx: mpsc::Sender<LinkEvent>, stop: Arc<AtomicBool>) {
             return;
         }
         let failure = match open_port(&cfg) {
-            Err(e) => (e, true),
+            // a device that was never there is a mistyped path, not a probe being plugged in
+            Err(e) => {
+                let retryable = !matches!(e, LinkError::NotFound { .. });
+                (e, retryable)
+            }
             Ok(port) => {
                 let mut s = Session {
                     port,

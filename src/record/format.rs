@@ -96,6 +96,25 @@ pub enum RecordingError {
         /// OS error.
         err: io::Error,
     },
+    /// The output file exists: recordings are never overwritten.
+    #[error("{path} already exists: a recording is never overwritten")]
+    #[diagnostic(
+        code(slackmeter::recording::exists),
+        help("choose another file name with -o, or move the old file away first")
+    )]
+    Exists {
+        /// File.
+        path: String,
+    },
+    /// The output file cannot be created or written.
+    #[error("cannot write {path}: {err}")]
+    #[diagnostic(code(slackmeter::recording::write))]
+    Write {
+        /// File.
+        path: String,
+        /// OS error.
+        err: io::Error,
+    },
     /// Not a recording.
     #[error("{path} is not a slackmeter recording (it starts with {start})")]
     #[diagnostic(

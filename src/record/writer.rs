@@ -86,7 +86,7 @@ pub struct Recorder {
 impl Recorder {
     /// Create the file (refusing to overwrite an existing one) and start the writer thread.
     pub fn create(path: &Path, header: &Header) -> Result<Recorder, RecordingError> {
-        let io_err = |err| RecordingError::Io {
+        let io_err = |err| RecordingError::Write {
             path: path.display().to_string(),
             err,
         };
@@ -94,7 +94,15 @@ impl Recorder {
             .write(true)
             .create_new(true)
             .open(path)
-            .map_err(io_err)?;
+            .map_err(|err| {
+                if err.kind() == std::io::ErrorKind::AlreadyExists {
+                    RecordingError::Exists {
+                        path: path.display().to_string(),
+                    }
+                } else {
+                    io_err(err)
+                }
+            })?;
         let mut w = BufWriter::with_capacity(1 << 20, file);
         let head = encode_header(header);
         w.write_all(&head).map_err(io_err)?;
