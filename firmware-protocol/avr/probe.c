@@ -124,7 +124,6 @@ typedef struct {
 static ebuf_t eb[2];
 static volatile uint8_t eb_fill;     /* batch being filled */
 static volatile uint8_t eb_ready[2]; /* closed, waiting to be sent */
-static uint64_t eb_last;             /* previous stamp */
 static uint8_t eb_pending;           /* flags for the next batch */
 
 /* reciprocal counting: captures of the divided clock */
@@ -133,52 +132,83 @@ static uint64_t rc_first, rc_last;
 static bool recip;         /* input capture listens to the comparator */
 
 static uint8_t t0_at_rise; /* TCNT0 expected after the last stamped rising edge */
+static bool t0_sync;       /* t0_at_rise is set (from the first stamped rise) */
 
 static void eb_close(void) {
     eb_ready[eb_fill] = 1;
     eb_fill ^= 1;
 }
 
-static void eb_push(uint64_t t, uint8_t level) {
-    ebuf_t *b = &eb[eb_fill];
-    if (!eb_ready[eb_fill] && b->n > 0) {
-        uint64_t d = t - eb_last;
-        if (d > 0xFFFF) {
-            eb_close();
-            b = &eb[eb_fill];
-        } else {
-            b->d[b->n - 1] = (uint16_t)d;
-            b->n++;
-            eb_last = t;
-            if (b->n == EB_N) eb_close();
-            return;
-        }
+static uint16_t cap_icr;         /* ICR1 at the previous capture */
+static uint32_t cap_high;        /* Timer1 overflows then */
+static uint32_t cap_lo, cap_hi;  /* its 64-bit tick, counted on in 16-bit steps */
+
+static uint64_t make64(uint32_t hi, uint32_t lo) {
+    union {
+        uint64_t t;
+        uint32_t w[2];
+    } u;
+    u.w[0] = lo;
+    u.w[1] = hi;
+    return u.t;
+}
+
+/* Advance the capture clock to this ICR1 value; returns the ticks since the previous capture,
+ * or 0 when a wrap or more went by (then the tick is re-extended from the overflow count).
+ * Counting on in 16 bits keeps the interrupt short, and it stays continuous under simavr 1.6,
+ * which loses Timer1 overflows while TCCR1B is rewritten (FIRMWARE.md). */
+static uint16_t cap_advance(uint16_t icr) {
+    uint32_t h = t1_high;
+    if ((TIFR1 & _BV(TOV1)) && icr < 0x8000) h++;
+    uint16_t d = (uint16_t)(icr - cap_icr);
+    bool near = d != 0 && (h == cap_high || (h == cap_high + 1 && icr < cap_icr));
+    if (near) {
+        uint32_t lo = cap_lo + d;
+        if (lo < cap_lo) cap_hi++;
+        cap_lo = lo;
+    } else {
+        cap_lo = (h << 16) | icr;
+        cap_hi = h >> 16;
+        d = 0;
     }
+    cap_icr = icr;
+    cap_high = h;
+    return d;
+}
+
+/* One stamp, `d` ticks after the previous capture (0: not continuous). */
+static void eb_push(uint16_t d, uint8_t level) {
+    ebuf_t *b = &eb[eb_fill];
     if (eb_ready[eb_fill]) {
         /* both batches wait for the UART: leave edges unstamped, by design */
         eb_pending |= FLAG_BURST;
         return;
     }
-    b->first = t;
+    if (b->n > 0) {
+        if (d) {
+            b->d[b->n - 1] = d;
+            if (++b->n == EB_N) eb_close();
+            return;
+        }
+        eb_close();
+        b = &eb[eb_fill];
+        if (eb_ready[eb_fill]) {
+            eb_pending |= FLAG_BURST;
+            return;
+        }
+    }
+    b->first = make64(cap_hi, cap_lo);
     b->n = 1;
     b->first_level = level;
     b->flags = eb_pending;
     eb_pending = 0;
-    eb_last = t;
 }
-
-static uint64_t cap_last; /* previous capture, any mode */
 
 ISR(TIMER1_CAPT_vect) {
     uint16_t icr = ICR1;
-    uint64_t t = extend(icr);
-    /* Within a wrap of the previous capture, count on from it in 16 bits: on silicon that equals
-     * the extended value; simavr 1.6 drops Timer1 overflows when TCCR1B is rewritten (the edge
-     * toggle below), and this keeps stamps continuous there too. */
-    uint64_t fine = cap_last + (uint16_t)(icr - (uint16_t)cap_last);
-    if ((int64_t)(t - cap_last) < 0x18000) t = fine;
-    cap_last = t;
     if (recip) {
+        cap_advance(icr);
+        uint64_t t = make64(cap_hi, cap_lo);
         if (rc_n == 0) rc_first = t;
         rc_last = t;
         if (rc_n < 0xFFFF) rc_n++;
@@ -189,9 +219,14 @@ ISR(TIMER1_CAPT_vect) {
     TIFR1 = _BV(ICF1);
     uint8_t pin = PINB & 1;
     uint8_t c = TCNT0; /* Timer0 counts every rising edge of the same clock on T0 */
-    eb_push(t, level);
-    if (level) t0_at_rise++;
-    int8_t extra = (int8_t)(uint8_t)(c - t0_at_rise); /* rising edges counted, not stamped */
+    eb_push(cap_advance(icr), level);
+    if (level) {
+        /* the first stamped rise of a stream sets the reference (an edge at the moment the
+         * capture was armed may be counted on T0 and never stamped) */
+        if (t0_sync) t0_at_rise++;
+        else t0_at_rise = c, t0_sync = true;
+    }
+    int8_t extra = t0_sync ? (int8_t)(uint8_t)(c - t0_at_rise) : 0; /* counted, not stamped */
     bool pending = TIFR1 & _BV(ICF1);
     if (extra >= 2 || (extra == 1 && !pin && !level && !pending) || (pin != level && !pending)) {
         /* the opposite edge came before the capture was re-armed: it is lost */
@@ -202,7 +237,7 @@ ISR(TIMER1_CAPT_vect) {
         if (pin) TCCR1B &= ~_BV(ICES1);
         else TCCR1B |= _BV(ICES1);
         TIFR1 = _BV(ICF1);
-        t0_at_rise = TCNT0;
+        t0_sync = false;
     }
 }
 
@@ -424,7 +459,7 @@ static void send_hello(void) {
     proto_put64(p + 2, TICK_HZ);
     proto_put32(p + 10, 1);
     proto_put16(p + 14, TIMEBASE_PPM);
-    proto_put32(p + 16, 100); /* kHz of edges stamped without loss, see FIRMWARE.md */
+    proto_put32(p + 16, 40); /* kHz of edges stamped without loss (tested), see FIRMWARE.md */
     uint16_t o = 20;
     o += put_text(p + o, PSTR(FIRMWARE_ID));
     uint8_t *count = p + o++;
@@ -575,7 +610,7 @@ static void capture_setup(void) {
     eb_ready[0] = eb_ready[1] = 0;
     eb_fill = 0;
     eb_pending = FLAG_BURST;
-    t0_at_rise = TCNT0;
+    t0_sync = false;
     rc_n = 0;
     if (stamps || recip) TIMSK1 |= _BV(ICIE1);
     else TIMSK1 &= ~_BV(ICIE1);
