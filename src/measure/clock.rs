@@ -75,11 +75,27 @@ pub struct FitSums {
     su: i128,
     sku: i128,
     suu: i128,
+    /// A term beyond the plain-arithmetic bounds was added (sums saturate from then on).
+    big: bool,
 }
 
 impl FitSums {
     #[inline]
     fn add(&mut self, k: i64, u: i64) {
+        // While every term had k and |u| below 2^40 and n < 2^40, no sum can pass 2^120: plain
+        // arithmetic (the usual case). One larger term switches this fit to saturating for good.
+        const LIM: i64 = 1 << 40;
+        if !self.big && (0..LIM).contains(&k) && (-LIM..LIM).contains(&u) && self.n < 1 << 40 {
+            let (k, u) = (i128::from(k), i128::from(u));
+            self.n += 1;
+            self.sk += k;
+            self.skk += k * k;
+            self.su += u;
+            self.sku += k * u;
+            self.suu += u * u;
+            return;
+        }
+        self.big = true;
         let (k, u) = (i128::from(k), i128::from(u));
         // saturating: only an absurd probe gets near the limits, and then the TIE is garbage anyway
         self.n += 1;
@@ -90,6 +106,7 @@ impl FitSums {
         self.suu = self.suu.saturating_add(u.saturating_mul(u));
     }
     fn merge(&mut self, o: &FitSums) {
+        self.big |= o.big;
         self.n += o.n;
         self.sk = self.sk.saturating_add(o.sk);
         self.skk = self.skk.saturating_add(o.skk);
@@ -302,6 +319,8 @@ pub struct ClockState {
     glitch_low_ticks: u64,
     stall_ticks: u64,
     refresh: u32,
+    /// Length of a short run (20 ms) in ticks.
+    run_ticks: u64,
     allan: Option<AllanStream>,
     allan_every: u64,
     allan_countdown: u64,
@@ -344,6 +363,7 @@ impl ClockState {
             glitch_low_ticks: 0,
             stall_ticks: u64::MAX,
             refresh: 0,
+            run_ticks: (20e6 / tick_ns) as u64,
             allan: None,
             allan_every: 1,
             allan_countdown: 0,
@@ -683,8 +703,7 @@ impl ClockState {
             ));
         }
         let every = self.allan_every;
-        let run_ticks = (20e6 / self.tick_ns) as u64;
-        if self.run.n > 0 && t - self.run.start > run_ticks {
+        if self.run.n > 0 && t - self.run.start > self.run_ticks {
             self.close_run();
         }
         if self.run.n == 0 {
@@ -768,12 +787,12 @@ impl ClockState {
     }
 }
 
+/// Exponential average over about 64 values; the first value (prev = 0) is taken as it is.
+/// (× 1/64 equals ÷ 64 exactly: a power of two; the select keeps the hot path branch-free.)
+#[inline]
 fn ema(prev: f64, x: f64) -> f64 {
-    if prev == 0.0 {
-        x
-    } else {
-        prev + (x - prev) / 64.0
-    }
+    let w = if prev == 0.0 { 1.0 } else { 1.0 / 64.0 };
+    prev + (x - prev) * w
 }
 
 /// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
@@ -1199,4 +1218,38 @@ pub fn snapshot(
             .collect();
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The plain-arithmetic path of the fit sums gives exactly what the saturating path gives
+    /// wherever neither saturates, and a huge term switches to saturating without a panic.
+    #[test]
+    fn fit_sums_fast_path_equals_saturating_path() {
+        let mut fast = FitSums::default();
+        let mut slow = FitSums {
+            big: true,
+            ..FitSums::default()
+        };
+        let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
+        for k in 0..10_000i64 {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            let u = (x % 2_000_001) as i64 - 1_000_000;
+            fast.add(k, u);
+            slow.add(k, u);
+        }
+        assert!(!fast.big);
+        assert_eq!(
+            (fast.n, fast.sk, fast.skk, fast.su, fast.sku, fast.suu),
+            (slow.n, slow.sk, slow.skk, slow.su, slow.sku, slow.suu)
+        );
+        assert_eq!(fast.residual_rms(), slow.residual_rms());
+        fast.add(i64::MAX / 4, i64::MAX / 4);
+        fast.add(i64::MAX / 4, i64::MIN / 4);
+        assert!(fast.big && fast.suu > 0);
+    }
 }
