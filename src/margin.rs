@@ -198,8 +198,18 @@ pub fn evaluate(
 ) -> Result<Margin, MarginError> {
     let c = snap.clock().ok_or(MarginError::NoClock)?;
     let mut notes = Vec::new();
-    let period_mean = c.period_mean_ns.ok_or(MarginError::NoCycles)?;
-    let duty = c.duty.unwrap_or(0.5);
+    // a counting probe gives the frequency only: its mean period stands in
+    let period_mean = c
+        .period_mean_ns
+        .or_else(|| c.frequency_hz.filter(|f| *f > 0.0).map(|f| 1e9 / f))
+        .ok_or(MarginError::NoCycles)?;
+    let duty = match c.duty {
+        Some(d) => d,
+        None => {
+            notes.push("the duty was not measured: 50 % is assumed".into());
+            0.5
+        }
+    };
     let q = c.resolution_ns;
     // worst cycles, or what stands in for them
     let (low, high, period, u) = match (c.low_min_ns, c.high_min_ns, c.period_min_ns) {
@@ -212,11 +222,14 @@ pub fn evaluate(
                 "the probe cannot observe single cycles: the MEAN low and high times (duty × period) stand in for the worst cycles, which is optimistic"
                     .into(),
             );
+            // a mean is not bounded by the tick: the duty's own uncertainty (sampled duty: its
+            // Wilson interval) bounds the mean phases
+            let u = c.duty_uncertainty.map_or(q, |du| du * period_mean);
             (
                 period_mean * (1.0 - duty),
                 period_mean * duty,
                 period_mean,
-                q,
+                u,
             )
         }
     };

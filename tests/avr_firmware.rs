@@ -262,6 +262,25 @@ fn record_and_report_through_the_simulator_pty() {
     assert!((f - f_hz).abs() <= u, "{f} vs {f_hz} ± {u}");
     assert_eq!(j["crc_errors"], 0);
     assert_eq!(j["lost_frames"], 0);
+    // with a design: a verdict on the mean phases, saying that it is one
+    let rep = Command::new(bin)
+        .arg("report")
+        .arg(&rec)
+        .args(["--json", "--design", "designs/larkspur-8.toml"])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("report with a design");
+    let jd: serde_json::Value = serde_json::from_slice(&rep.stdout).expect("report JSON");
+    let m = &jd["margin"];
+    assert!(m["verdict"].is_string(), "{m}");
+    assert!(
+        m["notes"]
+            .as_array()
+            .expect("notes")
+            .iter()
+            .any(|n| n.as_str().is_some_and(|t| t.contains("MEAN"))),
+        "{m}"
+    );
     // rails idle at 5.000 V through the divider; default scale (1024 counts per 1.1 V) against
     // simavr's 1023 [sim] reads 0.1 % low, well within 2 LSB
     for r in j["rails"].as_array().expect("rails") {

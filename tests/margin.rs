@@ -278,3 +278,65 @@ fn a_design_whose_rails_the_recording_lacks_is_reported() {
         "the lowest rail stands in"
     );
 }
+
+/// A counting probe (frequency from count windows, duty from level samples, as the reference
+/// firmware sends by default): the verdict uses the mean phases, says so, and carries the
+/// sampled duty's uncertainty.
+#[test]
+fn a_counting_probe_gets_a_verdict_on_mean_phases() {
+    let lib = Library::builtin();
+    let d = Design::parse(Source::new("example.toml", EXAMPLE.to_string()), &lib).unwrap();
+    let chans = [Channel::edge(
+        0,
+        caps::COUNT_WINDOWS | caps::LEVEL_SAMPLING,
+        "CLK",
+    )];
+    let h = Message::Hello(Hello {
+        protocol_version: 1,
+        tick_num_hz: 16_000_000,
+        tick_den: 1,
+        timebase_ppm: 0,
+        max_edge_rate_khz: 0,
+        firmware: "t",
+        channels: Channels::List(&chans),
+    });
+    let mut wire = [0u8; MAX_WIRE];
+    let mut bytes = Vec::new();
+    let n = encode_message(&h, 0, &mut wire).unwrap();
+    bytes.extend_from_slice(&wire[..n]);
+    // 1 MHz over ten reciprocal windows of 0.1 s; 30 000 of 100 000 samples high: duty 0.30
+    for k in 0..10u32 {
+        let c = Message::Count(CountWindow {
+            channel: 0,
+            method: methods::RECIPROCAL,
+            start_tick: u64::from(k) * 1_600_000,
+            gate_ticks: 1_600_000,
+            edges: 100_000,
+            samples: 10_000,
+            samples_high: 3_000,
+        });
+        let n = encode_message(&c, (k + 1) as u16, &mut wire).unwrap();
+        bytes.extend_from_slice(&wire[..n]);
+    }
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&bytes);
+    let s = f.engine.snapshot(Window::Session);
+    let cfg = MarginConfig {
+        vcc_v: Some(5.0),
+        ..MarginConfig::default()
+    };
+    let m = evaluate(&s, &d, &lib, &cfg).expect("a verdict from count windows");
+    // mean low 700 ns − 500 = +200 ns, mean high 300 − 125 = +175 ns (DESIGN.md §4 example)
+    assert!((m.clock_hz - 1e6).abs() < 1e-3, "{}", m.clock_hz);
+    assert!((m.low_slack_ns - 200.0).abs() < 1e-6, "{}", m.low_slack_ns);
+    assert!(
+        (m.high_slack_ns - 175.0).abs() < 1e-6,
+        "{}",
+        m.high_slack_ns
+    );
+    assert_eq!(m.verdict, Verdict::InsideWorstCase);
+    assert!(m.notes.iter().any(|n| n.contains("MEAN")), "{:?}", m.notes);
+    // Wilson half-width at p = 0.3, n = 100 000 is about 0.0028: about 2.8 ns on a 1 µs period
+    let u = m.worst_case.phases[0].uncertainty_ns;
+    assert!(u > 2.0 && u < 4.0, "{u}");
+}

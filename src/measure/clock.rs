@@ -896,6 +896,10 @@ pub struct ClockSnapshot {
     pub edges: u64,
     /// Complete periods measured.
     pub cycles: u64,
+    /// Count windows received (a counting probe), and the input cycles they counted.
+    pub count_windows: u64,
+    /// Input cycles counted over those windows.
+    pub counted_cycles: u64,
     /// Frequency (reciprocal counting: measured periods over their total time).
     pub frequency_hz: Option<f64>,
     /// Its uncertainty (resolution and jitter; k = 2.5).
@@ -1009,6 +1013,8 @@ pub fn snapshot(
         resolution_ns: q,
         edges: 0,
         cycles: 0,
+        count_windows: 0,
+        counted_cycles: 0,
         frequency_hz: None,
         frequency_uncertainty_hz: None,
         frequency_accuracy_hz: None,
@@ -1059,6 +1065,8 @@ pub fn snapshot(
         return s;
     };
     s.edges = a.edges;
+    s.count_windows = a.count_windows;
+    s.counted_cycles = a.count_edges;
     s.glitches = a.glitches;
     s.stalls = a.stalls;
     let tick_s = q * 1e-9;

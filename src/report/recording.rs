@@ -88,19 +88,25 @@ fn pm(v: Option<f64>, u: Option<f64>, f: impl Fn(f64) -> String) -> String {
 pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     let _ = writeln!(
         out,
-        "Clock {} (channel {}, {}, resolution {} per time)",
+        "Clock {} (channel {}, {}, tick {})",
         c.label,
         c.channel,
         c.method,
         ns(c.resolution_ns)
     );
+    let counted = if c.count_windows > 0 && c.cycles == 0 {
+        format!(
+            "{} cycles counted in {} windows",
+            c.counted_cycles, c.count_windows
+        )
+    } else {
+        format!("{} cycles, {} edges", c.cycles, c.edges)
+    };
     let _ = writeln!(
         out,
-        "  frequency     {}   ({} cycles, {} edges)",
+        "  frequency     {}   ({counted})",
         pm(c.frequency_hz, c.frequency_uncertainty_hz, |x| hz(x)
-            .to_string()),
-        c.cycles,
-        c.edges
+            .to_string())
     );
     if let Some(a) = c.frequency_accuracy_hz {
         let _ = writeln!(out, "                (timebase accuracy ± {})", hz(a));
