@@ -128,6 +128,8 @@ pub struct Margin {
     pub headroom: Option<f64>,
     /// The failure, when present.
     pub failure: Option<Failure>,
+    /// The mean low and high times stood in for the worst cycles (a counting probe).
+    pub mean_phases: bool,
     /// Which measured figures were used, and caveats.
     pub notes: Vec<String>,
 }
@@ -212,6 +214,8 @@ pub fn evaluate(
     };
     let q = c.resolution_ns;
     // worst cycles, or what stands in for them
+    let mean_phases =
+        c.low_min_ns.is_none() || c.high_min_ns.is_none() || c.period_min_ns.is_none();
     let (low, high, period, u) = match (c.low_min_ns, c.high_min_ns, c.period_min_ns) {
         (Some(l), Some(h), Some(p)) => {
             notes.push("measured worst cycles: the shortest low time, high time and period of the window (± one tick)".into());
@@ -374,6 +378,7 @@ pub fn evaluate(
         fail_onset_hz: failure.as_ref().map(|f| f.onset.frequency_hz),
         headroom: failure.as_ref().and_then(|f| f.headroom),
         failure,
+        mean_phases,
         notes,
     })
 }

@@ -101,6 +101,10 @@ fn hand_computed_slack() {
     assert!((m.worst_case.phases[0].slack_pct.unwrap() - 40.0).abs() < 1e-9);
     assert_eq!(m.verdict, Verdict::InsideWorstCase);
     assert!(m.guard_band_met, "40 % ≥ 20 %");
+    assert!(
+        !m.mean_phases,
+        "a timestamping probe gives the worst cycles"
+    );
     // typical: low 700 − 400 = +300, high 300 − 100 = +200
     assert!((m.typical.phases[0].slack_ns - 300.0).abs() < 1e-9);
     assert!((m.typical.phases[1].slack_ns - 200.0).abs() < 1e-9);
@@ -336,6 +340,7 @@ fn a_counting_probe_gets_a_verdict_on_mean_phases() {
     );
     assert_eq!(m.verdict, Verdict::InsideWorstCase);
     assert!(m.notes.iter().any(|n| n.contains("MEAN")), "{:?}", m.notes);
+    assert!(m.mean_phases);
     // Wilson half-width at p = 0.3, n = 100 000 is about 0.0028: about 2.8 ns on a 1 µs period
     let u = m.worst_case.phases[0].uncertainty_ns;
     assert!(u > 2.0 && u < 4.0, "{u}");

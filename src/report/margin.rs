@@ -5,7 +5,7 @@ use std::fmt::Write;
 use crate::margin::{Against, Margin};
 use crate::units::{hz, ns};
 
-fn table(out: &mut String, title: &str, a: &Against) {
+fn table(out: &mut String, title: &str, a: &Against, measured: &str) {
     let _ = writeln!(
         out,
         "  {title} (f_max at the measured duty {})",
@@ -14,7 +14,7 @@ fn table(out: &mut String, title: &str, a: &Against) {
     let _ = writeln!(
         out,
         "    {:<7} {:>11} {:>16} {:>13} {:>8}",
-        "phase", "needs", "measured worst", "slack", "slack %"
+        "phase", "needs", measured, "slack", "slack %"
     );
     for p in &a.phases {
         let _ = writeln!(
@@ -52,12 +52,18 @@ pub fn render(m: &Margin, design: &str) -> String {
     for (s, v) in &m.section_vcc_v {
         let _ = writeln!(out, "    section {s}: {v:.3} V");
     }
+    let measured = if m.mean_phases {
+        "measured MEAN"
+    } else {
+        "measured worst"
+    };
     table(
         &mut out,
         "worst case (guaranteed data-sheet limits)",
         &m.worst_case,
+        measured,
     );
-    table(&mut out, "typical (not guaranteed)", &m.typical);
+    table(&mut out, "typical (not guaranteed)", &m.typical, measured);
     if let Some(f) = &m.failure {
         let o = &f.onset;
         let _ = writeln!(

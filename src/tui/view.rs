@@ -331,9 +331,14 @@ fn slack(f: &mut Frame, app: &App, r: Rect) {
         f.render_widget(Paragraph::new(msg).block(block), r);
         return;
     };
+    let measured = if m.mean_phases {
+        "measured MEAN"
+    } else {
+        "measured worst"
+    };
     let mut lines = vec![Line::from(format!(
         "{:<7} {:>10} {:>15} {:>11} {:>7}  at {:.3} V",
-        "phase", "needs", "measured worst", "slack", "%", m.vcc_used_v
+        "phase", "needs", measured, "slack", "%", m.vcc_used_v
     ))];
     for p in &m.worst_case.phases {
         let short = p.slack_ns < 0.0;
@@ -352,6 +357,12 @@ fn slack(f: &mut Frame, app: &App, r: Rect) {
                 Span::raw("")
             },
         ]));
+    }
+    if m.mean_phases {
+        lines.push(Line::from(Span::styled(
+            "counting probe: mean phases stand in, the worst cycle is not observable",
+            warn(app),
+        )));
     }
     lines.push(Line::from(Span::styled(
         format!("verdict: {}", m.verdict_text),
