@@ -1,6 +1,8 @@
 //! The margin verdict: hand-computed slack, the direction and size of derating, and the
 //! measured failure onset against the virtual probe's true failure point.
 
+mod common;
+
 use firmware_protocol::*;
 use slackmeter::budget::{Design, Library, OperatingPoint, solve};
 use slackmeter::diag::Source;
@@ -50,19 +52,8 @@ max = "0 ns"
 
 fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snapshot {
     let chans = [Channel::edge(0, caps::TIMESTAMPS, "CLK")];
-    let h = Message::Hello(Hello {
-        protocol_version: 1,
-        tick_num_hz: 1_000_000_000,
-        tick_den: 1,
-        timebase_ppm: 0,
-        max_edge_rate_khz: 0,
-        firmware: "t",
-        channels: Channels::List(&chans),
-    });
     let mut wire = [0u8; MAX_WIRE];
-    let mut bytes = Vec::new();
-    let n = encode_message(&h, 0, &mut wire).unwrap();
-    bytes.extend_from_slice(&wire[..n]);
+    let mut bytes = common::hello_wire(&chans, 1_000_000_000, 1);
     let mut body = [0u8; MAX_BODY];
     let mut w = EdgeWriter::new(&mut body, 0, true, 0, 100);
     for k in 0..cycles {
@@ -295,19 +286,8 @@ fn a_counting_probe_gets_a_verdict_on_mean_phases() {
         caps::COUNT_WINDOWS | caps::LEVEL_SAMPLING,
         "CLK",
     )];
-    let h = Message::Hello(Hello {
-        protocol_version: 1,
-        tick_num_hz: 16_000_000,
-        tick_den: 1,
-        timebase_ppm: 0,
-        max_edge_rate_khz: 0,
-        firmware: "t",
-        channels: Channels::List(&chans),
-    });
     let mut wire = [0u8; MAX_WIRE];
-    let mut bytes = Vec::new();
-    let n = encode_message(&h, 0, &mut wire).unwrap();
-    bytes.extend_from_slice(&wire[..n]);
+    let mut bytes = common::hello_wire(&chans, 16_000_000, 1);
     // 1 MHz over ten reciprocal windows of 0.1 s; 30 000 of 100 000 samples high: duty 0.30
     for k in 0..10u32 {
         let c = Message::Count(CountWindow {

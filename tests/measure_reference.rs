@@ -1,6 +1,8 @@
 //! The measurement engine on hand-built edge lists and synthetic stamps, checked against the
 //! published definitions and worked values in ../shared/REFERENCES.md §8.
 
+mod common;
+
 use firmware_protocol::*;
 use slackmeter::measure::{ClockConfig, EngineConfig, Feed, Window};
 
@@ -20,18 +22,7 @@ fn hello(tick: (u64, u32)) -> Vec<u8> {
             offset_uv: 0,
         },
     ];
-    let h = Message::Hello(Hello {
-        protocol_version: 1,
-        tick_num_hz: tick.0,
-        tick_den: tick.1,
-        timebase_ppm: 0,
-        max_edge_rate_khz: 0,
-        firmware: "test",
-        channels: Channels::List(&chans),
-    });
-    let mut w = [0u8; MAX_WIRE];
-    let n = encode_message(&h, 0, &mut w).unwrap();
-    w[..n].to_vec()
+    common::hello_wire(&chans, tick.0, tick.1)
 }
 
 /// Frames for edges (ticks) starting with a rising edge, in batches of `per`.
