@@ -666,6 +666,12 @@ static void scenario_lines(void) {
     truth[0] = 0;
     sim_open(ELF, OUT, name);
     run_ms(2);
+    /* changes before START are not reported, and do not count as dropped */
+    avr_irq_t *hb = avr_io_getirq(S.avr, AVR_IOCTL_IOPORT_GETIRQ('B'), 1);
+    for (int k = 0; k < 40; k++) {
+        avr_raise_irq(hb, (uint32_t)((k & 1) ^ 1)); /* ends low, as the schedule below expects */
+        run_ms(0.5);
+    }
     command(MSG_START, NULL, 0, 0);
     uint64_t base = S.avr->cycle;
     /* (ms after START) heartbeat PB1 toggles every 50 ms; reset PD2 high 5 ms at 100 ms; fault PD3 at 420 ms */
@@ -712,6 +718,10 @@ static void scenario_lines(void) {
             if (fabs(best) > fabs(worst)) worst = best;
         }
     }
+    uint32_t dropped = 0;
+    for (int i = 0; i < S.n_msgs; i++)
+        if (S.msgs[i].type == MSG_STATUS) dropped = proto_get32(S.msgs[i].body + 12);
+    check(dropped == 0, "%s: 40 changes before START neither reported nor counted as dropped", name);
     check(events == S.n_line && ok == events,
           "%s: %d/%d driven line changes reported, %d within 800 ticks of their time (worst %+.0f)", name, events,
           S.n_line, ok, worst);

@@ -383,7 +383,10 @@ static uint8_t line_lost; /* bit per line channel */
 static uint8_t line_level[5];
 
 static void line_event(uint8_t ch, uint8_t level) {
-    if (!(enabled & (1 << ch))) return;
+    if (!streaming || !(enabled & (1 << ch))) {
+        line_level[ch] = level; /* not reported: the next reported change continues from here */
+        return;
+    }
     uint8_t nh = (uint8_t)((lq_head + 1) % LN_N);
     if (nh == lq_tail) {
         edges_dropped++;
@@ -728,6 +731,8 @@ static void configure(uint16_t seq, uint8_t ch, uint8_t param, uint32_t value) {
 static void start_streaming(bool on) {
     streaming = on;
     cli();
+    lq_tail = lq_head; /* nothing queued before a start, or kept over a stop */
+    line_lost = 0;
     capture_setup();
     rails_restart();
     sei();
