@@ -567,79 +567,96 @@ impl ClockState {
         }
     }
 
+    /// A decided edge: the stall check, then the rising or falling side (kept apart: the
+    /// falling side is small enough to inline, the rising side carries the period figures).
+    #[inline]
     fn commit(&mut self, t: u64, rising: bool) {
         if let Some(last) = self.last_edge
             && (t - last > self.stall_ticks || t - last > MAX_GAP_TICKS)
         {
-            let s = Stall {
-                at_s: last as f64 * self.tick_ns * 1e-9,
-                gap_ns: (t - last) as f64 * self.tick_ns,
-            };
-            if self.stall_events.len() < self.cfg.max_events {
-                self.stall_events.push(s);
-            }
-            if let Some(a) = self.acc.as_mut() {
-                a.stalls += 1;
-            }
-            self.break_continuity();
+            self.stall(last, t);
         }
         self.last_edge = Some(t);
         if rising {
-            let period = self.last_rise.map(|r| (t - r) as i64);
-            let low = match (self.last_rise, self.last_fall) {
-                (Some(r), Some(f)) if f > r => Some((t - f) as i64),
-                (None, Some(f)) => Some((t - f) as i64),
-                _ => None,
-            };
-            // this rise's index on the ideal clock: +1 per period, whole cycles across a gap
-            let idx = match (self.last_rise, self.anchor) {
-                (Some(_), Some((_, k))) => k + 1,
-                (None, Some((at, k))) if self.typ_period > 0.0 => {
-                    k + (t.saturating_sub(at) as f64 / self.typ_period)
-                        .round()
-                        .max(1.0) as u64
-                }
-                (None, Some((_, k))) => k + 1,
-                (_, None) => 0,
-            };
-            self.last_rise = Some(t);
-            self.anchor = Some((t, idx));
-            if self.ensure_acc(period).is_none() {
-                return;
-            }
-            if let Some(l) = low {
-                self.typ_low = ema(self.typ_low, l as f64);
-                self.run.min_l = self.run.min_l.min(l as u64);
-                let a = self.acc.as_mut().expect("block exists");
-                a.low.add(l, t, idx);
-                a.hist_low.record(l);
-            }
-            match period {
-                Some(p) => self.on_period(t, p, idx),
-                None => {
-                    if let Some(a) = self.acc.as_mut() {
-                        a.runs += 1;
-                    }
-                }
-            }
+            self.commit_rise(t);
         } else {
-            if let Some(r) = self.last_rise {
-                let h = (t - r) as i64;
-                self.typ_high = ema(self.typ_high, h as f64);
-                if self.run.n > 0 {
-                    self.run.sum_h += h as u64;
-                    self.run.nh += 1;
-                    self.run.min_h = self.run.min_h.min(h as u64);
-                }
-                let idx = self.anchor.map_or(0, |a| a.1);
-                if self.ensure_acc(None).is_some() {
-                    let a = self.acc.as_mut().expect("block exists");
-                    a.high.add(h, t, idx);
-                    a.hist_high.record(h);
+            self.commit_fall(t);
+        }
+    }
+
+    #[cold]
+    fn stall(&mut self, last: u64, t: u64) {
+        let s = Stall {
+            at_s: last as f64 * self.tick_ns * 1e-9,
+            gap_ns: (t - last) as f64 * self.tick_ns,
+        };
+        if self.stall_events.len() < self.cfg.max_events {
+            self.stall_events.push(s);
+        }
+        if let Some(a) = self.acc.as_mut() {
+            a.stalls += 1;
+        }
+        self.break_continuity();
+    }
+
+    fn commit_rise(&mut self, t: u64) {
+        let period = self.last_rise.map(|r| (t - r) as i64);
+        let low = match (self.last_rise, self.last_fall) {
+            (Some(r), Some(f)) if f > r => Some((t - f) as i64),
+            (None, Some(f)) => Some((t - f) as i64),
+            _ => None,
+        };
+        // this rise's index on the ideal clock: +1 per period, whole cycles across a gap
+        let idx = match (self.last_rise, self.anchor) {
+            (Some(_), Some((_, k))) => k + 1,
+            (None, Some((at, k))) if self.typ_period > 0.0 => {
+                k + (t.saturating_sub(at) as f64 / self.typ_period)
+                    .round()
+                    .max(1.0) as u64
+            }
+            (None, Some((_, k))) => k + 1,
+            (_, None) => 0,
+        };
+        self.last_rise = Some(t);
+        self.anchor = Some((t, idx));
+        if self.ensure_acc(period).is_none() {
+            return;
+        }
+        if let Some(l) = low {
+            self.typ_low = ema(self.typ_low, l as f64);
+            self.run.min_l = self.run.min_l.min(l as u64);
+            let a = self.acc.as_mut().expect("block exists");
+            a.low.add(l, t, idx);
+            a.hist_low.record(l);
+        }
+        match period {
+            Some(p) => self.on_period(t, p, idx),
+            None => {
+                if let Some(a) = self.acc.as_mut() {
+                    a.runs += 1;
                 }
             }
-            self.last_fall = Some(t);
         }
+    }
+
+    #[inline]
+    fn commit_fall(&mut self, t: u64) {
+        if let Some(r) = self.last_rise {
+            let h = (t - r) as i64;
+            self.typ_high = ema(self.typ_high, h as f64);
+            if self.run.n > 0 {
+                self.run.sum_h += h as u64;
+                self.run.nh += 1;
+                self.run.min_h = self.run.min_h.min(h as u64);
+            }
+            let idx = self.anchor.map_or(0, |a| a.1);
+            if self.ensure_acc(None).is_some() {
+                let a = self.acc.as_mut().expect("block exists");
+                a.high.add(h, t, idx);
+                a.hist_high.record(h);
+            }
+        }
+        self.last_fall = Some(t);
     }
 
     /// A period ending with the rise at `t`, whose ideal-cycle index is `idx` (the opening rise
