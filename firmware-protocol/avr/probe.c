@@ -266,7 +266,7 @@ static uint32_t t0_count(void) {
 static volatile uint32_t ls_n, ls_high;
 static uint16_t lfsr = 0xACE1;
 
-/* Timer2 overflows at pseudo-random intervals (1 536 to 2 048 ticks, restarted at a random
+/* Timer2 overflows at pseudo-random intervals (1 544 to 2 048 ticks, restarted at a random
  * count); interruptible so that the Timer0 overflow (lowest priority) never waits a wrap. */
 ISR(TIMER2_OVF_vect, ISR_NOBLOCK) {
     if (ls_n < duty_cap) {
