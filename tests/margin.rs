@@ -286,22 +286,15 @@ fn a_counting_probe_gets_a_verdict_on_mean_phases() {
         caps::COUNT_WINDOWS | caps::LEVEL_SAMPLING,
         "CLK",
     )];
-    let mut wire = [0u8; MAX_WIRE];
     let mut bytes = common::hello_wire(&chans, 16_000_000, 1);
     // 1 MHz over ten reciprocal windows of 0.1 s; 30 000 of 100 000 samples high: duty 0.30
-    for k in 0..10u32 {
-        let c = Message::Count(CountWindow {
-            channel: 0,
-            method: methods::RECIPROCAL,
-            start_tick: u64::from(k) * 1_600_000,
-            gate_ticks: 1_600_000,
-            edges: 100_000,
-            samples: 10_000,
-            samples_high: 3_000,
-        });
-        let n = encode_message(&c, (k + 1) as u16, &mut wire).unwrap();
-        bytes.extend_from_slice(&wire[..n]);
-    }
+    bytes.extend(common::count_windows_wire(
+        10,
+        methods::RECIPROCAL,
+        1_600_000,
+        100_000,
+        (10_000, 3_000),
+    ));
     let mut f = Feed::new(EngineConfig::default());
     f.push(&bytes);
     let s = f.engine.snapshot(Window::Session);

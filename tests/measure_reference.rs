@@ -186,23 +186,14 @@ fn steady_commensurate_clock_gives_q_sqrt_p_one_minus_p() {
 fn count_windows_give_frequency_and_sampled_duty_but_no_worst_cycle() {
     let mut f = Feed::new(EngineConfig::default());
     f.push(&hello((16_000_000, 1))); // 62.5 ns tick
-    let mut wire = [0u8; MAX_WIRE];
-    let mut bytes = Vec::new();
-    for i in 0..10u32 {
-        // 1 ms gates of a 1.234 MHz clock: 1234 edges each; 300 of 1000 samples high
-        let m = Message::Count(CountWindow {
-            channel: 0,
-            method: methods::GATED,
-            start_tick: u64::from(i) * 16_000,
-            gate_ticks: 16_000,
-            edges: 1234,
-            samples: 1000,
-            samples_high: 300,
-        });
-        let n = encode_message(&m, 1 + i as u16, &mut wire).unwrap();
-        bytes.extend_from_slice(&wire[..n]);
-    }
-    f.push(&bytes);
+    // 1 ms gates of a 1.234 MHz clock: 1234 edges each; 300 of 1000 samples high
+    f.push(&common::count_windows_wire(
+        10,
+        methods::GATED,
+        16_000,
+        1234,
+        (1000, 300),
+    ));
     let c = f.engine.snapshot(Window::Session).clocks[0].clone();
     assert!(c.method.starts_with("count windows"));
     let fr = c.frequency_hz.unwrap();
