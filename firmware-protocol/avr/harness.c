@@ -293,10 +293,21 @@ static int find_msg(uint8_t type, int from) {
 }
 
 /* Send a host frame; corrupt flips one byte of the encoded frame (not the delimiter). */
+static uint8_t host_version = PROTO_VERSION; /* a test may send another */
+
+/* Raw bytes to the probe's UART, 16 at a time (the simulated receiver keeps only a few). */
+static void send_raw(const uint8_t *b, int n) {
+    avr_irq_t *in = avr_io_getirq(S.avr, AVR_IOCTL_UART_GETIRQ('0'), UART_IRQ_INPUT);
+    for (int i = 0; i < n; i++) {
+        avr_raise_irq(in, b[i]);
+        if (i % 16 == 15) run_ms(0.3);
+    }
+}
+
 static uint16_t send_cmd(uint8_t type, const uint8_t *body, uint16_t len, int corrupt) {
     uint8_t f[64];
     uint16_t seq = S.host_seq++;
-    f[0] = PROTO_VERSION;
+    f[0] = host_version;
     f[1] = type;
     proto_put16(f + 2, seq);
     memcpy(f + 4, body, len);
@@ -304,8 +315,7 @@ static uint16_t send_cmd(uint8_t type, const uint8_t *body, uint16_t len, int co
     vec_wn = 0;
     proto_cobs_put(f, (uint16_t)(8 + len), vec_put);
     if (corrupt) vec_wire[corrupt] ^= 0x20;
-    avr_irq_t *in = avr_io_getirq(S.avr, AVR_IOCTL_UART_GETIRQ('0'), UART_IRQ_INPUT);
-    for (int i = 0; i < vec_wn; i++) avr_raise_irq(in, vec_wire[i]);
+    send_raw(vec_wire, vec_wn);
     return seq;
 }
 
@@ -417,6 +427,24 @@ static void scenario_commands(void) {
     check(c >= 0 && proto_get16(S.msgs[c].body) == 0xFFFF && S.msgs[c].body[3] == ACK_BAD_FRAME,
           "corrupted host frame rejected: ACK seq 0xFFFF, result 5 (bad frame)");
     check(ack_is(command(0x4F, NULL, 0, 0), ACK_UNKNOWN, 0), "unknown command 0x4F: ACK result 1");
+    check(ack_is(command(MSG_PING, nonce, 3, 0), ACK_BAD_PARAM, 0), "PING with a 3-byte body: result 3");
+    host_version = 2;
+    check(ack_is(command(MSG_PING, nonce, 4, 0), ACK_BAD_VERSION, 0), "a frame of protocol version 2: result 7");
+    host_version = PROTO_VERSION;
+    {
+        /* 100 bytes of line noise without a delimiter, then one: a single bad-frame ACK */
+        uint8_t noise[101];
+        memset(noise, 0x55, 100);
+        noise[100] = 0;
+        int from = S.n_msgs;
+        send_raw(noise, 101);
+        run_ms(5);
+        int acks = 0, bad = 0;
+        for (int i = from; i < S.n_msgs; i++)
+            if (S.msgs[i].type == MSG_ACK) acks++, bad += proto_get16(S.msgs[i].body) == 0xFFFF && S.msgs[i].body[3] == ACK_BAD_FRAME;
+        check(acks == 1 && bad == 1, "100 bytes of noise then a delimiter: one ACK 0xFFFF, result 5 (%d ACKs)", acks);
+        check(ack_is(command(MSG_PING, nonce, 4, 0), ACK_OK, 0xC0FFEE42UL), "the next PING after the noise is answered");
+    }
     check(ack_is(configure(0, 99, 1), ACK_BAD_PARAM, 0), "CONFIGURE unknown parameter: result 3");
     check(ack_is(configure(7, CFG_ENABLE, 1), ACK_BAD_CHANNEL, 0), "CONFIGURE channel 7 (none): result 2");
     check(ack_is(configure(0xFF, CFG_GATE, 5), ACK_BAD_VALUE, 1600000UL),
@@ -425,8 +453,8 @@ static void scenario_commands(void) {
     check(ack_is(command(MSG_START, NULL, 0, 0), ACK_OK, 0), "START acknowledged");
     run_ms(1200);
     int st = find_msg(MSG_STATUS, 0);
-    check(st >= 0 && S.msgs[st].body[25] == 1 && proto_get16(S.msgs[st].body + 22) == 1,
-          "STATUS while streaming: state 1, one rejected host frame counted");
+    check(st >= 0 && S.msgs[st].body[25] == 1 && proto_get16(S.msgs[st].body + 22) == 2,
+          "STATUS while streaming: state 1, the two rejected host frames counted");
     check(ack_is(command(MSG_STOP, NULL, 0, 0), ACK_OK, 0), "STOP acknowledged");
     int n = S.n_msgs;
     run_ms(300);
