@@ -166,6 +166,76 @@ pub(crate) fn pos_time(s: &str) -> Result<f64, String> {
         Err("must be positive".into())
     }
 }
+/// Settings a probe takes with CONFIGURE (PROTOCOL.md §5.8), by the names `--set` uses.
+const SETTINGS: [(&str, u8); 8] = [
+    ("enable", firmware_protocol::params::ENABLE),
+    ("edge-mode", firmware_protocol::params::EDGE_MODE),
+    ("gate", firmware_protocol::params::GATE_TICKS),
+    (
+        "sample-interval",
+        firmware_protocol::params::SAMPLE_INTERVAL_TICKS,
+    ),
+    ("duty-samples", firmware_protocol::params::DUTY_SAMPLES),
+    ("cal-scale", firmware_protocol::params::CAL_SCALE_NUM_UV),
+    ("cal-offset", firmware_protocol::params::CAL_OFFSET_UV),
+    (
+        "status-interval",
+        firmware_protocol::params::STATUS_INTERVAL_MS,
+    ),
+];
+
+/// `CHANNEL:NAME=VALUE` (channel a number or `probe`) into a CONFIGURE command.
+pub(crate) fn probe_setting(s: &str) -> Result<firmware_protocol::Configure, String> {
+    let form = "write CHANNEL:NAME=VALUE, e.g. 0:edge-mode=timestamps or 8:cal-scale=6622417";
+    let (ch, rest) = s
+        .split_once(':')
+        .ok_or(format!("no ':' in {s:?}: {form}"))?;
+    let (name, value) = rest
+        .split_once('=')
+        .ok_or(format!("no '=' in {s:?}: {form}"))?;
+    let channel = match ch.trim() {
+        "probe" => firmware_protocol::params::PROBE,
+        c => c
+            .parse::<u8>()
+            .map_err(|_| format!("channel {c:?} is not a channel id (0…254) or `probe`: {form}"))?,
+    };
+    let names = SETTINGS.map(|(n, _)| n).join(", ");
+    let param = SETTINGS
+        .iter()
+        .find(|(n, _)| *n == name.trim())
+        .map(|(_, p)| *p)
+        .ok_or(format!(
+            "unknown setting {name:?}; the settings are: {names}"
+        ))?;
+    let v = value.trim();
+    let value = match (name.trim(), v) {
+        ("edge-mode", "timestamps") => 0,
+        ("edge-mode", "count") => 1,
+        ("edge-mode", "both") => 2,
+        ("enable", "on") => 1,
+        ("enable", "off") => 0,
+        ("cal-offset", _) => v
+            .parse::<i32>()
+            .map(|x| x as u32)
+            .map_err(|_| format!("{v:?} is not a whole number of µV for cal-offset"))?,
+        (n, _) => v.parse::<u32>().map_err(|_| {
+            let hint = match n {
+                "edge-mode" => " (timestamps, count or both)",
+                "enable" => " (on or off)",
+                "gate" | "sample-interval" => " (in the probe's ticks)",
+                "status-interval" => " (in ms)",
+                _ => "",
+            };
+            format!("{v:?} is not a value for {n}{hint}")
+        })?,
+    };
+    Ok(firmware_protocol::Configure {
+        channel,
+        param,
+        value,
+    })
+}
+
 fn duty(s: &str) -> Result<f64, String> {
     units::parse_duty(s).map_err(|e| e.to_string())
 }
@@ -481,6 +551,11 @@ pub struct ListenArgs {
     /// Give up when the device goes away instead of waiting for it to return.
     #[arg(long)]
     pub no_reconnect: bool,
+    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable): enable,
+    /// edge-mode (timestamps, count, both), gate and sample-interval (probe ticks),
+    /// duty-samples, cal-scale, cal-offset (µV), status-interval (ms); channel `probe` for all.
+    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = probe_setting)]
+    pub settings: Vec<firmware_protocol::Configure>,
 }
 
 /// `slackmeter listen PORT`: handshake, then a running count of what the probe sends.
@@ -489,6 +564,7 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
     let mut cfg = LinkConfig::new(&a.port);
     cfg.baud = a.baud;
     cfg.reconnect = !a.no_reconnect;
+    cfg.configure = a.settings.clone();
     let mut link = Link::start(cfg, 256);
     let started = Instant::now();
     let deadline = a
@@ -617,4 +693,41 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
     );
     link.events.close();
     Ok(crate::cli::EXIT_OK)
+}
+
+#[cfg(test)]
+mod setting_tests {
+    use super::probe_setting;
+    use firmware_protocol::params;
+
+    #[test]
+    fn settings_parse_by_name_and_value() {
+        let c = probe_setting("0:edge-mode=timestamps").unwrap();
+        assert_eq!((c.channel, c.param, c.value), (0, params::EDGE_MODE, 0));
+        let c = probe_setting("probe:gate=800000").unwrap();
+        assert_eq!(
+            (c.channel, c.param, c.value),
+            (params::PROBE, params::GATE_TICKS, 800_000)
+        );
+        let c = probe_setting("9:cal-offset=-1500").unwrap();
+        assert_eq!((c.param, c.value as i32), (params::CAL_OFFSET_UV, -1500));
+        let c = probe_setting("2:enable=off").unwrap();
+        assert_eq!((c.param, c.value), (params::ENABLE, 0));
+    }
+
+    #[test]
+    fn bad_settings_say_what_and_how() {
+        for (s, want) in [
+            ("0edge-mode=1", "no ':'"),
+            ("0:edge-mode", "no '='"),
+            ("x:gate=1", "not a channel id"),
+            ("0:speed=1", "the settings are: enable, edge-mode"),
+            ("0:gate=1ms", "in the probe's ticks"),
+            ("0:edge-mode=fast", "timestamps, count or both"),
+            ("8:cal-offset=1.5", "whole number of µV"),
+        ] {
+            let e = probe_setting(s).unwrap_err();
+            assert!(e.contains(want), "{s}: {e}");
+        }
+    }
 }

@@ -38,6 +38,10 @@ pub struct RecordArgs {
     /// Baud rate of the port.
     #[arg(long, default_value_t = 1_000_000)]
     pub baud: u32,
+    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; see
+    /// `slackmeter listen --help`).
+    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = crate::cli_probe::probe_setting)]
+    pub settings: Vec<firmware_protocol::Configure>,
     /// With --sim: generate as fast as possible, host times following simulated time (for
     /// making files; the content is the same as a paced run).
     #[arg(long)]
@@ -177,6 +181,7 @@ pub fn record_cmd(a: RecordArgs) -> Result<i32> {
     let rec = Recorder::create(&a.output, &h).map_err(miette::Report::new)?;
     let mut cfg = LinkConfig::new(&port);
     cfg.baud = a.baud;
+    cfg.configure = a.settings.clone();
     let mut link = Link::start(cfg, 1024);
     loop {
         if stop.load(Ordering::Relaxed) || deadline.is_some_and(|d| started.elapsed() >= d) {
@@ -204,6 +209,13 @@ pub fn record_cmd(a: RecordArgs) -> Result<i32> {
                 rec.link(
                     host_ns_now(),
                     format!("{{\"event\":\"lost\",\"reason\":{reason:?}}}"),
+                );
+            }
+            Ok(LinkEvent::Refused { what, reason }) => {
+                eprintln!("\nprobe refused {what}: {reason}");
+                rec.link(
+                    host_ns_now(),
+                    format!("{{\"event\":\"refused\",\"what\":{what:?},\"reason\":{reason:?}}}"),
                 );
             }
             Ok(LinkEvent::Failed(e)) => {

@@ -26,6 +26,10 @@ pub struct WatchArgs {
     /// Baud rate of the port.
     #[arg(long, default_value_t = 1_000_000)]
     pub baud: u32,
+    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; see
+    /// `slackmeter listen --help`).
+    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = crate::cli_probe::probe_setting)]
+    pub settings: Vec<firmware_protocol::Configure>,
     /// Show no slack (no design).
     #[arg(long)]
     pub no_design: bool,
@@ -71,6 +75,7 @@ pub fn watch_cmd(a: WatchArgs) -> Result<i32> {
     } else {
         let mut cfg = LinkConfig::new(a.port.clone().expect("checked"));
         cfg.baud = a.baud;
+        cfg.configure = a.settings.clone();
         SourceSpec::Port(cfg)
     };
     run(Options {

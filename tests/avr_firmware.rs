@@ -204,21 +204,27 @@ fn command_session_decodes_cleanly() {
     assert_eq!(s.trust.lost_frames, 0);
 }
 
-/// The whole path: the simulated probe behind simavr's pseudo-terminal bridge, `slackmeter
-/// record` on that device node (handshake, START, streaming), then `slackmeter report --json`.
-#[test]
-fn record_and_report_through_the_simulator_pty() {
+/// The simulated probe behind simavr's pseudo-terminal bridge (a fixed device name, so one at a
+/// time), recorded for 3 s by `slackmeter record` on that device node with `extra` arguments;
+/// returns the recording and record's stderr.
+fn serve_and_record(
+    build: &Path,
+    f_hz: f64,
+    stamps: bool,
+    name: &str,
+    extra: &[&str],
+) -> (PathBuf, String) {
     use std::io::{BufRead, BufReader};
     use std::process::Stdio;
-    let Some(dir) = captures() else { return };
-    let build = dir.parent().expect("build dir");
-    let link = Path::new("/tmp/simavr-uart0"); // fixed by simavr's bridge
+    static ONE_AT_A_TIME: std::sync::Mutex<()> = std::sync::Mutex::new(());
+    let _guard = ONE_AT_A_TIME.lock().unwrap_or_else(|e| e.into_inner());
+    let link = Path::new("/tmp/simavr-uart0");
     let _ = std::fs::remove_file(link);
-    let f_hz = 1_234_567.8;
     let mut sim = Command::new(build.join("harness"))
         .args(["--serve"])
         .arg(build.join("probe.elf"))
         .args(["6", &f_hz.to_string()])
+        .args(stamps.then_some("stamps"))
         .stdout(Stdio::piped())
         .stderr(Stdio::null())
         .spawn()
@@ -228,23 +234,32 @@ fn record_and_report_through_the_simulator_pty() {
         lines.any(|l| l.is_ok_and(|l| l.starts_with("serving on"))),
         "the simulated probe did not start"
     );
-    let rec = Path::new(env!("CARGO_TARGET_TMPDIR")).join("avr-e2e.smrec");
+    let rec = Path::new(env!("CARGO_TARGET_TMPDIR")).join(name);
     let _ = std::fs::remove_file(&rec);
-    let bin = env!("CARGO_BIN_EXE_slackmeter");
-    let out = Command::new(bin)
+    let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
         .arg("record")
         .arg(link)
         .arg("-o")
         .arg(&rec)
         .args(["--duration", "3s"])
+        .args(extra)
         .output()
         .expect("record");
     let _ = sim.wait();
-    assert!(
-        out.status.success(),
-        "record failed: {}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let err = String::from_utf8_lossy(&out.stderr).to_string();
+    assert!(out.status.success(), "record failed: {err}");
+    (rec, err)
+}
+
+/// The whole path: the simulated probe behind simavr's pseudo-terminal bridge, `slackmeter
+/// record` on that device node (handshake, START, streaming), then `slackmeter report --json`.
+#[test]
+fn record_and_report_through_the_simulator_pty() {
+    let Some(dir) = captures() else { return };
+    let build = dir.parent().expect("build dir");
+    let f_hz = 1_234_567.8;
+    let (rec, _) = serve_and_record(build, f_hz, false, "avr-e2e.smrec", &[]);
+    let bin = env!("CARGO_BIN_EXE_slackmeter");
     let rep = Command::new(bin)
         .arg("report")
         .arg(&rec)
@@ -287,4 +302,42 @@ fn record_and_report_through_the_simulator_pty() {
         let mv = r["mean_mv"].as_f64().expect("mean");
         assert!((mv - 5000.0).abs() < 14.0, "{}: {mv}", r["name"]);
     }
+}
+
+/// `record --set` switches the real probe to per-edge timestamps through the handshake, and a
+/// setting the probe refuses is reported, not hidden: the report then has per-cycle figures.
+#[test]
+fn settings_reach_the_probe_through_the_pty() {
+    let Some(dir) = captures() else { return };
+    let build = dir.parent().expect("build dir");
+    let f_hz = 4567.8;
+    let (rec, err) = serve_and_record(
+        build,
+        f_hz,
+        true,
+        "avr-e2e-stamps.smrec",
+        &["--set", "0:edge-mode=timestamps", "--set", "probe:gate=5"],
+    );
+    assert!(
+        err.contains("probe refused") && err.contains("param 3 = 5"),
+        "{err}"
+    );
+    let rep = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .arg("report")
+        .arg(&rec)
+        .arg("--json")
+        .output()
+        .expect("report");
+    let j: serde_json::Value = serde_json::from_slice(&rep.stdout).expect("report JSON");
+    let c = &j["clock"];
+    let f = c["frequency_hz"].as_f64().expect("frequency");
+    let u = c["frequency_uncertainty_hz"].as_f64().expect("uncertainty");
+    println!(
+        "stamped through the pty: {f:.4} Hz ± {u:.4}; high min {}",
+        c["high_min_ns"]
+    );
+    assert!((f - f_hz).abs() <= u, "{f} vs {f_hz} ± {u}");
+    assert!(c["high_min_ns"].as_f64().is_some(), "{c}");
+    assert!((c["duty"].as_f64().expect("duty") - 0.5).abs() < 0.01);
+    assert!(c["edges"].as_u64().expect("edges") > 10_000);
 }

@@ -1,9 +1,11 @@
 /* Simulator harness for the reference probe firmware (libsimavr).
  *
  * Usage: harness FIRMWARE.elf VECTORS.vec OUTDIR
- *        harness --serve FIRMWARE.elf SECONDS FREQ_HZ
+ *        harness --serve FIRMWARE.elf SECONDS FREQ_HZ [stamps]
  * The second form runs the probe behind simavr's pseudo-terminal bridge (/tmp/simavr-uart0) with a
- * FREQ_HZ clock at 50 % duty for SECONDS of wall time, for host programs to connect to.
+ * FREQ_HZ clock at 50 % duty for SECONDS of wall time, for host programs to connect to; the
+ * clock is wired for count windows, or with `stamps` for per-edge timestamps (simavr wires one
+ * capture path at a time, see wire_reciprocal).
  * Checks the wire helpers against the protocol's test vectors, then runs one fresh simulated
  * ATmega328P per scenario: drives its pins from cycle timers with known signals, sends host
  * commands over the UART, writes the probe's byte stream to OUTDIR/<scenario>.bin and what was
@@ -758,10 +760,10 @@ static void scenario_lines(void) {
 }
 
 /* The probe behind a pseudo-terminal for a host program, paced to about real time. */
-static int serve(const char *elf, double seconds, double f_hz) {
+static int serve(const char *elf, double seconds, double f_hz, bool stamps) {
     static uart_pty_t pty;
     sim_open(elf, "/tmp", "simavr-serve");
-    wire_reciprocal(); /* the probe starts in count-window mode */
+    if (!stamps) wire_reciprocal(); /* the probe starts in count-window mode */
     uart_pty_init(S.avr, &pty);
     uart_pty_connect(&pty, '0');
     uint32_t flags = 0; /* the bridge sets its own UART flags: clear the slow ones again */
@@ -790,7 +792,8 @@ static int serve(const char *elf, double seconds, double f_hz) {
 }
 
 int main(int argc, char **argv) {
-    if (argc == 5 && !strcmp(argv[1], "--serve")) return serve(argv[2], atof(argv[3]), atof(argv[4]));
+    if ((argc == 5 || argc == 6) && !strcmp(argv[1], "--serve"))
+        return serve(argv[2], atof(argv[3]), atof(argv[4]), argc == 6 && !strcmp(argv[5], "stamps"));
     if (argc != 4) {
         fprintf(stderr, "usage: %s FIRMWARE.elf VECTORS.vec OUTDIR\n", argv[0]);
         return 2;

@@ -361,6 +361,10 @@ async fn run_async(opts: Options) -> miette::Result<()> {
                     }
                     app.dirty = true;
                 }
+                Input::Link(LinkEvent::Refused { what, reason }) => {
+                    app.event(feed.engine.snapshot_time_s(), format!("probe refused {what}: {reason}"));
+                    app.dirty = true;
+                }
                 Input::Link(LinkEvent::Failed(e)) => break Err(miette::Report::new(e)),
                 Input::Link(_) => {}
                 Input::Mark(at, text) => app.event(at, format!("mark: {text}")),
