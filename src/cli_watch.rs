@@ -27,8 +27,8 @@ pub struct WatchArgs {
     #[arg(long, default_value_t = 1_000_000)]
     pub baud: u32,
     /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; see
-    /// `slackmeter listen --help`).
-    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = crate::cli_probe::probe_setting)]
+    /// `slackmeter listen --help`; not with --sim, whose settings are its own flags).
+    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = crate::cli_probe::probe_setting, conflicts_with = "sim")]
     pub settings: Vec<firmware_protocol::Configure>,
     /// Show no slack (no design).
     #[arg(long)]
