@@ -251,6 +251,31 @@ fn serve_and_record(
     (rec, err)
 }
 
+/// `slackmeter report FILE --json` with `extra` arguments (paths relative to the crate).
+fn report_json(rec: &Path, extra: &[&str]) -> serde_json::Value {
+    let rep = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .arg("report")
+        .arg(rec)
+        .arg("--json")
+        .args(extra)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("report");
+    serde_json::from_slice(&rep.stdout).expect("report JSON")
+}
+
+/// The report's first clock frequency lies within its stated uncertainty of `f_hz`.
+fn assert_frequency(j: &serde_json::Value, f_hz: f64, what: &str) {
+    let c = &j["clock"];
+    let f = c["frequency_hz"].as_f64().expect("frequency");
+    let u = c["frequency_uncertainty_hz"].as_f64().expect("uncertainty");
+    println!(
+        "{what}: {f:.4} Hz ± {u:.4} (driven {f_hz}); duty {}",
+        c["duty"]
+    );
+    assert!((f - f_hz).abs() <= u, "{what}: {f} vs {f_hz} ± {u}");
+}
+
 /// The whole path: the simulated probe behind simavr's pseudo-terminal bridge, `slackmeter
 /// record` on that device node (handshake, START, streaming), then `slackmeter report --json`.
 #[test]
@@ -259,33 +284,12 @@ fn record_and_report_through_the_simulator_pty() {
     let build = dir.parent().expect("build dir");
     let f_hz = 1_234_567.8;
     let (rec, _) = serve_and_record(build, f_hz, false, "avr-e2e.smrec", &[]);
-    let bin = env!("CARGO_BIN_EXE_slackmeter");
-    let rep = Command::new(bin)
-        .arg("report")
-        .arg(&rec)
-        .arg("--json")
-        .output()
-        .expect("report");
-    let j: serde_json::Value = serde_json::from_slice(&rep.stdout).expect("report JSON");
-    let c = &j["clock"];
-    let f = c["frequency_hz"].as_f64().expect("frequency");
-    let u = c["frequency_uncertainty_hz"].as_f64().expect("uncertainty");
-    println!(
-        "through the pty: {f:.3} Hz ± {u:.3} (driven {f_hz}); duty {}",
-        c["duty"]
-    );
-    assert!((f - f_hz).abs() <= u, "{f} vs {f_hz} ± {u}");
+    let j = report_json(&rec, &[]);
+    assert_frequency(&j, f_hz, "through the pty");
     assert_eq!(j["crc_errors"], 0);
     assert_eq!(j["lost_frames"], 0);
     // with a design: a verdict on the mean phases, saying that it is one
-    let rep = Command::new(bin)
-        .arg("report")
-        .arg(&rec)
-        .args(["--json", "--design", "designs/larkspur-8.toml"])
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .expect("report with a design");
-    let jd: serde_json::Value = serde_json::from_slice(&rep.stdout).expect("report JSON");
+    let jd = report_json(&rec, &["--design", "designs/larkspur-8.toml"]);
     let m = &jd["margin"];
     assert!(m["verdict"].is_string(), "{m}");
     assert!(
@@ -322,21 +326,9 @@ fn settings_reach_the_probe_through_the_pty() {
         err.contains("probe refused") && err.contains("param 3 = 5"),
         "{err}"
     );
-    let rep = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
-        .arg("report")
-        .arg(&rec)
-        .arg("--json")
-        .output()
-        .expect("report");
-    let j: serde_json::Value = serde_json::from_slice(&rep.stdout).expect("report JSON");
+    let j = report_json(&rec, &[]);
+    assert_frequency(&j, f_hz, "stamped through the pty");
     let c = &j["clock"];
-    let f = c["frequency_hz"].as_f64().expect("frequency");
-    let u = c["frequency_uncertainty_hz"].as_f64().expect("uncertainty");
-    println!(
-        "stamped through the pty: {f:.4} Hz ± {u:.4}; high min {}",
-        c["high_min_ns"]
-    );
-    assert!((f - f_hz).abs() <= u, "{f} vs {f_hz} ± {u}");
     assert!(c["high_min_ns"].as_f64().is_some(), "{c}");
     assert!((c["duty"].as_f64().expect("duty") - 0.5).abs() < 0.01);
     assert!(c["edges"].as_u64().expect("edges") > 10_000);
