@@ -166,6 +166,28 @@ pub(crate) fn pos_time(s: &str) -> Result<f64, String> {
         Err("must be positive".into())
     }
 }
+/// The virtual machine's failure rule: the design's typical budget over 3–6 V at `temp_c`.
+pub fn typical_fault_limit(design: &Design, lib: &Library, temp_c: f64) -> FaultLimit {
+    let mut op = OperatingPoint::of(design);
+    op.corner = Corner::Typ;
+    op.temp_c = temp_c;
+    let by_vcc = budget::sweep_vcc(design, lib, &op, 3.0, 6.0, 151)
+        .into_iter()
+        .map(|p| {
+            (
+                p.vcc_v,
+                p.low_required_ns,
+                p.high_required_ns,
+                p.period_required_ns,
+            )
+        })
+        .collect();
+    FaultLimit {
+        by_vcc,
+        source: format!("typical budget of {} at {temp_c} °C", design.name),
+    }
+}
+
 /// Settings a probe takes with CONFIGURE (PROTOCOL.md §5.8), by the names `--set` uses.
 const SETTINGS: [(&str, u8); 8] = [
     ("enable", firmware_protocol::params::ENABLE),
@@ -386,20 +408,6 @@ pub fn build_model(a: &SimModelArgs) -> Result<(BenchModel, Vec<String>)> {
             Some(p) => Design::load(p, &lib).map_err(miette::Report::new)?,
             None => Design::demo(&lib),
         };
-        let mut op = OperatingPoint::of(&design);
-        op.corner = Corner::Typ;
-        op.temp_c = a.temp;
-        let rows = budget::sweep_vcc(&design, &lib, &op, 3.0, 6.0, 151)
-            .into_iter()
-            .map(|p| {
-                (
-                    p.vcc_v,
-                    p.low_required_ns,
-                    p.high_required_ns,
-                    p.period_required_ns,
-                )
-            })
-            .collect();
         notes.push(format!(
             "sim-design {} ({}, {} bytes, crc32 {:08x})",
             design.name,
@@ -407,10 +415,7 @@ pub fn build_model(a: &SimModelArgs) -> Result<(BenchModel, Vec<String>)> {
             design.source.text.len(),
             firmware_protocol::crc32(design.source.text.as_bytes())
         ));
-        m.fault = Some(FaultLimit {
-            by_vcc: rows,
-            source: format!("typical budget of {} at {} °C", design.name, a.temp),
-        });
+        m.fault = Some(typical_fault_limit(&design, &lib, a.temp));
     }
     m.validate().map_err(|e| miette!("{e}"))?;
     let mut shown = m.clone();

@@ -5,11 +5,12 @@ mod common;
 
 use firmware_protocol::*;
 use slackmeter::budget::{Design, Library, OperatingPoint, solve};
+use slackmeter::cli_probe::typical_fault_limit;
 use slackmeter::diag::Source;
 use slackmeter::margin::{MarginConfig, Verdict, evaluate};
 use slackmeter::measure::{EngineConfig, Feed, Window};
 use slackmeter::sim::model::{Bench, Slice};
-use slackmeter::sim::{BenchModel, FaultLimit, RailModel, SimProbe};
+use slackmeter::sim::{BenchModel, RailModel, SimProbe};
 
 /// The worked example of DESIGN.md §4 as a design: L = 500 ns, H = 125 ns, P = 0.
 const EXAMPLE: &str = r#"
@@ -154,32 +155,12 @@ fn a_lower_rail_costs_exactly_what_the_derating_predicts() {
     );
 }
 
-/// The typical budget of the demo design against supply, as the sim's fault rule.
-fn typical_limit(lib: &Library, d: &Design) -> FaultLimit {
-    let mut op = OperatingPoint::of(d);
-    op.corner = slackmeter::budget::Corner::Typ;
-    let rows = slackmeter::budget::sweep_vcc(d, lib, &op, 3.0, 6.0, 151)
-        .into_iter()
-        .map(|p| {
-            (
-                p.vcc_v,
-                p.low_required_ns,
-                p.high_required_ns,
-                p.period_required_ns,
-            )
-        })
-        .collect();
-    FaultLimit {
-        by_vcc: rows,
-        source: "typ".into(),
-    }
-}
-
 #[test]
 fn measured_failure_onset_matches_the_true_limit() {
     let lib = Library::builtin();
     let d = Design::demo(&lib);
-    let limit = typical_limit(&lib, &d);
+    // the sim's fault rule: the typical budget at the design's own temperature
+    let limit = typical_fault_limit(&d, &lib, OperatingPoint::of(&d).temp_c);
     let mut found = 0;
     for (i, v) in [4.5, 4.6, 4.7, 4.8, 4.9, 5.0, 5.1, 5.2, 5.3, 5.4]
         .into_iter()
