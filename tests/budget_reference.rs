@@ -292,48 +292,7 @@ fn clock_plan_of_the_worked_example_through_the_solver() {
     // Invented worked example, ../shared/DESIGN.md §4: L = 500 ns, H = 125 ns → d* = 0.20,
     // T_min = 625 ns (1.6 MHz); at 50 % duty T_min = 1000 ns (1.0 MHz).
     let lib = Library::builtin();
-    let d = design(
-        &lib,
-        r#"
-[design]
-name = "worked example"
-[[part]]
-ref = "U1"
-type = "74HC574"
-[[launch]]
-edge = "fall"
-part = "U1"
-arc = "CLK->Q"
-to = "a"
-[[launch]]
-edge = "rise"
-part = "U1"
-arc = "CLK->Q"
-to = "b"
-[[arc]]
-from = "a"
-to = "a2"
-delay = { max = "0.5 us" }
-[[arc]]
-from = "b"
-to = "b2"
-delay = { max = "125 ns" }
-[[capture]]
-name = "low"
-signal = "a2"
-edge = "rise"
-setup = "0 ns"
-[[capture]]
-name = "high"
-signal = "b2"
-edge = "fall"
-setup = "0 ns"
-[[override]]
-part = "U1"
-arc = "CLK->Q"
-max = "0 ns"
-"#,
-    );
+    let d = design(&lib, include_str!("designs/worked-example.toml"));
     let b = solve(
         &d,
         &lib,

@@ -13,43 +13,7 @@ use slackmeter::sim::model::{Bench, Slice};
 use slackmeter::sim::{BenchModel, RailModel, SimProbe};
 
 /// The worked example of DESIGN.md §4 as a design: L = 500 ns, H = 125 ns, P = 0.
-const EXAMPLE: &str = r#"
-[design]
-name = "worked example"
-[[part]]
-ref = "U1"
-type = "74HC574"
-[[launch]]
-edge = "fall"
-part = "U1"
-arc = "CLK->Q"
-to = "a"
-[[launch]]
-edge = "rise"
-part = "U1"
-arc = "CLK->Q"
-to = "b"
-[[arc]]
-from = "a"
-to = "a2"
-delay = { max = "500 ns", typ = "400 ns" }
-[[arc]]
-from = "b"
-to = "b2"
-delay = { max = "125 ns", typ = "100 ns" }
-[[capture]]
-signal = "a2"
-edge = "rise"
-setup = "0 ns"
-[[capture]]
-signal = "b2"
-edge = "fall"
-setup = "0 ns"
-[[override]]
-part = "U1"
-arc = "CLK->Q"
-max = "0 ns"
-"#;
+const EXAMPLE: &str = include_str!("designs/worked-example.toml");
 
 fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snapshot {
     let chans = [Channel::edge(0, caps::TIMESTAMPS, "CLK")];
