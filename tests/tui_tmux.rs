@@ -42,10 +42,11 @@ impl Drop for Cleanup {
     }
 }
 
-fn wait_for(session: &str, what: &str, secs: u64) -> String {
+/// The screen of pane `w` on tmux server `sock` once it shows `what` (fails after `secs`).
+fn wait_for(sock: &str, what: &str, secs: u64) -> String {
     let until = Instant::now() + Duration::from_secs(secs);
     loop {
-        let screen = tmux(&["capture-pane", "-p", "-t", session]);
+        let screen = tmux(&["-L", sock, "capture-pane", "-p", "-t", "w"]);
         if screen.contains(what) {
             return screen;
         }
@@ -95,20 +96,7 @@ fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
         "34",
         &cmd,
     ]);
-    let cap = |what: &str, secs| {
-        let until = Instant::now() + Duration::from_secs(secs);
-        loop {
-            let screen = t(&["capture-pane", "-p", "-t", "w"]);
-            if screen.contains(what) {
-                return screen;
-            }
-            assert!(
-                Instant::now() < until,
-                "screen never showed {what:?}:\n{screen}"
-            );
-            std::thread::sleep(Duration::from_millis(100));
-        }
-    };
+    let cap = |what: &str, secs| wait_for(&session, what, secs);
     // the measured frequency of the scenario and the slack area
     let screen = cap("2.000 MHz", 20);
     assert!(screen.contains("STREAMING"));
