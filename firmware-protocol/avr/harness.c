@@ -76,9 +76,8 @@ typedef struct {
     double f_hz, duty, jitter_cycles;
     double t_ideal; /* ideal time of the next edge, cycles */
     int level;
-    uint64_t *edges; /* driven edge cycles, rising edges at even indices when first_rise */
+    uint64_t *edges; /* driven edge cycles; the clock starts low, so even indices rise */
     int n_edges;
-    int first_level;
     uint64_t rng;
     avr_irq_t *pin_icp, *pin_t0, *icp_irq;
     /* line stimulus: up to 64 scheduled toggles */
@@ -159,7 +158,6 @@ static void clock_start(double f_hz, double duty, double jitter_ns) {
     S.duty = duty;
     S.jitter_cycles = jitter_ns * 1e-9 * F_CPU;
     S.level = 0;
-    S.first_level = 1;
     S.n_edges = 0;
     S.t_ideal = (double)S.avr->cycle + 1000.0;
     avr_cycle_timer_register(S.avr, 1000, clock_edge, NULL);
