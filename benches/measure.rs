@@ -22,6 +22,9 @@ fn frames(seconds: f64) -> (Vec<u8>, u64) {
     (std::mem::take(p.output()), edges)
 }
 
+/// Edges in one full EDGES frame of single-byte deltas (a 1024-byte frame).
+const EDGES_PER_FRAME: usize = 1000;
+
 /// Decoded edge ticks of the same stream (what the engine's clock sees).
 fn ticks(bytes: &[u8]) -> Vec<u64> {
     let mut out = Vec::new();
@@ -39,11 +42,10 @@ fn clock_stats_from_decoded_edges(bencher: divan::Bencher) {
     let (bytes, _) = frames(2.0);
     let t = ticks(&bytes);
     bencher.counter(ItemsCount::new(t.len())).bench_local(|| {
+        // in batches of a full EDGES frame's size, as the engine hands them over
         let mut s = ClockState::new(ClockConfig::default(), 8.0);
-        let mut rising = true;
-        for &x in &t {
-            s.edge(x, rising);
-            rising = !rising;
+        for b in t.chunks(EDGES_PER_FRAME) {
+            s.edges(b, true);
         }
         s.acc.as_ref().map(|a| a.period.n)
     });
@@ -78,18 +80,47 @@ fn peer_file() -> usize {
     t.len()
 }
 
+/// Edges per read in the peer comparison (64 KiB).
+const READ_EDGES: usize = 8192;
+
+/// Fill `buf` from `f` as far as the file goes; returns the bytes read.
+fn read_full(f: &mut std::fs::File, buf: &mut [u8]) -> usize {
+    use std::io::Read;
+    let mut got = 0;
+    while got < buf.len() {
+        match f.read(&mut buf[got..]) {
+            Ok(0) => break,
+            Ok(k) => got += k,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => panic!("reading the peer file: {e}"),
+        }
+    }
+    got
+}
+
 /// End to end like the NumPy peer (benches/peer_numpy.py): read the file, compute the clock
 /// statistics, take a snapshot.
 #[divan::bench]
 fn peer_read_file_and_clock_stats(bencher: divan::Bencher) {
     let n = peer_file();
     bencher.counter(ItemsCount::new(n)).bench_local(|| {
-        let raw = std::fs::read(PEER_FILE).expect("peer file");
+        // read in 64 KiB pieces into one reused buffer (no 128 MB allocation to fault in)
+        let mut f = std::fs::File::open(PEER_FILE).expect("peer file");
         let mut s = ClockState::new(ClockConfig::default(), 8.0);
+        let mut raw = vec![0u8; 8 * READ_EDGES];
+        let mut ticks = vec![0u64; READ_EDGES];
         let mut rising = true;
-        for c in raw.chunks_exact(8) {
-            s.edge(u64::from_le_bytes(c.try_into().expect("8 bytes")), rising);
-            rising = !rising;
+        loop {
+            let got = read_full(&mut f, &mut raw);
+            let n = got / 8;
+            for (t, c) in ticks.iter_mut().zip(raw[..8 * n].chunks_exact(8)) {
+                *t = u64::from_le_bytes(c.try_into().expect("8 bytes"));
+            }
+            s.edges(&ticks[..n], rising);
+            rising ^= n % 2 == 1;
+            if got < raw.len() {
+                break;
+            }
         }
         slackmeter::measure::clock::snapshot(0, "CLK", s.acc.as_ref(), &s, 0, false)
             .period_jitter_rms_ns

@@ -203,6 +203,8 @@ pub struct Engine {
     seen_data: bool,
     /// The onset a stopped heartbeat would mean (captured at each heartbeat edge).
     heartbeat_onset: Option<FaultOnset>,
+    /// Decoded ticks of the EDGES batch at hand (reused: no allocation per batch).
+    tick_buf: Vec<u64>,
 }
 
 /// A figure set for one moment: every clock, rail and line, with the trust counters.
@@ -279,6 +281,7 @@ impl Engine {
             tick_offset: 0,
             seen_data: false,
             heartbeat_onset: None,
+            tick_buf: Vec::new(),
         }
     }
 
@@ -469,13 +472,18 @@ impl Engine {
                 if e.flags & (FLAG_LOST_BEFORE | FLAG_BURST_START) != 0 {
                     c.state.break_continuity();
                 }
-                let mut rising = e.first_rising;
-                let mut last = e.first_tick.saturating_add(off);
-                for t in e.ticks().map(|t| t.saturating_add(off)) {
-                    c.state.edge(t, rising);
-                    rising = !rising;
-                    last = t;
+                let buf = &mut self.tick_buf;
+                buf.resize(usize::from(e.count), 0);
+                let n = e.ticks_into(buf);
+                buf.truncate(n);
+                if off != 0 {
+                    buf.iter_mut().for_each(|t| *t = t.saturating_add(off));
                 }
+                c.state.edges(buf, e.first_rising);
+                let last = buf
+                    .last()
+                    .copied()
+                    .unwrap_or(e.first_tick.saturating_add(off));
                 self.advance(last);
             }
             Message::Lines(e) => {

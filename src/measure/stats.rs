@@ -3,6 +3,67 @@
 
 use hdrhistogram::Histogram;
 
+/// Exact sums of a run of integer samples about its own minimum: the deviations of a run are
+/// small even when the values are not, so the common case sums in 32-bit lanes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct RunSums {
+    /// Samples.
+    pub n: u64,
+    /// Smallest sample (i64::MAX when empty).
+    pub lo: i64,
+    /// Largest sample (i64::MIN when empty).
+    pub hi: i64,
+    /// Σ(x − lo).
+    pub sum_e: i128,
+    /// Σ(x − lo)².
+    pub sum_ee: i128,
+}
+
+impl RunSums {
+    /// The sums of `x`.
+    #[inline(always)]
+    pub fn of(x: &[i64]) -> RunSums {
+        let (mut lo, mut hi) = (i64::MAX, i64::MIN);
+        for &v in x {
+            lo = lo.min(v);
+            hi = hi.max(v);
+        }
+        let mut r = RunSums {
+            n: x.len() as u64,
+            lo,
+            hi,
+            sum_e: 0,
+            sum_ee: 0,
+        };
+        if x.is_empty() {
+            return r;
+        }
+        // deviations below 2^16 square below 2^32: up to 2^31 of them sum exactly in u64
+        let range = i128::from(hi) - i128::from(lo);
+        if range < 1 << 16 && x.len() < 1 << 31 {
+            let (mut s, mut ss) = (0u64, 0u64);
+            for &v in x {
+                let e = u64::from(v.wrapping_sub(lo) as u32);
+                s += e;
+                ss += e * e;
+            }
+            (r.sum_e, r.sum_ee) = (i128::from(s), i128::from(ss));
+        } else {
+            for &v in x {
+                let e = i128::from(v) - i128::from(lo);
+                r.sum_e += e;
+                r.sum_ee = r.sum_ee.saturating_add(e.saturating_mul(e));
+            }
+        }
+        r
+    }
+
+    /// Σx.
+    pub fn sum(&self) -> i128 {
+        self.sum_e + i128::from(self.n) * i128::from(self.lo)
+    }
+}
+
 /// Exact running statistics of integer samples (ticks): sums are kept as integers relative to a
 /// fixed origin, so any chunking of the input gives the same result and blocks merge exactly.
 #[derive(Clone, Debug, PartialEq)]
@@ -53,6 +114,36 @@ impl IntStats {
             self.max = x;
             self.max_at = (tick, index);
         }
+    }
+
+    /// Add `x[i]`, which ended at `ticks[i]` and is the `first_index + i`-th of its kind, for
+    /// every i: exactly what [`IntStats::add`] in turn gives, in a few passes the compiler can
+    /// vectorise. Returns the run's [`RunSums`] (for callers' own tallies).
+    #[inline(always)]
+    pub fn add_run(&mut self, x: &[i64], ticks: &[u64], first_index: u64) -> RunSums {
+        debug_assert!(ticks.len() >= x.len());
+        let r = RunSums::of(x);
+        if r.n == 0 {
+            return r;
+        }
+        // Σ(x − o) and Σ(x − o)² from the sums about the run's minimum: c = lo − o
+        let c = i128::from(r.lo) - i128::from(self.origin);
+        let n = i128::from(r.n);
+        self.sum += r.sum_e + n * c;
+        self.sumsq += r.sum_ee + 2 * c * r.sum_e + n * c * c;
+        self.n += r.n;
+        // strict comparisons: the earliest extreme wins, as with add()
+        if r.lo < self.min {
+            let i = x.iter().position(|&v| v == r.lo).unwrap_or(0);
+            self.min = r.lo;
+            self.min_at = (ticks[i], first_index + i as u64);
+        }
+        if r.hi > self.max {
+            let i = x.iter().position(|&v| v == r.hi).unwrap_or(0);
+            self.max = r.hi;
+            self.max_at = (ticks[i], first_index + i as u64);
+        }
+        r
     }
 
     /// Fold another block (same origin) into this one; earliest extreme wins ties.
@@ -154,6 +245,53 @@ impl DevHistogram {
             let _ = self.above.record((d - DENSE_HALF) as u64);
         } else {
             let _ = self.below.record((-d - DENSE_HALF) as u64);
+        }
+    }
+
+    /// Record every sample of `x`, whose run sums are `r`: the same as [`DevHistogram::record`]
+    /// in turn. A narrow run is counted in a small local table with
+    /// four interleaved lanes first, so that repeats of one value do not queue on one counter.
+    #[inline(always)]
+    pub fn record_run(&mut self, x: &[i64], r: &RunSums) {
+        const W: usize = 64;
+        let (lo, hi) = (r.lo, r.hi);
+        if x.is_empty() {
+            return;
+        }
+        let (Some(dlo), Some(dhi)) = (
+            lo.checked_sub(self.reference),
+            hi.checked_sub(self.reference),
+        ) else {
+            x.iter().for_each(|&v| self.record(v));
+            return;
+        };
+        if dlo < -DENSE_HALF || dhi > DENSE_HALF || hi - lo >= W as i64 {
+            x.iter().for_each(|&v| self.record(v));
+            return;
+        }
+        let base = (dlo + DENSE_HALF) as usize;
+        if hi - lo <= 1 {
+            // one or two values: the sum about the minimum counts the upper one
+            let upper = r.sum_e as u64;
+            self.dense[base] += r.n - upper;
+            if hi > lo {
+                self.dense[base + 1] += upper;
+            }
+            return;
+        }
+        let mut lanes = [[0u32; W]; 4];
+        let mut quads = x.chunks_exact(4);
+        for q in &mut quads {
+            for (lane, &v) in lanes.iter_mut().zip(q) {
+                lane[(v - lo) as usize & (W - 1)] += 1;
+            }
+        }
+        for &v in quads.remainder() {
+            lanes[0][(v - lo) as usize & (W - 1)] += 1;
+        }
+        let width = (hi - lo) as usize + 1;
+        for (b, slot) in self.dense[base..base + width].iter_mut().enumerate() {
+            *slot += u64::from(lanes[0][b] + lanes[1][b] + lanes[2][b] + lanes[3][b]);
         }
     }
 

@@ -8,6 +8,8 @@
 //! Instrum. Meas. 45(2), 1996): q²/12 per stamp and q²/6 per period at random phase; a steady
 //! clock commensurate with the tick gives two period readings, σ = q·√(p(1−p)).
 
+mod bulk;
+
 use serde::Serialize;
 
 use super::allan::AllanStream;
@@ -175,6 +177,11 @@ struct RunAcc {
     min_l: u64,
 }
 
+/// Periods between refreshes of the glitch and stall thresholds: the typical period, high and
+/// low time are the means over the previous such segment (the first refresh comes with the
+/// first period).
+pub const REFRESH: u32 = 256;
+
 /// Periods per batch: summing 256 contiguous periods lifts their random walk far above the
 /// quantisation of the two end stamps, so period noise is measurable even below one tick.
 pub const BATCH: u32 = 256;
@@ -304,17 +311,19 @@ pub struct ClockState {
     /// Tick and ideal-cycle index of the last committed rise (kept across gaps).
     anchor: Option<(u64, u64)>,
     fit_origin: Option<(u64, u64)>,
-    ring: Vec<u64>,
-    ring_next: usize,
-    ring_len: usize,
+    /// The run's latest rises (for the N-cycle error).
+    rises: bulk::RiseHistory,
     record: Vec<u64>,
     batch_sum: i64,
     batch_n: u32,
     typ_high: f64,
     typ_low: f64,
     typ_period: f64,
+    /// Sums and counts of periods, highs and lows since the last refresh (their means become
+    /// the typical values at the next refresh).
+    seg: [(u64, u64); 3],
     /// Glitch thresholds for high and low pulses and the stall gap, in ticks (refreshed from
-    /// the typical values every 64 cycles, so the per-edge path compares integers).
+    /// the typical values every [`REFRESH`] periods, so the per-edge path compares integers).
     glitch_high_ticks: u64,
     glitch_low_ticks: u64,
     stall_ticks: u64,
@@ -333,13 +342,15 @@ pub struct ClockState {
     pub glitch_events: Vec<Glitch>,
     /// Recent stalls.
     pub stall_events: Vec<Stall>,
+    scratch: Box<bulk::Scratch>,
 }
 
 impl ClockState {
     /// A channel with a tick of `tick_ns`.
     pub fn new(cfg: ClockConfig, tick_ns: f64) -> ClockState {
         ClockState {
-            ring: vec![0; (cfg.n_cycles[0].max(cfg.n_cycles[1]) as usize + 1).next_power_of_two()],
+            rises: bulk::RiseHistory::new(cfg.n_cycles[0].max(cfg.n_cycles[1]) as usize),
+            scratch: bulk::Scratch::new(),
             record: Vec::with_capacity(cfg.tie_record),
             cfg,
             tick_ns,
@@ -352,13 +363,12 @@ impl ClockState {
             prev_period: None,
             anchor: None,
             fit_origin: None,
-            ring_next: 0,
-            ring_len: 0,
             batch_sum: 0,
             batch_n: 0,
             typ_high: 0.0,
             typ_low: 0.0,
             typ_period: 0.0,
+            seg: [(0, 0); 3],
             glitch_high_ticks: 0,
             glitch_low_ticks: 0,
             stall_ticks: u64::MAX,
@@ -447,7 +457,7 @@ impl ClockState {
         self.last_fall = None;
         self.last_edge = None;
         self.prev_period = None;
-        self.ring_len = 0;
+        self.rises.clear();
         self.record.clear();
         self.batch_sum = 0;
         self.batch_n = 0;
@@ -470,7 +480,16 @@ impl ClockState {
         self.acc.as_mut()
     }
 
+    /// The typical period, high and low become the means of the segment since the last
+    /// refresh (a kind without samples keeps its value), then the thresholds follow them.
     fn refresh_thresholds(&mut self) {
+        let typ = [&mut self.typ_period, &mut self.typ_high, &mut self.typ_low];
+        for ((sum, n), typ) in self.seg.iter_mut().zip(typ) {
+            if *n > 0 {
+                *typ = *sum as f64 / *n as f64;
+            }
+            (*sum, *n) = (0, 0);
+        }
         let (h, l) = match self.cfg.glitch_ns {
             Some(ns) => (ns / self.tick_ns, ns / self.tick_ns),
             None => (
@@ -623,7 +642,7 @@ impl ClockState {
             return;
         }
         if let Some(l) = low {
-            self.typ_low = ema(self.typ_low, l as f64);
+            seg_add(&mut self.seg[2], l as u64);
             self.run.min_l = self.run.min_l.min(l as u64);
             let a = self.acc.as_mut().expect("block exists");
             a.low.add(l, t, idx);
@@ -643,7 +662,7 @@ impl ClockState {
     fn commit_fall(&mut self, t: u64) {
         if let Some(r) = self.last_rise {
             let h = (t - r) as i64;
-            self.typ_high = ema(self.typ_high, h as f64);
+            seg_add(&mut self.seg[1], h as u64);
             if self.run.n > 0 {
                 self.run.sum_h += h as u64;
                 self.run.nh += 1;
@@ -664,11 +683,9 @@ impl ClockState {
     fn on_period(&mut self, t: u64, p: i64, idx: u64) {
         let k = idx - 1;
         let (pref, _, _) = self.refs.expect("refs set with the first period");
-        if (p as f64) < 2.0 * self.typ_period && (p as f64) > 0.5 * self.typ_period {
-            self.typ_period = ema(self.typ_period, p as f64);
-        }
+        seg_add(&mut self.seg[0], p as u64);
         self.refresh += 1;
-        if self.refresh >= 64 || self.refresh == 1 && self.stall_ticks == u64::MAX {
+        if self.refresh >= REFRESH || self.refresh == 1 && self.stall_ticks == u64::MAX {
             self.refresh = 0;
             self.refresh_thresholds();
         }
@@ -681,22 +698,17 @@ impl ClockState {
         let clamp = |v: i128| v.clamp(i128::from(i64::MIN / 4), i128::from(i64::MAX / 4)) as i64;
         let kk = clamp(i128::from(k) + 1 - i128::from(k0));
         let u = clamp(i128::from(t) - i128::from(t0) - i128::from(kk) * i128::from(pref));
-        // N-cycle error: the ring holds the last rising edges of this run
-        let ring_cap = self.ring.len();
-        let mask = ring_cap - 1;
-        if self.ring_len == 0 {
-            self.ring[self.ring_next] = t - p as u64;
-            self.ring_next = (self.ring_next + 1) & mask;
-            self.ring_len = 1;
+        // N-cycle error: the run's latest rises (the first period brings its opening rise)
+        if self.rises.is_empty() {
+            self.rises.extend(&[t - p as u64]);
         }
-        self.ring[self.ring_next] = t;
-        self.ring_next = (self.ring_next + 1) & mask;
-        self.ring_len = (self.ring_len + 1).min(ring_cap);
+        self.rises.extend(&[t]);
+        let latest = self.rises.as_slice();
         let mut ncyc = [None, None];
         for (i, &n) in self.cfg.n_cycles.iter().enumerate() {
             let n = n as usize;
-            if self.ring_len > n {
-                let back = self.ring[(self.ring_next + ring_cap - 1 - n) & mask];
+            if latest.len() > n {
+                let back = latest[latest.len() - 1 - n];
                 ncyc[i] = Some((t - back) as i64 - n as i64 * pref);
             }
         }
@@ -804,23 +816,74 @@ impl ClockState {
     }
 }
 
-/// Exponential average over about 64 values; the first value (prev = 0) is taken as it is.
-/// (× 1/64 equals ÷ 64 exactly: a power of two; the select keeps the hot path branch-free.)
+/// Add one sample to a segment's (sum, count).
 #[inline]
-fn ema(prev: f64, x: f64) -> f64 {
-    let w = if prev == 0.0 { 1.0 } else { 1.0 / 64.0 };
-    prev + (x - prev) * w
+fn seg_add(seg: &mut (u64, u64), x: u64) {
+    seg.0 = seg.0.saturating_add(x);
+    seg.1 += 1;
 }
 
 /// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
-/// line (a detrended TIE record), in ticks.
+/// line (a detrended TIE record), in ticks. The chord through the record's ends is taken out in
+/// integers first (residuals do not change when a line is removed), so the floating-point work
+/// is on small numbers; the sum of squares comes in closed form, the extremes in one pass.
+#[inline(always)]
 fn tie_record_pkpk(t: &[u64]) -> (f64, f64, u64) {
-    let r = detrended(t);
-    let (lo, hi, ss) = r.iter().fold(
-        (f64::INFINITY, f64::NEG_INFINITY, 0.0),
-        |(lo, hi, ss), &x| (lo.min(x), hi.max(x), ss + x * x),
-    );
-    (hi - lo, ss, t.len() as u64)
+    let n = t.len();
+    if n < 3 {
+        // a line passes through one or two points exactly
+        return (0.0, 0.0, n as u64);
+    }
+    let t0 = t[0];
+    let step = t[n - 1].wrapping_sub(t0) / (n as u64 - 1);
+    // w_k = t_k − t0 − k·step; about its minimum it usually fits 31 bits, and 32-bit integers
+    // convert to floating point four at a time
+    let w = |k: usize, x: u64| x.wrapping_sub(t0.wrapping_add(step.wrapping_mul(k as u64))) as i64;
+    let (mut wlo, mut whi) = (i64::MAX, i64::MIN);
+    for (k, &x) in t.iter().enumerate() {
+        wlo = wlo.min(w(k, x));
+        whi = whi.max(w(k, x));
+    }
+    let nf = n as f64;
+    // deviations below 2^20 over at most 2^16 stamps: exact sums in u64 (which vectorise;
+    // floating-point sums cannot be reordered), centred exactly in i128
+    let (b, ss) = if i128::from(whi) - i128::from(wlo) < 1 << 20 && n <= 1 << 16 {
+        let (mut se, mut ske, mut see) = (0u64, 0u64, 0u64);
+        for (k, &x) in t.iter().enumerate() {
+            let e = u64::from(w(k, x).wrapping_sub(wlo) as u32);
+            se += e;
+            ske += k as u64 * e;
+            see += e * e;
+        }
+        let n128 = n as i128;
+        let sk = n128 * (n128 - 1) / 2;
+        let sxx = n128 * n128 * (n128 * n128 - 1) / 12;
+        let sxy = n128 * i128::from(ske) - sk * i128::from(se);
+        let syy = n128 * i128::from(see) - i128::from(se) * i128::from(se);
+        let b = sxy as f64 / sxx as f64;
+        (b, ((syy as f64 - sxy as f64 * b) / nf).max(0.0))
+    } else {
+        let (mut sw, mut skw, mut sww) = (0.0f64, 0.0f64, 0.0f64);
+        for (k, &x) in t.iter().enumerate() {
+            let v = w(k, x) as f64;
+            sw += v;
+            skw += k as f64 * v;
+            sww += v * v;
+        }
+        let sk = nf * (nf - 1.0) / 2.0;
+        let sxx = nf * (nf * nf - 1.0) / 12.0;
+        let sxy = skw - sk * sw / nf;
+        let b = sxy / sxx;
+        (b, (sww - sw * sw / nf - sxy * b).max(0.0))
+    };
+    // the residuals' extremes (their mean does not matter for the spread)
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for (k, &x) in t.iter().enumerate() {
+        let r = w(k, x) as f64 - b * k as f64;
+        lo = lo.min(r);
+        hi = hi.max(r);
+    }
+    (hi - lo, ss, n as u64)
 }
 
 /// Residuals (in ticks) of edge times against their own least-squares line: the TIE of a
@@ -1248,6 +1311,37 @@ pub fn snapshot(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The closed-form record figures equal the residuals computed one by one (against
+    /// `detrended`, the plain two-pass least squares).
+    #[test]
+    fn tie_record_figures_match_plain_least_squares() {
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        for n in [3usize, 10, 1024] {
+            let mut t = 1u64 << 41;
+            let ticks: Vec<u64> = (0..n)
+                .map(|_| {
+                    x ^= x << 13;
+                    x ^= x >> 7;
+                    x ^= x << 17;
+                    t += 1000 + x % 7;
+                    t
+                })
+                .collect();
+            let r = detrended(&ticks);
+            let lo = r.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = r.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let ss: f64 = r.iter().map(|v| v * v).sum();
+            let (pkpk, ss2, cnt) = tie_record_pkpk(&ticks);
+            assert_eq!(cnt, n as u64);
+            assert!(
+                (pkpk - (hi - lo)).abs() < 1e-6,
+                "{n}: {pkpk} vs {}",
+                hi - lo
+            );
+            assert!((ss2 - ss).abs() < 1e-6 * ss.max(1.0), "{n}: {ss2} vs {ss}");
+        }
+    }
 
     /// The plain-arithmetic path of the fit sums gives exactly what the saturating path gives
     /// wherever neither saturates, and a huge term switches to saturating without a panic.

@@ -1,0 +1,581 @@
+//! The bulk path of the clock statistics. A clean stretch of edges (no glitch, stall, long gap,
+//! polarity break or time reversal; no threshold refresh or short-run boundary inside it) is
+//! taken as arrays in a few tight passes instead of edge by edge. It yields exactly what the
+//! per-edge path yields (tested against it in `tests/measure_bulk.rs`), several times faster.
+
+use super::super::stats::RunSums;
+use super::{BATCH, ClockState, MAX_GAP_TICKS, REFRESH, tie_record_pkpk};
+
+/// Most periods one bulk step takes (one refresh segment), plus the opening values.
+const CAP: usize = REFRESH as usize + 2;
+
+/// Working arrays of one bulk step, kept with the channel so that a step allocates nothing.
+#[derive(Clone)]
+pub(super) struct Scratch {
+    /// The last committed rise, then the step's committed rises.
+    rises: [u64; CAP],
+    /// The last committed fall, then the step's committed falls.
+    falls: [u64; CAP],
+    period: [i64; CAP],
+    high: [i64; CAP],
+    low: [i64; CAP],
+    tmp: [i64; CAP],
+    /// Phase of each rise against the reference clock (the TIE fit's u).
+    u: [i64; CAP],
+}
+
+impl Scratch {
+    /// Empty arrays.
+    pub(super) fn new() -> Box<Scratch> {
+        Box::new(Scratch {
+            rises: [0; CAP],
+            falls: [0; CAP],
+            period: [0; CAP],
+            high: [0; CAP],
+            low: [0; CAP],
+            tmp: [0; CAP],
+            u: [0; CAP],
+        })
+    }
+}
+
+/// The latest rises of the current run, oldest first, contiguous (so that "N rises back" is a
+/// slice offset); only the newest `keep + 1` are ever read, older ones are dropped in bulk.
+#[derive(Clone)]
+pub(super) struct RiseHistory {
+    buf: Vec<u64>,
+    keep: usize,
+}
+
+impl RiseHistory {
+    /// A history for looking up to `keep` rises back.
+    pub(super) fn new(keep: usize) -> RiseHistory {
+        RiseHistory {
+            buf: Vec::with_capacity(keep + 2 * CAP),
+            keep,
+        }
+    }
+    pub(super) fn clear(&mut self) {
+        self.buf.clear();
+    }
+    pub(super) fn is_empty(&self) -> bool {
+        self.buf.is_empty()
+    }
+    /// Append rises (at most `CAP` at a time), first dropping all but the newest `keep + 1`
+    /// when the buffer would outgrow its capacity.
+    pub(super) fn extend(&mut self, r: &[u64]) {
+        if self.buf.len() + r.len() > self.keep + 2 * CAP {
+            let drop = self.buf.len() - (self.keep + 1).min(self.buf.len());
+            self.buf.drain(..drop);
+        }
+        self.buf.extend_from_slice(r);
+    }
+    /// Every rise held, oldest first.
+    pub(super) fn as_slice(&self) -> &[u64] {
+        &self.buf
+    }
+}
+
+impl std::fmt::Debug for RiseHistory {
+    /// What can still be read: how many rises (up to `keep + 1`) and the newest ones.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let from = self.buf.len() - (self.keep + 1).min(self.buf.len());
+        f.debug_list().entries(&self.buf[from..]).finish()
+    }
+}
+
+impl std::fmt::Debug for Scratch {
+    /// Working arrays carry no state between steps: nothing to show (and two channels with
+    /// equal state compare equal by their Debug text).
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("Scratch")
+    }
+}
+
+/// The fit's plain-arithmetic bound (see `FitSums::add`).
+const FIT_LIM: i128 = 1 << 40;
+
+impl ClockState {
+    /// Edges in order, the first rising when `first_rising` (polarities alternate): the same as
+    /// [`ClockState::edge`] for each in turn, with clean stretches taken in bulk.
+    pub fn edges(&mut self, ticks: &[u64], first_rising: bool) {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the processor has AVX2, checked just above (the answer is cached).
+            unsafe { self.edges_avx2(ticks, first_rising) };
+            return;
+        }
+        self.edges_here(ticks, first_rising);
+    }
+
+    /// [`ClockState::edges`] compiled for AVX2: the bulk passes work on four 64-bit lanes
+    /// (baseline x86-64 has no 64-bit compare, so min/max passes would run one value at a time).
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn edges_avx2(&mut self, ticks: &[u64], first_rising: bool) {
+        self.edges_here(ticks, first_rising);
+    }
+
+    /// The loop itself, inlined into each compiled variant.
+    #[inline(always)]
+    fn edges_here(&mut self, ticks: &[u64], first_rising: bool) {
+        let mut i = 0;
+        let mut rising = first_rising;
+        while i < ticks.len() {
+            let n = self.clean_len(&ticks[i..], rising);
+            if n >= 2 {
+                if !self.bulk(&ticks[i..i + n], rising) {
+                    for (k, &t) in ticks[i..i + n].iter().enumerate() {
+                        self.edge(t, rising ^ (k % 2 == 1));
+                    }
+                }
+                i += n;
+                rising ^= n % 2 == 1;
+            } else {
+                self.edge(ticks[i], rising);
+                rising = !rising;
+                i += 1;
+            }
+        }
+    }
+
+    /// How many of the edges `t` (the first rising when `rising`) the bulk path may take from
+    /// this state: 0 unless the channel is in its steady state, else the clean prefix.
+    #[inline(always)]
+    fn clean_len(&self, t: &[u64], rising: bool) -> usize {
+        let (Some((pt, pr)), Some(lr), Some(lf), Some(le)) =
+            (self.pending, self.last_rise, self.last_fall, self.last_edge)
+        else {
+            return 0;
+        };
+        if pr == rising
+            || self.suspect.is_some()
+            || self.stall_ticks == u64::MAX
+            || self.prev_period.is_none()
+            || self.fit_origin.is_none()
+            || self.allan.is_none()
+            || self.acc.is_none()
+            || self.run.n == 0
+            || self.rises.is_empty()
+            || self.refresh >= REFRESH
+            || self.anchor.map(|a| a.0) != Some(lr)
+        {
+            return 0;
+        }
+        // the committed edges alternate: the newest has the pending edge's other polarity
+        let (newer, older) = if pr { (lf, lr) } else { (lr, lf) };
+        let hi = self.stall_ticks.min(MAX_GAP_TICKS);
+        let (gh, gl) = (self.glitch_high_ticks.max(1), self.glitch_low_ticks.max(1));
+        if le != newer || older >= newer || pt <= le || pt - le > hi || hi < gh.max(gl) {
+            return 0;
+        }
+        // a gap is fine when not shorter than the glitch threshold of the pulse it closes (a
+        // rise closes a low pulse) and not longer than a stall: one unsigned compare, which
+        // also refuses time running backwards (the difference wraps around)
+        let (lo_even, lo_odd) = if rising { (gl, gh) } else { (gh, gl) };
+        let bad = |gap: u64, lo: u64| gap.wrapping_sub(lo) > hi - lo;
+        let max_rises = (REFRESH - self.refresh) as usize;
+        let run_limit = self.run.start.saturating_add(self.run_ticks);
+        let n_max = t.len().min(2 * REFRESH as usize);
+        let (mut j, mut prev, mut rises) = (0usize, pt, 0usize);
+        // blocks of 8 cycles, checked without branches
+        while j + 16 <= n_max && rises + 8 < max_rises {
+            let b = &t[j..j + 16];
+            let mut any = bad(b[0].wrapping_sub(prev), lo_even);
+            for k in (1..16).step_by(2) {
+                any |= bad(b[k].wrapping_sub(b[k - 1]), lo_odd);
+                if k + 1 < 16 {
+                    any |= bad(b[k + 1].wrapping_sub(b[k]), lo_even);
+                }
+            }
+            // the block commits 8 rises; the newest is the edge before its last fall
+            let newest_rise = if rising { b[14] } else { b[13] };
+            if any || newest_rise > run_limit {
+                break;
+            }
+            prev = b[15];
+            rises += 8;
+            j += 16;
+        }
+        while j < n_max {
+            let x = t[j];
+            let is_rise = rising ^ (j % 2 == 1);
+            if bad(x.wrapping_sub(prev), if is_rise { gl } else { gh }) {
+                return j;
+            }
+            if !is_rise {
+                // this fall commits the rise `prev`: not one that closes the short run, and
+                // the rise that completes the refresh segment ends the stretch
+                if prev > run_limit {
+                    return j;
+                }
+                rises += 1;
+                if rises == max_rises {
+                    return j + 1;
+                }
+            }
+            prev = x;
+            j += 1;
+        }
+        n_max
+    }
+
+    /// Take a clean stretch (from [`ClockState::clean_len`], at least two edges): the pending
+    /// edge and all but the last of `t` are committed, the last becomes pending. False (and
+    /// nothing done) when the state is not the steady one after all.
+    #[inline(always)]
+    fn bulk(&mut self, t: &[u64], rising: bool) -> bool {
+        let n = t.len();
+        let (
+            Some((pt, pr)),
+            Some(lr),
+            Some(lf),
+            Some(pp),
+            Some((k0, t0)),
+            Some((_, kidx)),
+            Some((pref, _, _)),
+            Some(a),
+        ) = (
+            self.pending,
+            self.last_rise,
+            self.last_fall,
+            self.prev_period,
+            self.fit_origin,
+            self.anchor,
+            self.refs,
+            self.acc.as_mut(),
+        )
+        else {
+            return false;
+        };
+        let sc = &mut *self.scratch;
+        // committed edges c_0 = pt, c_j = t[j − 1]; split into rises and falls after the last
+        // committed rise and fall
+        sc.rises[0] = lr;
+        sc.falls[0] = lf;
+        let (nr, nf) = if pr {
+            (n.div_ceil(2), n / 2)
+        } else {
+            (n / 2, n.div_ceil(2))
+        };
+        let (first, second) = if pr {
+            (&mut sc.rises, &mut sc.falls)
+        } else {
+            (&mut sc.falls, &mut sc.rises)
+        };
+        first[1] = pt;
+        for (k, x) in first[2..=n.div_ceil(2)].iter_mut().enumerate() {
+            *x = t[2 * k + 1];
+        }
+        for (k, x) in second[1..=n / 2].iter_mut().enumerate() {
+            *x = t[2 * k];
+        }
+        let rises = &sc.rises[..=nr];
+        let falls = &sc.falls[..=nf];
+        // periods, lows, highs (a low ends at a rise, a high at a fall)
+        for k in 0..nr {
+            sc.period[k] = (rises[k + 1] - rises[k]) as i64;
+        }
+        let (low_from, high_from) = if pr { (0, 1) } else { (1, 0) };
+        for k in 0..nr {
+            sc.low[k] = (rises[k + 1] - falls[k + low_from]) as i64;
+        }
+        for k in 0..nf {
+            sc.high[k] = (falls[k + 1] - rises[k + high_from]) as i64;
+        }
+        let (period, low, high) = (&sc.period[..nr], &sc.low[..nr], &sc.high[..nf]);
+        let rise_ticks = &rises[1..];
+        let idx0 = kidx + 1;
+        let rp = a.period.add_run(period, rise_ticks, idx0);
+        a.hist_period.record_run(period, &rp);
+        let rl = a.low.add_run(low, rise_ticks, idx0);
+        a.hist_low.record_run(low, &rl);
+        let rh = a.high.add_run(high, &falls[1..], kidx + high_from as u64);
+        a.hist_high.record_run(high, &rh);
+        let (sum_p, sum_l, sum_h) = (rp.sum(), rl.sum(), rh.sum());
+        // cycle to cycle
+        sc.tmp[0] = period[0] - pp;
+        for k in 1..nr {
+            sc.tmp[k] = period[k] - period[k - 1];
+        }
+        a.c2c.add_run(&sc.tmp[..nr], rise_ticks, idx0);
+        // N-cycle errors: rise k of this step against the rise N before it in the run
+        self.rises.extend(rise_ticks);
+        let all = self.rises.as_slice();
+        let base = all.len() - nr;
+        for (i, &nc) in self.cfg.n_cycles.iter().enumerate() {
+            let nc = nc as usize;
+            let from = nc.saturating_sub(base);
+            if from >= nr {
+                continue;
+            }
+            let shift = nc as i64 * pref;
+            let cur = &all[base + from..];
+            let back = &all[base + from - nc..base + nr - nc];
+            for ((o, &c), &b) in sc.tmp.iter_mut().zip(cur).zip(back) {
+                *o = (c - b) as i64 - shift;
+            }
+            a.ncycle[i].add_run(
+                &sc.tmp[..nr - from],
+                &rise_ticks[from..],
+                idx0 + from as u64,
+            );
+        }
+        // the TIE fit: kk = idx − k0 and u = t − t0 − kk·pref, summed through the step's first
+        // rise (kk0, u0) plus small offsets, exactly as the per-edge sums
+        let kk0 = i128::from(idx0) - i128::from(k0);
+        let u0 = i128::from(rise_ticks[0]) - i128::from(t0) - kk0 * i128::from(pref);
+        let r0 = rise_ticks[0];
+        for (k, (v, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
+            *v = (r - r0) as i64 - k as i64 * pref;
+        }
+        let v = &sc.tmp[..nr];
+        let rv = RunSums::of(v);
+        let fit = &mut a.fit;
+        let nr128 = nr as i128;
+        if !fit.big
+            && kk0 >= 0
+            && kk0 + nr128 < FIT_LIM
+            && u0.abs() < FIT_LIM / 2
+            && rv.lo > -(1 << 26)
+            && rv.hi < 1 << 26
+            && rv.hi - rv.lo < 1 << 16
+            && fit.n + nr128 <= FIT_LIM
+        {
+            // Σk·v = Σk·(v − lo) + lo·Σk, the first in 32-bit products
+            let mut ske = 0u64;
+            for (k, &x) in v.iter().enumerate() {
+                ske += k as u64 * u64::from(x.wrapping_sub(rv.lo) as u32);
+            }
+            for (u, &x) in sc.u.iter_mut().zip(v) {
+                *u = u0 as i64 + x;
+            }
+            let lo = i128::from(rv.lo);
+            let sk = nr128 * (nr128 - 1) / 2;
+            let sv = rv.sum();
+            let skv = i128::from(ske) + lo * sk;
+            let svv = rv.sum_ee + 2 * lo * rv.sum_e + nr128 * lo * lo;
+            let skk = (nr128 - 1) * nr128 * (2 * nr128 - 1) / 6;
+            fit.n += nr128;
+            fit.sk += nr128 * kk0 + sk;
+            fit.skk += nr128 * kk0 * kk0 + 2 * kk0 * sk + skk;
+            fit.su += nr128 * u0 + sv;
+            fit.sku += nr128 * kk0 * u0 + kk0 * sv + u0 * sk + skv;
+            fit.suu += nr128 * u0 * u0 + 2 * u0 * sv + svv;
+        } else {
+            // the per-edge arithmetic, clamped as there
+            let clamp =
+                |v: i128| v.clamp(i128::from(i64::MIN / 4), i128::from(i64::MAX / 4)) as i64;
+            for (k, (slot, &r)) in sc.u.iter_mut().zip(rise_ticks).enumerate() {
+                let kk = clamp(kk0 + k as i128);
+                let u = clamp(i128::from(r) - i128::from(t0) - i128::from(kk) * i128::from(pref));
+                *slot = u;
+                fit.add(kk, u);
+            }
+        }
+        // batch sums of BATCH contiguous periods, a slice sum per completed batch
+        let mut from = 0;
+        while from < nr {
+            let need = (BATCH - self.batch_n) as usize;
+            let to = (from + need).min(nr);
+            self.batch_sum += period[from..to].iter().sum::<i64>();
+            self.batch_n += (to - from) as u32;
+            if self.batch_n == BATCH {
+                a.batch.add(
+                    std::mem::take(&mut self.batch_sum),
+                    rise_ticks[to - 1],
+                    idx0 + (to - 1) as u64,
+                );
+                self.batch_n = 0;
+            }
+            from = to;
+        }
+        // detrended TIE records
+        let mut rest = rise_ticks;
+        while !rest.is_empty() {
+            let take = rest
+                .len()
+                .min(self.cfg.tie_record.saturating_sub(self.record.len()).max(1));
+            self.record.extend_from_slice(&rest[..take]);
+            rest = &rest[take..];
+            if self.record.len() >= self.cfg.tie_record {
+                let (pkpk, ss, cnt) = tie_record_pkpk(&self.record);
+                a.tie_rec_max_pkpk = a.tie_rec_max_pkpk.max(pkpk);
+                a.tie_rec_ss += ss;
+                a.tie_rec_n += cnt;
+                self.record.clear();
+            }
+        }
+        // Allan phase samples every `allan_every` periods
+        if self.allan_countdown > nr as u64 {
+            self.allan_countdown -= nr as u64;
+        } else if let Some(al) = self.allan.as_mut() {
+            for &u in &sc.u[..nr] {
+                self.allan_countdown = self.allan_countdown.saturating_sub(1);
+                if self.allan_countdown == 0 {
+                    self.allan_countdown = self.allan_every;
+                    al.push(u as f64 * self.tick_ns);
+                }
+            }
+        }
+        // the short run and the refresh segment
+        let run = &mut self.run;
+        run.n += nr as u64;
+        run.sum_p += sum_p as u64;
+        run.last = rises[nr];
+        run.min_l = run.min_l.min(rl.lo as u64);
+        if nf > 0 {
+            run.sum_h += sum_h as u64;
+            run.nh += nf as u64;
+            run.min_h = run.min_h.min(rh.lo as u64);
+        }
+        for (seg, (sum, cnt)) in self
+            .seg
+            .iter_mut()
+            .zip([(sum_p, nr), (sum_h, nf), (sum_l, nr)])
+        {
+            seg.0 = seg.0.saturating_add(sum as u64);
+            seg.1 += cnt as u64;
+        }
+        // edges seen, and the channel's state after the step
+        a.edges += n as u64;
+        a.span = Some(a.span.map_or((t[0], t[n - 1]), |(s, _)| (s, t[n - 1])));
+        self.pending = Some((t[n - 1], rising ^ (n % 2 == 0)));
+        self.last_edge = Some(t[n - 2]);
+        self.last_rise = Some(rises[nr]);
+        self.last_fall = Some(falls[nf]);
+        self.prev_period = Some(period[nr - 1]);
+        self.anchor = Some((rises[nr], kidx + nr as u64));
+        self.refresh += nr as u32;
+        if self.refresh >= REFRESH {
+            self.refresh = 0;
+            self.refresh_thresholds();
+        }
+        true
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::ClockConfig;
+    use super::*;
+    use rand::{Rng, SeedableRng};
+    use rand_xoshiro::Xoshiro256PlusPlus;
+
+    /// A stream of (tick, rising) with the troubles a bench sees: jitter, glitches next to
+    /// edges, stalls, a dropped edge (polarity break), time running backwards (a probe restart).
+    fn stream(seed: u64, n: usize) -> Vec<(u64, bool)> {
+        let mut r = Xoshiro256PlusPlus::seed_from_u64(seed);
+        let period = r.random_range(3..5000u64);
+        let duty = r.random_range(0.15..0.85);
+        let jitter = r.random_range(0..=period / 8 + 1);
+        let trouble = r.random_range(0.0..0.02);
+        let mut out = Vec::with_capacity(n);
+        let mut t = r.random_range(0..1u64 << 40);
+        let mut rising = r.random_bool(0.5);
+        while out.len() < n {
+            let base = if rising {
+                (period as f64 * (1.0 - duty)) as u64
+            } else {
+                (period as f64 * duty) as u64
+            };
+            t += base.max(1) + r.random_range(0..=jitter);
+            if r.random_bool(trouble) {
+                match r.random_range(0..5) {
+                    // a glitch: a short pulse right after this edge
+                    0 => {
+                        out.push((t, rising));
+                        t += 1;
+                        out.push((t, !rising));
+                        t += 1;
+                    }
+                    1 => t += period * r.random_range(5..50),
+                    2 => rising = !rising,
+                    3 => t = t.saturating_sub(period * r.random_range(1..100)).max(1),
+                    _ => t += period * r.random_range(2..4),
+                }
+            }
+            out.push((t, rising));
+            rising = !rising;
+        }
+        out
+    }
+
+    fn config(seed: u64) -> ClockConfig {
+        let mut c = ClockConfig::default();
+        if seed % 3 == 0 {
+            c.tie_record = 100 + seed as usize % 200;
+            c.n_cycles = [3, 40];
+            c.allan_tau0_s = 1e-7;
+        }
+        if seed % 5 == 0 {
+            c.glitch_ns = Some(4.0);
+        }
+        c
+    }
+
+    /// Per-edge and bulk give the same channel state, field by field (floats included), after
+    /// random batches and at the end, over random batchings and continuity breaks.
+    #[test]
+    fn bulk_equals_per_edge() {
+        for seed in 0..200u64 {
+            let edges = stream(seed, 3000 + (seed as usize * 37) % 5000);
+            let cfg = config(seed);
+            let tick_ns = [8.0, 62.5, 2.0][seed as usize % 3];
+            let mut one = ClockState::new(cfg.clone(), tick_ns);
+            let mut bulk = ClockState::new(cfg, tick_ns);
+            let mut r = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0xABCD);
+            let mut i = 0;
+            while i < edges.len() {
+                let len = r.random_range(1..1200).min(edges.len() - i);
+                // a batch as a probe sends it: alternating from its first polarity
+                let first = edges[i].1;
+                let ticks: Vec<u64> = edges[i..i + len].iter().map(|e| e.0).collect();
+                if r.random_bool(0.05) {
+                    one.break_continuity();
+                    bulk.break_continuity();
+                }
+                for (k, &t) in ticks.iter().enumerate() {
+                    one.edge(t, first ^ (k % 2 == 1));
+                }
+                bulk.edges(&ticks, first);
+                i += len;
+                // the whole state (three 4095-bucket histograms) now and then, and at the end
+                if i == edges.len() || r.random_bool(0.1) {
+                    assert_eq!(
+                        format!("{one:?}"),
+                        format!("{bulk:?}"),
+                        "seed {seed}, after edge {i}"
+                    );
+                }
+            }
+            assert!(
+                one.acc.as_ref().is_some_and(|a| a.period.n > 0),
+                "seed {seed}"
+            );
+        }
+    }
+
+    /// A clean stream goes almost entirely through the bulk path (so the test above tests it).
+    #[test]
+    fn clean_stream_is_taken_in_bulk() {
+        let mut s = ClockState::new(ClockConfig::default(), 8.0);
+        let ticks: Vec<u64> = (0..100_000u64).map(|k| 1000 + k * 31 + (k % 3)).collect();
+        let mut steps = 0;
+        let mut i = 0;
+        let mut rising = true;
+        while i < ticks.len() {
+            let n = s.clean_len(&ticks[i..], rising);
+            if n >= 2 && s.bulk(&ticks[i..i + n], rising) {
+                steps += 1;
+                i += n;
+                rising ^= n % 2 == 1;
+            } else {
+                s.edge(ticks[i], rising);
+                rising = !rising;
+                i += 1;
+            }
+        }
+        assert!(steps > 100 && steps < 100_000 / 100, "{steps} bulk steps");
+    }
+}
