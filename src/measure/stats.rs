@@ -253,7 +253,7 @@ impl DevHistogram {
     /// four interleaved lanes first, so that repeats of one value do not queue on one counter.
     #[inline(always)]
     pub fn record_run(&mut self, x: &[i64], r: &RunSums) {
-        const W: usize = 64;
+        const W: usize = 16;
         let (lo, hi) = (r.lo, r.hi);
         if x.is_empty() {
             return;

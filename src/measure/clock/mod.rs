@@ -180,7 +180,7 @@ struct RunAcc {
 /// Periods between refreshes of the glitch and stall thresholds: the typical period, high and
 /// low time are the means over the previous such segment (the first refresh comes with the
 /// first period).
-pub const REFRESH: u32 = 256;
+pub const REFRESH: u32 = 512;
 
 /// Periods per batch: summing 256 contiguous periods lifts their random walk far above the
 /// quantisation of the two end stamps, so period noise is measurable even below one tick.
@@ -716,7 +716,7 @@ impl ClockState {
         self.record.push(t);
         let record_done = self.record.len() >= self.cfg.tie_record;
         let rec = if record_done {
-            Some(tie_record_pkpk(&self.record))
+            Some(tie_record_pkpk(&self.record, self.scratch.tie_buf()))
         } else {
             None
         };
@@ -825,10 +825,10 @@ fn seg_add(seg: &mut (u64, u64), x: u64) {
 
 /// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
 /// line (a detrended TIE record), in ticks. The chord through the record's ends is taken out in
-/// integers first (residuals do not change when a line is removed), so the floating-point work
-/// is on small numbers; the sum of squares comes in closed form, the extremes in one pass.
+/// integers first (residuals do not change when a line is removed), leaving small numbers in
+/// `w` (a reused buffer); the sums are exact integers, the extremes one floating-point pass.
 #[inline(always)]
-fn tie_record_pkpk(t: &[u64]) -> (f64, f64, u64) {
+fn tie_record_pkpk(t: &[u64], w: &mut Vec<i64>) -> (f64, f64, u64) {
     let n = t.len();
     if n < 3 {
         // a line passes through one or two points exactly
@@ -836,21 +836,27 @@ fn tie_record_pkpk(t: &[u64]) -> (f64, f64, u64) {
     }
     let t0 = t[0];
     let step = t[n - 1].wrapping_sub(t0) / (n as u64 - 1);
-    // w_k = t_k − t0 − k·step; about its minimum it usually fits 31 bits, and 32-bit integers
-    // convert to floating point four at a time
-    let w = |k: usize, x: u64| x.wrapping_sub(t0.wrapping_add(step.wrapping_mul(k as u64))) as i64;
+    w.clear();
+    let mut at = t0;
+    w.extend(t.iter().map(|&x| {
+        let v = x.wrapping_sub(at) as i64;
+        at = at.wrapping_add(step);
+        v
+    }));
     let (mut wlo, mut whi) = (i64::MAX, i64::MIN);
-    for (k, &x) in t.iter().enumerate() {
-        wlo = wlo.min(w(k, x));
-        whi = whi.max(w(k, x));
+    for &v in w.iter() {
+        wlo = wlo.min(v);
+        whi = whi.max(v);
     }
     let nf = n as f64;
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
     // deviations below 2^20 over at most 2^16 stamps: exact sums in u64 (which vectorise;
-    // floating-point sums cannot be reordered), centred exactly in i128
-    let (b, ss) = if i128::from(whi) - i128::from(wlo) < 1 << 20 && n <= 1 << 16 {
+    // floating-point sums cannot be reordered), centred exactly in i128, and 32-bit values
+    // for the floating-point pass
+    if i128::from(whi) - i128::from(wlo) < 1 << 20 && n <= 1 << 16 {
         let (mut se, mut ske, mut see) = (0u64, 0u64, 0u64);
-        for (k, &x) in t.iter().enumerate() {
-            let e = u64::from(w(k, x).wrapping_sub(wlo) as u32);
+        for (k, &v) in w.iter().enumerate() {
+            let e = u64::from(v.wrapping_sub(wlo) as u32);
             se += e;
             ske += k as u64 * e;
             see += e * e;
@@ -861,29 +867,34 @@ fn tie_record_pkpk(t: &[u64]) -> (f64, f64, u64) {
         let sxy = n128 * i128::from(ske) - sk * i128::from(se);
         let syy = n128 * i128::from(see) - i128::from(se) * i128::from(se);
         let b = sxy as f64 / sxx as f64;
-        (b, ((syy as f64 - sxy as f64 * b) / nf).max(0.0))
-    } else {
-        let (mut sw, mut skw, mut sww) = (0.0f64, 0.0f64, 0.0f64);
-        for (k, &x) in t.iter().enumerate() {
-            let v = w(k, x) as f64;
-            sw += v;
-            skw += k as f64 * v;
-            sww += v * v;
+        for (k, &v) in w.iter().enumerate() {
+            let r = f64::from(v.wrapping_sub(wlo) as i32) - b * f64::from(k as i32);
+            lo = lo.min(r);
+            hi = hi.max(r);
         }
-        let sk = nf * (nf - 1.0) / 2.0;
-        let sxx = nf * (nf * nf - 1.0) / 12.0;
-        let sxy = skw - sk * sw / nf;
-        let b = sxy / sxx;
-        (b, (sww - sw * sw / nf - sxy * b).max(0.0))
-    };
-    // the residuals' extremes (their mean does not matter for the spread)
-    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-    for (k, &x) in t.iter().enumerate() {
-        let r = w(k, x) as f64 - b * k as f64;
+        return (
+            hi - lo,
+            ((syy as f64 - sxy as f64 * b) / nf).max(0.0),
+            n as u64,
+        );
+    }
+    let (mut sw, mut skw, mut sww) = (0.0f64, 0.0f64, 0.0f64);
+    for (k, &v) in w.iter().enumerate() {
+        let v = v as f64;
+        sw += v;
+        skw += k as f64 * v;
+        sww += v * v;
+    }
+    let sk = nf * (nf - 1.0) / 2.0;
+    let sxx = nf * (nf * nf - 1.0) / 12.0;
+    let sxy = skw - sk * sw / nf;
+    let b = sxy / sxx;
+    for (k, &v) in w.iter().enumerate() {
+        let r = v as f64 - b * k as f64;
         lo = lo.min(r);
         hi = hi.max(r);
     }
-    (hi - lo, ss, n as u64)
+    (hi - lo, (sww - sw * sw / nf - sxy * b).max(0.0), n as u64)
 }
 
 /// Residuals (in ticks) of edge times against their own least-squares line: the TIE of a
@@ -1332,7 +1343,7 @@ mod tests {
             let lo = r.iter().copied().fold(f64::INFINITY, f64::min);
             let hi = r.iter().copied().fold(f64::NEG_INFINITY, f64::max);
             let ss: f64 = r.iter().map(|v| v * v).sum();
-            let (pkpk, ss2, cnt) = tie_record_pkpk(&ticks);
+            let (pkpk, ss2, cnt) = tie_record_pkpk(&ticks, &mut Vec::new());
             assert_eq!(cnt, n as u64);
             assert!(
                 (pkpk - (hi - lo)).abs() < 1e-6,
