@@ -612,6 +612,11 @@ fn validate_deltas(bytes: &[u8], count: u16) -> Result<(), DecodeError> {
     {
         return Ok(());
     }
+    validate_deltas_each(bytes, count)
+}
+
+/// [`validate_deltas`] one delta at a time (any lengths).
+fn validate_deltas_each(bytes: &[u8], count: u16) -> Result<(), DecodeError> {
     let mut rest = bytes;
     for _ in 1..count {
         let before = rest.len();
@@ -1029,6 +1034,69 @@ impl<'b> EdgeWriter<'b> {
 mod tests {
     use super::*;
     use crate::frame::{Header, VERSION};
+
+    fn edges_body(count: u16, first_tick: u64, deltas: &[u8]) -> ([u8; MAX_BODY], usize) {
+        let mut b = [0u8; MAX_BODY];
+        b[1] = 1;
+        b[3..5].copy_from_slice(&count.to_le_bytes());
+        b[5..13].copy_from_slice(&first_tick.to_le_bytes());
+        b[13..13 + deltas.len()].copy_from_slice(deltas);
+        (b, 13 + deltas.len())
+    }
+
+    /// The one-pass check of single-byte deltas accepts and refuses exactly what the
+    /// delta-by-delta check does, on bytes chosen to hit its edges (0, 0x7F, 0x80, 0xFF).
+    #[test]
+    fn fast_delta_check_agrees_with_the_delta_by_delta_check() {
+        let mut x: u32 = 0x1234_5678;
+        let pick = [0u8, 1, 2, 0x7E, 0x7F, 0x80, 0x81, 0xFF];
+        for _ in 0..20_000 {
+            x ^= x << 13;
+            x ^= x >> 17;
+            x ^= x << 5;
+            let len = (x % 12) as usize;
+            let mut bytes = [0u8; 12];
+            for (i, b) in bytes[..len].iter_mut().enumerate() {
+                *b = pick[((x >> (i * 3 % 29)) & 7) as usize];
+            }
+            for count in [len as u16, len as u16 + 1, len as u16 + 2] {
+                assert_eq!(
+                    validate_deltas(&bytes[..len], count).is_ok(),
+                    validate_deltas_each(&bytes[..len], count).is_ok(),
+                    "{:?} count {count}",
+                    &bytes[..len]
+                );
+            }
+        }
+    }
+
+    /// `ticks_into` gives what the iterator gives, with one-byte and longer deltas.
+    #[test]
+    fn ticks_into_equals_the_iterator() {
+        let cases: [(&[u8], u16); 4] = [
+            (&[62, 63, 61, 127, 1], 6),
+            (&[0x80, 0x01, 5, 0xFF, 0x7F], 4),
+            (&[], 1),
+            (&[9], 2),
+        ];
+        for (deltas, count) in cases {
+            let (b, n) = edges_body(count, u64::MAX - 1_000_000, deltas);
+            let e = decode_edges(&b[..n]).unwrap();
+            let mut want = [0u64; 8];
+            let mut m = 0;
+            for t in e.ticks() {
+                want[m] = t;
+                m += 1;
+            }
+            assert_eq!(m, usize::from(count));
+            let mut got = [0u64; 8];
+            let k = e.ticks_into(&mut got);
+            assert_eq!(&got[..k], &want[..m], "{deltas:?}");
+            // a short buffer takes the first ones
+            let k = e.ticks_into(&mut got[..1]);
+            assert_eq!(&got[..k], &want[..1]);
+        }
+    }
 
     fn round_trip(m: Message<'_>) {
         let mut body = [0u8; MAX_BODY];
