@@ -124,15 +124,17 @@ impl ClockState {
         self.edges_here(ticks, first_rising);
     }
 
-    /// The loop itself, inlined into each compiled variant.
+    /// The loop itself, inlined into each compiled variant; returns how many bulk steps it took.
     #[inline(always)]
-    fn edges_here(&mut self, ticks: &[u64], first_rising: bool) {
-        let mut i = 0;
+    fn edges_here(&mut self, ticks: &[u64], first_rising: bool) -> usize {
+        let (mut i, mut steps) = (0, 0);
         let mut rising = first_rising;
         while i < ticks.len() {
             let n = self.clean_len(&ticks[i..], rising);
             if n >= 2 {
-                if !self.bulk(&ticks[i..i + n], rising) {
+                if self.bulk(&ticks[i..i + n], rising) {
+                    steps += 1;
+                } else {
                     for (k, &t) in ticks[i..i + n].iter().enumerate() {
                         self.edge(t, rising ^ (k % 2 == 1));
                     }
@@ -145,6 +147,7 @@ impl ClockState {
                 i += 1;
             }
         }
+        steps
     }
 
     /// How many of the edges `t` (the first rising when `rising`) the bulk path may take from
@@ -569,21 +572,7 @@ mod tests {
     fn clean_stream_is_taken_in_bulk() {
         let mut s = ClockState::new(ClockConfig::default(), 8.0);
         let ticks: Vec<u64> = (0..100_000u64).map(|k| 1000 + k * 31 + (k % 3)).collect();
-        let mut steps = 0;
-        let mut i = 0;
-        let mut rising = true;
-        while i < ticks.len() {
-            let n = s.clean_len(&ticks[i..], rising);
-            if n >= 2 && s.bulk(&ticks[i..i + n], rising) {
-                steps += 1;
-                i += n;
-                rising ^= n % 2 == 1;
-            } else {
-                s.edge(ticks[i], rising);
-                rising = !rising;
-                i += 1;
-            }
-        }
+        let steps = s.edges_here(&ticks, true);
         // 50 000 periods in steps of at most one refresh segment, nearly all of them full
         let full = 50_000 / REFRESH as usize;
         assert!(steps >= full && steps <= 2 * full + 2, "{steps} bulk steps");
