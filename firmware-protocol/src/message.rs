@@ -172,8 +172,9 @@ impl<'a> Edges<'a> {
         }
     }
 
-    /// Writes the timestamps into `out` (as many as fit) and returns how many: the same values
-    /// as [`Edges::ticks`], with a tight loop when every delta is one byte (the usual case).
+    /// Writes the timestamps into `out` (as many as fit) and returns how many: for a decoded
+    /// (validated) message the same values as [`Edges::ticks`], with a tight loop when every
+    /// delta is one byte (the usual case).
     pub fn ticks_into(&self, out: &mut [u64]) -> usize {
         let n = out.len().min(usize::from(self.count));
         if n == 0 {

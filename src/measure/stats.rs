@@ -4,7 +4,7 @@
 use hdrhistogram::Histogram;
 
 /// Exact sums of a run of integer samples about its own minimum: the deviations of a run are
-/// small even when the values are not, so the common case sums in 32-bit lanes.
+/// small even when the values are not, so the common case squares 32-bit numbers.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct RunSums {
     /// Samples.
@@ -435,6 +435,42 @@ mod tests {
         }
         a.merge(&b);
         assert_eq!(a, one);
+    }
+
+    /// Runs through every branch of the run helpers (narrow and wide ranges, one or two
+    /// values, inside and outside the dense histogram) give what one-at-a-time calls give.
+    #[test]
+    fn run_helpers_equal_one_sample_at_a_time() {
+        let runs: [Vec<i64>; 6] = [
+            vec![500; 9],
+            (0..37).map(|i| 500 + i % 2).collect(),
+            (0..41).map(|i| 495 + (i * 7) % 13).collect(),
+            (0..50).map(|i| 400 + (i * 31) % 90).collect(),
+            (0..30)
+                .map(|i| 500 + (i * 7919) % 300_000 - 150_000)
+                .collect(),
+            vec![500, -(1 << 40), 1 << 40, 500],
+        ];
+        for x in &runs {
+            let ticks: Vec<u64> = (0..x.len() as u64).map(|i| 1000 + 3 * i).collect();
+            let (mut one, mut bulk) = (IntStats::new(500), IntStats::new(500));
+            let (mut h_one, mut h_bulk) = (DevHistogram::new(500), DevHistogram::new(500));
+            for (i, &v) in x.iter().enumerate() {
+                one.add(v, ticks[i], 7 + i as u64);
+                h_one.record(v);
+            }
+            let r = bulk.add_run(x, &ticks, 7);
+            h_bulk.record_run(x, &r);
+            assert_eq!(one, bulk, "{x:?}");
+            assert!(h_one == h_bulk, "{x:?}");
+            assert_eq!(r.sum(), x.iter().map(|&v| i128::from(v)).sum::<i128>());
+            let lo = *x.iter().min().unwrap();
+            let ee: i128 = x
+                .iter()
+                .map(|&v| (i128::from(v) - i128::from(lo)).pow(2))
+                .sum();
+            assert_eq!((r.lo, r.sum_ee), (lo, ee), "{x:?}");
+        }
     }
 
     #[test]

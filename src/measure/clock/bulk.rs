@@ -1,10 +1,10 @@
 //! The bulk path of the clock statistics. A clean stretch of edges (no glitch, stall, long gap,
 //! polarity break or time reversal; no threshold refresh or short-run boundary inside it) is
 //! taken as arrays in a few tight passes instead of edge by edge. It yields exactly what the
-//! per-edge path yields (tested against it in `tests/measure_bulk.rs`), several times faster.
+//! per-edge path yields (tested against it below, `bulk_equals_per_edge`), several times faster.
 
 use super::super::stats::RunSums;
-use super::{BATCH, ClockState, MAX_GAP_TICKS, REFRESH, tie_record_pkpk};
+use super::{BATCH, ClockState, MAX_GAP_TICKS, REFRESH, seg_add, tie_record_pkpk};
 
 /// Most periods one bulk step takes (one refresh segment), plus the opening values.
 const CAP: usize = REFRESH as usize + 2;
@@ -20,8 +20,6 @@ pub(super) struct Scratch {
     high: [i64; CAP],
     low: [i64; CAP],
     tmp: [i64; CAP],
-    /// Phase of each rise against the reference clock (the TIE fit's u).
-    u: [i64; CAP],
     /// A TIE record less the chord through its ends.
     tie: Vec<i64>,
 }
@@ -36,7 +34,6 @@ impl Scratch {
             high: [0; CAP],
             low: [0; CAP],
             tmp: [0; CAP],
-            u: [0; CAP],
             tie: Vec::new(),
         })
     }
@@ -193,11 +190,8 @@ impl ClockState {
         while j + 16 <= n_max && rises + 8 < max_rises {
             let b = &t[j..j + 16];
             let mut any = bad(b[0].wrapping_sub(prev), lo_even);
-            for k in (1..16).step_by(2) {
-                any |= bad(b[k].wrapping_sub(b[k - 1]), lo_odd);
-                if k + 1 < 16 {
-                    any |= bad(b[k + 1].wrapping_sub(b[k]), lo_even);
-                }
+            for k in 1..16 {
+                any |= bad(b[k].wrapping_sub(b[k - 1]), [lo_even, lo_odd][k % 2]);
             }
             // the block commits 8 rises; the newest is the edge before its last fall
             let newest_rise = if rising { b[14] } else { b[13] };
@@ -333,7 +327,8 @@ impl ClockState {
             );
         }
         // the TIE fit: kk = idx − k0 and u = t − t0 − kk·pref, summed through the step's first
-        // rise (kk0, u0) plus small offsets, exactly as the per-edge sums
+        // rise (kk0, u0) plus small offsets v, exactly as the per-edge sums; afterwards
+        // u = u_off + tmp[k] for the Allan samples
         let kk0 = i128::from(idx0) - i128::from(k0);
         let u0 = i128::from(rise_ticks[0]) - i128::from(t0) - kk0 * i128::from(pref);
         let r0 = rise_ticks[0];
@@ -344,7 +339,7 @@ impl ClockState {
         let rv = RunSums::of(v);
         let fit = &mut a.fit;
         let nr128 = nr as i128;
-        if !fit.big
+        let u_off = if !fit.big
             && kk0 >= 0
             && kk0 + nr128 < FIT_LIM
             && u0.abs() < FIT_LIM / 2
@@ -358,9 +353,6 @@ impl ClockState {
             for (k, &x) in v.iter().enumerate() {
                 ske += k as u64 * u64::from(x.wrapping_sub(rv.lo) as u32);
             }
-            for (u, &x) in sc.u.iter_mut().zip(v) {
-                *u = u0 as i64 + x;
-            }
             let lo = i128::from(rv.lo);
             let sk = nr128 * (nr128 - 1) / 2;
             let sv = rv.sum();
@@ -373,17 +365,19 @@ impl ClockState {
             fit.su += nr128 * u0 + sv;
             fit.sku += nr128 * kk0 * u0 + kk0 * sv + u0 * sk + skv;
             fit.suu += nr128 * u0 * u0 + 2 * u0 * sv + svv;
+            u0 as i64
         } else {
             // the per-edge arithmetic, clamped as there
             let clamp =
                 |v: i128| v.clamp(i128::from(i64::MIN / 4), i128::from(i64::MAX / 4)) as i64;
-            for (k, (slot, &r)) in sc.u.iter_mut().zip(rise_ticks).enumerate() {
+            for (k, (slot, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
                 let kk = clamp(kk0 + k as i128);
                 let u = clamp(i128::from(r) - i128::from(t0) - i128::from(kk) * i128::from(pref));
                 *slot = u;
                 fit.add(kk, u);
             }
-        }
+            0
+        };
         // batch sums of BATCH contiguous periods, a slice sum per completed batch
         let mut from = 0;
         while from < nr {
@@ -421,11 +415,11 @@ impl ClockState {
         if self.allan_countdown > nr as u64 {
             self.allan_countdown -= nr as u64;
         } else if let Some(al) = self.allan.as_mut() {
-            for &u in &sc.u[..nr] {
+            for &v in &sc.tmp[..nr] {
                 self.allan_countdown = self.allan_countdown.saturating_sub(1);
                 if self.allan_countdown == 0 {
                     self.allan_countdown = self.allan_every;
-                    al.push(u as f64 * self.tick_ns);
+                    al.push((u_off + v) as f64 * self.tick_ns);
                 }
             }
         }
@@ -445,8 +439,7 @@ impl ClockState {
             .iter_mut()
             .zip([(sum_p, nr), (sum_h, nf), (sum_l, nr)])
         {
-            seg.0 = seg.0.saturating_add(sum as u64);
-            seg.1 += cnt as u64;
+            seg_add(seg, sum as u64, cnt as u64);
         }
         // edges seen, and the channel's state after the step
         a.edges += n as u64;
@@ -457,11 +450,7 @@ impl ClockState {
         self.last_fall = Some(falls[nf]);
         self.prev_period = Some(period[nr - 1]);
         self.anchor = Some((rises[nr], kidx + nr as u64));
-        self.refresh += nr as u32;
-        if self.refresh >= REFRESH {
-            self.refresh = 0;
-            self.refresh_thresholds();
-        }
+        self.count_periods(nr as u32);
         true
     }
 }

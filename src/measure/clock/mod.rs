@@ -480,6 +480,16 @@ impl ClockState {
         self.acc.as_mut()
     }
 
+    /// `n` more periods: the refresh segment ends at [`REFRESH`] periods (or at the very first
+    /// period, which sets the thresholds at once) and the thresholds are refreshed.
+    fn count_periods(&mut self, n: u32) {
+        self.refresh += n;
+        if self.refresh >= REFRESH || self.refresh == 1 && self.stall_ticks == u64::MAX {
+            self.refresh = 0;
+            self.refresh_thresholds();
+        }
+    }
+
     /// The typical period, high and low become the means of the segment since the last
     /// refresh (a kind without samples keeps its value), then the thresholds follow them.
     fn refresh_thresholds(&mut self) {
@@ -642,7 +652,7 @@ impl ClockState {
             return;
         }
         if let Some(l) = low {
-            seg_add(&mut self.seg[2], l as u64);
+            seg_add(&mut self.seg[2], l as u64, 1);
             self.run.min_l = self.run.min_l.min(l as u64);
             let a = self.acc.as_mut().expect("block exists");
             a.low.add(l, t, idx);
@@ -662,7 +672,7 @@ impl ClockState {
     fn commit_fall(&mut self, t: u64) {
         if let Some(r) = self.last_rise {
             let h = (t - r) as i64;
-            seg_add(&mut self.seg[1], h as u64);
+            seg_add(&mut self.seg[1], h as u64, 1);
             if self.run.n > 0 {
                 self.run.sum_h += h as u64;
                 self.run.nh += 1;
@@ -683,12 +693,8 @@ impl ClockState {
     fn on_period(&mut self, t: u64, p: i64, idx: u64) {
         let k = idx - 1;
         let (pref, _, _) = self.refs.expect("refs set with the first period");
-        seg_add(&mut self.seg[0], p as u64);
-        self.refresh += 1;
-        if self.refresh >= REFRESH || self.refresh == 1 && self.stall_ticks == u64::MAX {
-            self.refresh = 0;
-            self.refresh_thresholds();
-        }
+        seg_add(&mut self.seg[0], p as u64, 1);
+        self.count_periods(1);
         let prev = self.prev_period.replace(p);
         // phase of this rising edge against the session's reference clock; the first period
         // also brings its opening edge into the fit
@@ -816,11 +822,11 @@ impl ClockState {
     }
 }
 
-/// Add one sample to a segment's (sum, count).
+/// Add `n` samples summing to `sum` to a segment's (sum, count).
 #[inline]
-fn seg_add(seg: &mut (u64, u64), x: u64) {
-    seg.0 = seg.0.saturating_add(x);
-    seg.1 += 1;
+fn seg_add(seg: &mut (u64, u64), sum: u64, n: u64) {
+    seg.0 = seg.0.saturating_add(sum);
+    seg.1 += n;
 }
 
 /// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
