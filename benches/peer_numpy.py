@@ -1,6 +1,7 @@
 #!/usr/bin/env python3
 """Peer for the measurement benchmark: the same clock statistics with NumPy, end to end
 (reading the raw little-endian u64 edge ticks, first edge rising, tick 8 ns).
+Needs NumPy (`pip install numpy`; not needed by the tests or CI).
 Run after `cargo bench --bench measure` (which writes the file):
     python3 benches/peer_numpy.py /tmp/slackmeter-peer-edges.u64
 """
