@@ -2,10 +2,10 @@
 """Peer for the measurement benchmark: the same clock statistics with NumPy, end to end
 (reading the raw little-endian u64 edge ticks, first edge rising, tick 8 ns).
 Needs NumPy (`pip install numpy`; not needed by the tests or CI).
-Run after `cargo bench --bench measure` (which writes the file):
-    python3 benches/peer_numpy.py /tmp/slackmeter-peer-edges.u64
+`cargo bench --bench peer` writes the file and runs this script beside the engine; by hand:
+    python3 benches/peer_numpy.py /tmp/slackmeter-peer-edges.u64 [--json]
 """
-import sys, time
+import json, sys, time
 import numpy as np
 
 def stats(path, tick_ns=8.0):
@@ -16,26 +16,34 @@ def stats(path, tick_ns=8.0):
     high = falls[:n] - rises[:n]
     low = rises[1:n] - falls[:n - 1]
     c2c = np.diff(period)
+    p1, p50, p99 = np.percentile(period, [1, 50, 99], method="inverted_cdf") * tick_ns
     return {
-        "period_mean_ns": period.mean() * tick_ns,
-        "period_min_ns": period.min() * tick_ns,
-        "period_max_ns": period.max() * tick_ns,
-        "high_min_ns": high.min() * tick_ns,
-        "low_min_ns": low.min() * tick_ns,
-        "duty": high.mean() / period.mean(),
-        "period_jitter_rms_ns": period.std(ddof=1) * tick_ns,
-        "cycle_to_cycle_rms_ns": np.sqrt(np.mean(c2c.astype(np.float64) ** 2)) * tick_ns,
-        "period_p1_p50_p99_ns": np.percentile(period, [1, 50, 99], method="inverted_cdf") * tick_ns,
-        "edges": len(t),
+        "period_mean_ns": float(period.mean() * tick_ns),
+        "period_min_ns": float(period.min() * tick_ns),
+        "period_max_ns": float(period.max() * tick_ns),
+        "high_min_ns": float(high.min() * tick_ns),
+        "low_min_ns": float(low.min() * tick_ns),
+        "duty": float(high.mean() / period.mean()),
+        "period_jitter_rms_ns": float(period.std(ddof=1) * tick_ns),
+        "cycle_to_cycle_rms_ns": float(np.sqrt(np.mean(c2c.astype(np.float64) ** 2)) * tick_ns),
+        "period_p1_ns": float(p1),
+        "period_p50_ns": float(p50),
+        "period_p99_ns": float(p99),
+        "edges": int(len(t)),
     }
 
 if __name__ == "__main__":
-    path = sys.argv[1] if len(sys.argv) > 1 else "/tmp/slackmeter-peer-edges.u64"
+    args = [a for a in sys.argv[1:] if a != "--json"]
+    path = args[0] if args else "/tmp/slackmeter-peer-edges.u64"
     best = float("inf")
     for _ in range(5):
         t0 = time.perf_counter()
         s = stats(path)
         best = min(best, time.perf_counter() - t0)
-    print(f"numpy: {s['edges']} edges in {best * 1e3:.1f} ms (best of 5): {s['edges'] / best / 1e6:.1f} M edges/s")
-    for k, v in s.items():
-        print(f"  {k}: {v}")
+    if "--json" in sys.argv:
+        print(json.dumps({"best_ms": best * 1e3, **s}))
+    else:
+        print(f"numpy: {s['edges']} edges in {best * 1e3:.1f} ms (best of 5): "
+              f"{s['edges'] / best / 1e6:.1f} M edges/s")
+        for k, v in s.items():
+            print(f"  {k}: {v}")

@@ -332,8 +332,15 @@ impl ClockState {
         let kk0 = i128::from(idx0) - i128::from(k0);
         let u0 = i128::from(rise_ticks[0]) - i128::from(t0) - kk0 * i128::from(pref);
         let r0 = rise_ticks[0];
-        for (k, (v, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
-            *v = (r - r0) as i64 - k as i64 * pref;
+        if let Ok(p32) = u32::try_from(pref) {
+            // k < CAP and a reference period below 2^32 ticks: 32×32-bit products
+            for (k, (v, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
+                *v = (r - r0) as i64 - (u64::from(k as u32) * u64::from(p32)) as i64;
+            }
+        } else {
+            for (k, (v, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
+                *v = (r - r0) as i64 - k as i64 * pref;
+            }
         }
         let v = &sc.tmp[..nr];
         let rv = RunSums::of(v);
@@ -351,7 +358,8 @@ impl ClockState {
             // Σk·v = Σk·(v − lo) + lo·Σk, the first in 32-bit products
             let mut ske = 0u64;
             for (k, &x) in v.iter().enumerate() {
-                ske += k as u64 * u64::from(x.wrapping_sub(rv.lo) as u32);
+                // k < CAP: a 32×32-bit product
+                ske += u64::from(k as u32) * u64::from(x.wrapping_sub(rv.lo) as u32);
             }
             let lo = i128::from(rv.lo);
             let sk = nr128 * (nr128 - 1) / 2;
@@ -415,13 +423,17 @@ impl ClockState {
         if self.allan_countdown > nr as u64 {
             self.allan_countdown -= nr as u64;
         } else if let Some(al) = self.allan.as_mut() {
-            for &v in &sc.tmp[..nr] {
-                self.allan_countdown = self.allan_countdown.saturating_sub(1);
-                if self.allan_countdown == 0 {
-                    self.allan_countdown = self.allan_every;
-                    al.push((u_off + v) as f64 * self.tick_ns);
-                }
+            // as the per-edge countdown: the first sample at period countdown − 1 (0 when
+            // 0), then every `allan_every`, the countdown left for after the step
+            let every = usize::try_from(self.allan_every.max(1)).unwrap_or(usize::MAX);
+            let mut k = self.allan_countdown.max(1) as usize - 1;
+            let mut last = k;
+            while k < nr {
+                al.push((u_off + sc.tmp[k]) as f64 * self.tick_ns);
+                last = k;
+                k = k.saturating_add(every);
             }
+            self.allan_countdown = (every - (nr - 1 - last)) as u64;
         }
         // the short run and the refresh segment
         let run = &mut self.run;

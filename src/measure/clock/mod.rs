@@ -864,7 +864,8 @@ fn tie_record_pkpk(t: &[u64], w: &mut Vec<i64>) -> (f64, f64, u64) {
         for (k, &v) in w.iter().enumerate() {
             let e = u64::from(v.wrapping_sub(wlo) as u32);
             se += e;
-            ske += k as u64 * e;
+            // k < 2^16: a 32×32-bit product
+            ske += u64::from(k as u32) * e;
             see += e * e;
         }
         let n128 = n as i128;
@@ -873,10 +874,26 @@ fn tie_record_pkpk(t: &[u64], w: &mut Vec<i64>) -> (f64, f64, u64) {
         let sxy = n128 * i128::from(ske) - sk * i128::from(se);
         let syy = n128 * i128::from(see) - i128::from(se) * i128::from(se);
         let b = sxy as f64 / sxx as f64;
-        for (k, &v) in w.iter().enumerate() {
-            let r = f64::from(v.wrapping_sub(wlo) as i32) - b * f64::from(k as i32);
+        // no NaN can occur (b is finite), so plain compares in four lanes give the extremes
+        let (mut lo4, mut hi4) = ([f64::INFINITY; 4], [f64::NEG_INFINITY; 4]);
+        let mut quads = w.chunks_exact(4);
+        let mut k = 0i32;
+        for q in &mut quads {
+            for (j, &v) in q.iter().enumerate() {
+                let r = f64::from(v.wrapping_sub(wlo) as i32) - b * f64::from(k + j as i32);
+                lo4[j] = if r < lo4[j] { r } else { lo4[j] };
+                hi4[j] = if r > hi4[j] { r } else { hi4[j] };
+            }
+            k += 4;
+        }
+        for (j, &v) in quads.remainder().iter().enumerate() {
+            let r = f64::from(v.wrapping_sub(wlo) as i32) - b * f64::from(k + j as i32);
             lo = lo.min(r);
             hi = hi.max(r);
+        }
+        for j in 0..4 {
+            lo = lo.min(lo4[j]);
+            hi = hi.max(hi4[j]);
         }
         return (
             hi - lo,
@@ -1334,7 +1351,7 @@ mod tests {
     #[test]
     fn tie_record_figures_match_plain_least_squares() {
         let mut x: u64 = 0x2545_F491_4F6C_DD1D;
-        for n in [3usize, 10, 1024] {
+        for n in [3usize, 7, 10, 1024] {
             let mut t = 1u64 << 41;
             let ticks: Vec<u64> = (0..n)
                 .map(|_| {
