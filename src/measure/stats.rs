@@ -23,11 +23,22 @@ impl RunSums {
     /// The sums of `x`.
     #[inline(always)]
     pub fn of(x: &[i64]) -> RunSums {
-        let (mut lo, mut hi) = (i64::MAX, i64::MIN);
-        for &v in x {
-            lo = lo.min(v);
-            hi = hi.max(v);
-        }
+        let (lo, hi) = extremes(x);
+        RunSums::about(x, lo, hi)
+    }
+
+    /// The sums of `x`, whose extremes `lo` and `hi` the caller found while making it (one
+    /// pass fewer).
+    #[inline(always)]
+    pub fn about(x: &[i64], lo: i64, hi: i64) -> RunSums {
+        RunSums::about_weighted(x, lo, hi, false).0
+    }
+
+    /// [`RunSums::about`], and with `weighted` also Σk·(x_k − lo) over k = 0, 1, … in the same
+    /// pass, when the run is narrow (range and length below 2^16; None otherwise).
+    #[inline(always)]
+    pub fn about_weighted(x: &[i64], lo: i64, hi: i64, weighted: bool) -> (RunSums, Option<u64>) {
+        debug_assert_eq!((lo, hi), extremes(x));
         let mut r = RunSums {
             n: x.len() as u64,
             lo,
@@ -36,10 +47,21 @@ impl RunSums {
             sum_ee: 0,
         };
         if x.is_empty() {
-            return r;
+            return (r, None);
         }
         // deviations below 2^16 square below 2^32: up to 2^31 of them sum exactly in u64
         let range = i128::from(hi) - i128::from(lo);
+        if range < 1 << 16 && x.len() < 1 << 16 && weighted {
+            let (mut s, mut ss, mut sk) = (0u64, 0u64, 0u64);
+            for (k, &v) in x.iter().enumerate() {
+                let e = u64::from(v.wrapping_sub(lo) as u32);
+                s += e;
+                ss += e * e;
+                sk += u64::from(k as u32) * e;
+            }
+            (r.sum_e, r.sum_ee) = (i128::from(s), i128::from(ss));
+            return (r, Some(sk));
+        }
         if range < 1 << 16 && x.len() < 1 << 31 {
             let (mut s, mut ss) = (0u64, 0u64);
             for &v in x {
@@ -55,13 +77,24 @@ impl RunSums {
                 r.sum_ee = r.sum_ee.saturating_add(e.saturating_mul(e));
             }
         }
-        r
+        (r, None)
     }
 
     /// Σx.
     pub fn sum(&self) -> i128 {
         self.sum_e + i128::from(self.n) * i128::from(self.lo)
     }
+}
+
+/// The smallest and largest of `x` ((i64::MAX, i64::MIN) when empty).
+#[inline(always)]
+pub fn extremes(x: &[i64]) -> (i64, i64) {
+    let (mut lo, mut hi) = (i64::MAX, i64::MIN);
+    for &v in x {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    (lo, hi)
 }
 
 /// Exact running statistics of integer samples (ticks): sums are kept as integers relative to a
@@ -121,10 +154,17 @@ impl IntStats {
     /// vectorise. Returns the run's [`RunSums`] (for callers' own tallies).
     #[inline(always)]
     pub fn add_run(&mut self, x: &[i64], ticks: &[u64], first_index: u64) -> RunSums {
-        debug_assert!(ticks.len() >= x.len());
         let r = RunSums::of(x);
+        self.add_sums(&r, x, ticks, first_index);
+        r
+    }
+
+    /// [`IntStats::add_run`] with the run's sums `r` already taken.
+    #[inline(always)]
+    pub fn add_sums(&mut self, r: &RunSums, x: &[i64], ticks: &[u64], first_index: u64) {
+        debug_assert!(ticks.len() >= x.len());
         if r.n == 0 {
-            return r;
+            return;
         }
         // Σ(x − o) and Σ(x − o)² from the sums about the run's minimum: c = lo − o
         let c = i128::from(r.lo) - i128::from(self.origin);
@@ -143,7 +183,6 @@ impl IntStats {
             self.max = r.hi;
             self.max_at = (ticks[i], first_index + i as u64);
         }
-        r
     }
 
     /// Fold another block (same origin) into this one; earliest extreme wins ties.
@@ -470,6 +509,17 @@ mod tests {
                 .map(|&v| (i128::from(v) - i128::from(lo)).pow(2))
                 .sum();
             assert_eq!((r.lo, r.sum_ee), (lo, ee), "{x:?}");
+            // the weighted pass: the same sums, and Σk·(x_k − lo) for narrow runs
+            let hi = *x.iter().max().unwrap();
+            let (rw, sk) = RunSums::about_weighted(x, lo, hi, true);
+            assert_eq!(rw, r, "{x:?}");
+            let want: i128 = x
+                .iter()
+                .enumerate()
+                .map(|(k, &v)| k as i128 * (i128::from(v) - i128::from(lo)))
+                .sum();
+            let narrow = i128::from(hi) - i128::from(lo) < 1 << 16;
+            assert_eq!(sk.map(i128::from), narrow.then_some(want), "{x:?}");
         }
     }
 

@@ -97,6 +97,20 @@ impl std::fmt::Debug for Scratch {
     }
 }
 
+/// `out[k] = a[k] − b[k]` (a later tick less an earlier one) for every k of `out`, and the
+/// extremes of what was written (taken in the same pass).
+#[inline(always)]
+fn diff_extremes(out: &mut [i64], a: &[u64], b: &[u64]) -> (i64, i64) {
+    debug_assert!(a.len() >= out.len() && b.len() >= out.len());
+    let (mut lo, mut hi) = (i64::MAX, i64::MIN);
+    for ((o, &x), &y) in out.iter_mut().zip(a).zip(b) {
+        *o = (x - y) as i64;
+        lo = lo.min(*o);
+        hi = hi.max(*o);
+    }
+    (lo, hi)
+}
+
 /// The fit's plain-arithmetic bound (see `FitSums::add`).
 const FIT_LIM: i128 = 1 << 40;
 
@@ -277,33 +291,36 @@ impl ClockState {
         }
         let rises = &sc.rises[..=nr];
         let falls = &sc.falls[..=nf];
-        // periods, lows, highs (a low ends at a rise, a high at a fall)
-        for k in 0..nr {
-            sc.period[k] = (rises[k + 1] - rises[k]) as i64;
-        }
+        // periods, lows, highs (a low ends at a rise, a high at a fall), each with its extremes
         let (low_from, high_from) = if pr { (0, 1) } else { (1, 0) };
-        for k in 0..nr {
-            sc.low[k] = (rises[k + 1] - falls[k + low_from]) as i64;
-        }
-        for k in 0..nf {
-            sc.high[k] = (falls[k + 1] - rises[k + high_from]) as i64;
-        }
+        let ep = diff_extremes(&mut sc.period[..nr], &rises[1..], rises);
+        let el = diff_extremes(&mut sc.low[..nr], &rises[1..], &falls[low_from..]);
+        let eh = diff_extremes(&mut sc.high[..nf], &falls[1..], &rises[high_from..]);
         let (period, low, high) = (&sc.period[..nr], &sc.low[..nr], &sc.high[..nf]);
         let rise_ticks = &rises[1..];
         let idx0 = kidx + 1;
-        let rp = a.period.add_run(period, rise_ticks, idx0);
+        let rp = RunSums::about(period, ep.0, ep.1);
+        a.period.add_sums(&rp, period, rise_ticks, idx0);
         a.hist_period.record_run(period, &rp);
-        let rl = a.low.add_run(low, rise_ticks, idx0);
+        let rl = RunSums::about(low, el.0, el.1);
+        a.low.add_sums(&rl, low, rise_ticks, idx0);
         a.hist_low.record_run(low, &rl);
-        let rh = a.high.add_run(high, &falls[1..], kidx + high_from as u64);
+        let rh = RunSums::about(high, eh.0, eh.1);
+        a.high
+            .add_sums(&rh, high, &falls[1..], kidx + high_from as u64);
         a.hist_high.record_run(high, &rh);
         let (sum_p, sum_l, sum_h) = (rp.sum(), rl.sum(), rh.sum());
-        // cycle to cycle
+        // cycle to cycle (extremes taken while the differences are made)
         sc.tmp[0] = period[0] - pp;
-        for k in 1..nr {
-            sc.tmp[k] = period[k] - period[k - 1];
+        let (mut lo, mut hi) = (sc.tmp[0], sc.tmp[0]);
+        for (o, w) in sc.tmp[1..nr].iter_mut().zip(period.windows(2)) {
+            *o = w[1] - w[0];
+            lo = lo.min(*o);
+            hi = hi.max(*o);
         }
-        a.c2c.add_run(&sc.tmp[..nr], rise_ticks, idx0);
+        let c2c = &sc.tmp[..nr];
+        a.c2c
+            .add_sums(&RunSums::about(c2c, lo, hi), c2c, rise_ticks, idx0);
         // N-cycle errors: rise k of this step against the rise N before it in the run
         self.rises.extend(rise_ticks);
         let all = self.rises.as_slice();
@@ -317,11 +334,16 @@ impl ClockState {
             let shift = nc as i64 * pref;
             let cur = &all[base + from..];
             let back = &all[base + from - nc..base + nr - nc];
+            let (mut lo, mut hi) = (i64::MAX, i64::MIN);
             for ((o, &c), &b) in sc.tmp.iter_mut().zip(cur).zip(back) {
                 *o = (c - b) as i64 - shift;
+                lo = lo.min(*o);
+                hi = hi.max(*o);
             }
-            a.ncycle[i].add_run(
-                &sc.tmp[..nr - from],
+            let e = &sc.tmp[..nr - from];
+            a.ncycle[i].add_sums(
+                &RunSums::about(e, lo, hi),
+                e,
                 &rise_ticks[from..],
                 idx0 + from as u64,
             );
@@ -332,18 +354,24 @@ impl ClockState {
         let kk0 = i128::from(idx0) - i128::from(k0);
         let u0 = i128::from(rise_ticks[0]) - i128::from(t0) - kk0 * i128::from(pref);
         let r0 = rise_ticks[0];
+        let (mut lo, mut hi) = (i64::MAX, i64::MIN);
         if let Ok(p32) = u32::try_from(pref) {
             // k < CAP and a reference period below 2^32 ticks: 32×32-bit products
             for (k, (v, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
                 *v = (r - r0) as i64 - (u64::from(k as u32) * u64::from(p32)) as i64;
+                lo = lo.min(*v);
+                hi = hi.max(*v);
             }
         } else {
             for (k, (v, &r)) in sc.tmp.iter_mut().zip(rise_ticks).enumerate() {
                 *v = (r - r0) as i64 - k as i64 * pref;
+                lo = lo.min(*v);
+                hi = hi.max(*v);
             }
         }
         let v = &sc.tmp[..nr];
-        let rv = RunSums::of(v);
+        // Σk·(v − lo) in the same pass as the sums when the offsets are narrow
+        let (rv, ske) = RunSums::about_weighted(v, lo, hi, true);
         let fit = &mut a.fit;
         let nr128 = nr as i128;
         let u_off = if !fit.big
@@ -352,15 +380,10 @@ impl ClockState {
             && u0.abs() < FIT_LIM / 2
             && rv.lo > -(1 << 26)
             && rv.hi < 1 << 26
-            && rv.hi - rv.lo < 1 << 16
             && fit.n + nr128 <= FIT_LIM
+            && let Some(ske) = ske
         {
-            // Σk·v = Σk·(v − lo) + lo·Σk, the first in 32-bit products
-            let mut ske = 0u64;
-            for (k, &x) in v.iter().enumerate() {
-                // k < CAP: a 32×32-bit product
-                ske += u64::from(k as u32) * u64::from(x.wrapping_sub(rv.lo) as u32);
-            }
+            // Σk·v = Σk·(v − lo) + lo·Σk
             let lo = i128::from(rv.lo);
             let sk = nr128 * (nr128 - 1) / 2;
             let sv = rv.sum();

@@ -830,15 +830,20 @@ fn seg_add(seg: &mut (u64, u64), sum: u64, n: u64) {
 }
 
 /// Peak-to-peak and sum of squares of residuals of edge times against their own least-squares
-/// line (a detrended TIE record), in ticks. The chord through the record's ends is taken out in
-/// integers first (residuals do not change when a line is removed), leaving small numbers in
-/// `w` (a reused buffer); the sums are exact integers, the extremes one floating-point pass.
+/// line (a detrended TIE record), in ticks. A record spanning less than 2^26 ticks takes two
+/// passes: exact integer sums of the offsets from its first edge (the sum of squared residuals
+/// follows exactly from them), then the extremes in floating point. Otherwise the chord through
+/// the record's ends is taken out in integers first (residuals do not change when a line is
+/// removed), leaving small numbers in `w` (a reused buffer).
 #[inline(always)]
 fn tie_record_pkpk(t: &[u64], w: &mut Vec<i64>) -> (f64, f64, u64) {
     let n = t.len();
     if n < 3 {
         // a line passes through one or two points exactly
         return (0.0, 0.0, n as u64);
+    }
+    if let Some(r) = tie_record_short(t) {
+        return r;
     }
     let t0 = t[0];
     let step = t[n - 1].wrapping_sub(t0) / (n as u64 - 1);
@@ -918,6 +923,63 @@ fn tie_record_pkpk(t: &[u64], w: &mut Vec<i64>) -> (f64, f64, u64) {
         hi = hi.max(r);
     }
     (hi - lo, (sww - sw * sw / nf - sxy * b).max(0.0), n as u64)
+}
+
+/// [`tie_record_pkpk`] for a record of 3…4095 edges within 2^26 ticks of its first (None
+/// otherwise): offsets y below 2^26 over k < 2^12 keep Σy, Σk·y and Σy² exact in u64.
+#[inline(always)]
+fn tie_record_short(t: &[u64]) -> Option<(f64, f64, u64)> {
+    let n = t.len();
+    if !(3..1 << 12).contains(&n) {
+        return None;
+    }
+    let t0 = t[0];
+    // wrapping sums, trusted only when every offset is below 2^26 (their OR is)
+    let (mut or, mut se, mut ske, mut see) = (0u64, 0u64, 0u64, 0u64);
+    for (k, &x) in t.iter().enumerate() {
+        let y = x.wrapping_sub(t0);
+        or |= y;
+        let y32 = u64::from(y as u32);
+        se = se.wrapping_add(y32);
+        ske = ske.wrapping_add(u64::from(k as u32) * y32);
+        see = see.wrapping_add(y32 * y32);
+    }
+    if or >= 1 << 26 {
+        return None;
+    }
+    // n·(centred sums): sxx = n·Σ(k − k̄)², sxy = n·Σ(k − k̄)(y − ȳ), syy = n·Σ(y − ȳ)²
+    let n128 = n as i128;
+    let sk = n128 * (n128 - 1) / 2;
+    let sxx = n128 * n128 * (n128 * n128 - 1) / 12;
+    let sxy = n128 * i128::from(ske) - sk * i128::from(se);
+    let syy = n128 * i128::from(see) - i128::from(se) * i128::from(se);
+    // the residual sum of squares, (syy·sxx − sxy²) / (n·sxx), with an exact numerator
+    // (below 2^125 for these bounds)
+    let ss = (syy * sxx - sxy * sxy).max(0) as f64 / (n128 * sxx) as f64;
+    let b = sxy as f64 / sxx as f64;
+    // no NaN can occur (b is finite), so plain compares in four lanes give the extremes
+    let (mut lo4, mut hi4) = ([f64::INFINITY; 4], [f64::NEG_INFINITY; 4]);
+    let mut quads = t.chunks_exact(4);
+    let mut k = 0i32;
+    for q in &mut quads {
+        for (j, &x) in q.iter().enumerate() {
+            let r = f64::from(x.wrapping_sub(t0) as i32) - b * f64::from(k + j as i32);
+            lo4[j] = if r < lo4[j] { r } else { lo4[j] };
+            hi4[j] = if r > hi4[j] { r } else { hi4[j] };
+        }
+        k += 4;
+    }
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for (j, &x) in quads.remainder().iter().enumerate() {
+        let r = f64::from(x.wrapping_sub(t0) as i32) - b * f64::from(k + j as i32);
+        lo = lo.min(r);
+        hi = hi.max(r);
+    }
+    for j in 0..4 {
+        lo = lo.min(lo4[j]);
+        hi = hi.max(hi4[j]);
+    }
+    Some((hi - lo, ss, n as u64))
 }
 
 /// Residuals (in ticks) of edge times against their own least-squares line: the TIE of a
@@ -1351,17 +1413,26 @@ mod tests {
     #[test]
     fn tie_record_figures_match_plain_least_squares() {
         let mut x: u64 = 0x2545_F491_4F6C_DD1D;
-        for n in [3usize, 7, 10, 1024] {
+        // short records (two-pass sums), and ones too long or too wide for them
+        for (n, step, short) in [
+            (3usize, 1000, true),
+            (7, 1000, true),
+            (10, 1000, true),
+            (1024, 1000, true),
+            (1024, 1 << 17, false),
+            (5000, 1000, false),
+        ] {
             let mut t = 1u64 << 41;
             let ticks: Vec<u64> = (0..n)
                 .map(|_| {
                     x ^= x << 13;
                     x ^= x >> 7;
                     x ^= x << 17;
-                    t += 1000 + x % 7;
+                    t += step + x % 7;
                     t
                 })
                 .collect();
+            assert_eq!(tie_record_short(&ticks).is_some(), short, "{n} × {step}");
             let r = detrended(&ticks);
             let lo = r.iter().copied().fold(f64::INFINITY, f64::min);
             let hi = r.iter().copied().fold(f64::NEG_INFINITY, f64::max);
