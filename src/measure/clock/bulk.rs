@@ -97,6 +97,49 @@ impl std::fmt::Debug for Scratch {
     }
 }
 
+/// The bounds of a bulk step from the steady state (see [`ClockState::steady`]).
+struct Steady {
+    /// The pending edge's tick.
+    pt: u64,
+    /// Shortest gap closing a low pulse (at a rise), and a high pulse (at a fall).
+    gl: u64,
+    gh: u64,
+    /// Longest gap (a stall beyond).
+    hi: u64,
+    /// Rises the stretch may commit before the refresh segment ends.
+    max_rises: usize,
+    /// Last tick a committed rise may have (the short run's end).
+    run_limit: u64,
+    /// Most edges in one step.
+    n_max: usize,
+}
+
+impl Steady {
+    /// The edges a clean stretch would take when no gap or run boundary stops it first: up to
+    /// and including the fall that completes the refresh segment (each fall commits the rise
+    /// before it; the m-th fall is edge 2m − 1 when the first edge rises, else 2m − 2).
+    fn limit(&self, rising: bool) -> usize {
+        let m = self.max_rises;
+        let last_fall = if rising { 2 * m - 1 } else { 2 * m - 2 };
+        self.n_max.min(last_fall + 1)
+    }
+
+    /// Whether a stretch whose committed gaps have these extremes, the last edge this gap and
+    /// polarity, and the latest committed rise this tick, is clean (what the scan in
+    /// `clean_len` finds edge by edge).
+    fn clean(&self, low: (i64, i64), high: (i64, i64), last: (u64, bool), rise: u64) -> bool {
+        let within = |(lo, hi): (i64, i64), least: u64| {
+            i128::from(lo) >= i128::from(least) && i128::from(hi) <= i128::from(self.hi)
+        };
+        let (gap, is_rise) = last;
+        let least = if is_rise { self.gl } else { self.gh };
+        within(low, self.gl)
+            && within(high, self.gh)
+            && (least..=self.hi).contains(&gap)
+            && rise <= self.run_limit
+    }
+}
+
 /// `out[k] = a[k] − b[k]` (a later tick less an earlier one) for every k of `out`, and the
 /// extremes of what was written (taken in the same pass).
 #[inline(always)]
@@ -104,7 +147,8 @@ fn diff_extremes(out: &mut [i64], a: &[u64], b: &[u64]) -> (i64, i64) {
     debug_assert!(a.len() >= out.len() && b.len() >= out.len());
     let (mut lo, mut hi) = (i64::MAX, i64::MIN);
     for ((o, &x), &y) in out.iter_mut().zip(a).zip(b) {
-        *o = (x - y) as i64;
+        // wrapping: a stretch not yet checked may run backwards (then the gap is refused)
+        *o = x.wrapping_sub(y) as i64;
         lo = lo.min(*o);
         hi = hi.max(*o);
     }
@@ -141,9 +185,20 @@ impl ClockState {
         let (mut i, mut steps) = (0, 0);
         let mut rising = first_rising;
         while i < ticks.len() {
+            // first the longest stretch the steady state allows, its gaps checked after the
+            // arrays are made (a stretch is almost always clean); if that fails, the scan
+            if let Some(st) = self.steady(ticks.len() - i, rising) {
+                let n = st.limit(rising);
+                if n >= 2 && self.bulk(&ticks[i..i + n], rising, Some(&st)) {
+                    steps += 1;
+                    i += n;
+                    rising ^= n % 2 == 1;
+                    continue;
+                }
+            }
             let n = self.clean_len(&ticks[i..], rising);
             if n >= 2 {
-                if self.bulk(&ticks[i..i + n], rising) {
+                if self.bulk(&ticks[i..i + n], rising, None) {
                     steps += 1;
                 } else {
                     for (k, &t) in ticks[i..i + n].iter().enumerate() {
@@ -161,14 +216,14 @@ impl ClockState {
         steps
     }
 
-    /// How many of the edges `t` (the first rising when `rising`) the bulk path may take from
-    /// this state: 0 unless the channel is in its steady state, else the clean prefix.
+    /// The bounds a bulk step from this state works within (for a batch of `len` edges, the
+    /// first rising when `rising`); None unless the channel is in its steady state.
     #[inline(always)]
-    fn clean_len(&self, t: &[u64], rising: bool) -> usize {
+    fn steady(&self, len: usize, rising: bool) -> Option<Steady> {
         let (Some((pt, pr)), Some(lr), Some(lf), Some(le)) =
             (self.pending, self.last_rise, self.last_fall, self.last_edge)
         else {
-            return 0;
+            return None;
         };
         if pr == rising
             || self.suspect.is_some()
@@ -182,23 +237,47 @@ impl ClockState {
             || self.refresh >= REFRESH
             || self.anchor.map(|a| a.0) != Some(lr)
         {
-            return 0;
+            return None;
         }
         // the committed edges alternate: the newest has the pending edge's other polarity
         let (newer, older) = if pr { (lf, lr) } else { (lr, lf) };
         let hi = self.stall_ticks.min(MAX_GAP_TICKS);
         let (gh, gl) = (self.glitch_high_ticks.max(1), self.glitch_low_ticks.max(1));
         if le != newer || older >= newer || pt <= le || pt - le > hi || hi < gh.max(gl) {
-            return 0;
+            return None;
         }
+        Some(Steady {
+            pt,
+            gl,
+            gh,
+            hi,
+            max_rises: (REFRESH - self.refresh) as usize,
+            run_limit: self.run.start.saturating_add(self.run_ticks),
+            n_max: len.min(2 * REFRESH as usize),
+        })
+    }
+
+    /// How many of the edges `t` (the first rising when `rising`) the bulk path may take from
+    /// this state: 0 unless the channel is in its steady state, else the clean prefix.
+    #[inline(always)]
+    fn clean_len(&self, t: &[u64], rising: bool) -> usize {
+        let Some(Steady {
+            pt,
+            gl,
+            gh,
+            hi,
+            max_rises,
+            run_limit,
+            n_max,
+        }) = self.steady(t.len(), rising)
+        else {
+            return 0;
+        };
         // a gap is fine when not shorter than the glitch threshold of the pulse it closes (a
         // rise closes a low pulse) and not longer than a stall: one unsigned compare, which
         // also refuses time running backwards (the difference wraps around)
         let (lo_even, lo_odd) = if rising { (gl, gh) } else { (gh, gl) };
         let bad = |gap: u64, lo: u64| gap.wrapping_sub(lo) > hi - lo;
-        let max_rises = (REFRESH - self.refresh) as usize;
-        let run_limit = self.run.start.saturating_add(self.run_ticks);
-        let n_max = t.len().min(2 * REFRESH as usize);
         let (mut j, mut prev, mut rises) = (0usize, pt, 0usize);
         // blocks of 8 cycles, checked without branches
         while j + 16 <= n_max && rises + 8 < max_rises {
@@ -239,11 +318,13 @@ impl ClockState {
         n_max
     }
 
-    /// Take a clean stretch (from [`ClockState::clean_len`], at least two edges): the pending
-    /// edge and all but the last of `t` are committed, the last becomes pending. False (and
-    /// nothing done) when the state is not the steady one after all.
+    /// Take a clean stretch (at least two edges): the pending edge and all but the last of `t`
+    /// are committed, the last becomes pending. With `check`, `t` is only the longest stretch
+    /// the state allows and is checked once its arrays are made; without, it comes from
+    /// [`ClockState::clean_len`]. False (and nothing done) when the state is not the steady
+    /// one after all, or the check fails.
     #[inline(always)]
-    fn bulk(&mut self, t: &[u64], rising: bool) -> bool {
+    fn bulk(&mut self, t: &[u64], rising: bool, check: Option<&Steady>) -> bool {
         let n = t.len();
         let (
             Some((pt, pr)),
@@ -296,6 +377,20 @@ impl ClockState {
         let ep = diff_extremes(&mut sc.period[..nr], &rises[1..], rises);
         let el = diff_extremes(&mut sc.low[..nr], &rises[1..], &falls[low_from..]);
         let eh = diff_extremes(&mut sc.high[..nf], &falls[1..], &rises[high_from..]);
+        if let Some(st) = check {
+            // every committed gap is a low or a high; then the last edge's own gap, and the
+            // newest rise a fall commits (the rises of a clean stretch increase)
+            let last_rises = rising ^ (n % 2 == 0);
+            let last = (t[n - 1].wrapping_sub(t[n - 2]), last_rises);
+            let newest = match (last_rises, n) {
+                (false, _) => t[n - 2],
+                (true, 2) => st.pt,
+                (true, _) => t[n - 3],
+            };
+            if !st.clean(el, eh, last, newest) {
+                return false;
+            }
+        }
         let (period, low, high) = (&sc.period[..nr], &sc.low[..nr], &sc.high[..nf]);
         let rise_ticks = &rises[1..];
         let idx0 = kidx + 1;

@@ -957,21 +957,25 @@ fn tie_record_short(t: &[u64]) -> Option<(f64, f64, u64)> {
     // (below 2^125 for these bounds)
     let ss = (syy * sxx - sxy * sxy).max(0) as f64 / (n128 * sxx) as f64;
     let b = sxy as f64 / sxx as f64;
+    // y as f64 exactly: below 2^52, its bits under the exponent of 2^52, less 2^52 (no
+    // 64-bit integer conversion in these vector units); k counts in f64, also exactly
+    const TWO_52: u64 = 0x4330_0000_0000_0000;
+    let as_f64 = |y: u64| f64::from_bits(y | TWO_52) - f64::from_bits(TWO_52);
     // no NaN can occur (b is finite), so plain compares in four lanes give the extremes
     let (mut lo4, mut hi4) = ([f64::INFINITY; 4], [f64::NEG_INFINITY; 4]);
+    let mut kf = [0.0, 1.0, 2.0, 3.0];
     let mut quads = t.chunks_exact(4);
-    let mut k = 0i32;
     for q in &mut quads {
         for (j, &x) in q.iter().enumerate() {
-            let r = f64::from(x.wrapping_sub(t0) as i32) - b * f64::from(k + j as i32);
+            let r = as_f64(x.wrapping_sub(t0)) - b * kf[j];
             lo4[j] = if r < lo4[j] { r } else { lo4[j] };
             hi4[j] = if r > hi4[j] { r } else { hi4[j] };
+            kf[j] += 4.0;
         }
-        k += 4;
     }
     let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
     for (j, &x) in quads.remainder().iter().enumerate() {
-        let r = f64::from(x.wrapping_sub(t0) as i32) - b * f64::from(k + j as i32);
+        let r = as_f64(x.wrapping_sub(t0)) - b * kf[j];
         lo = lo.min(r);
         hi = hi.max(r);
     }
