@@ -17,7 +17,7 @@ const EDGES_PER_FRAME: usize = 1000;
 
 #[divan::bench]
 fn clock_stats_from_decoded_edges(bencher: divan::Bencher) {
-    let (bytes, _) = frames(2.0);
+    let (bytes, _) = frames(2.0, 1.0);
     let t = ticks(&bytes);
     bencher.counter(ItemsCount::new(t.len())).bench_local(|| {
         // in batches of a full EDGES frame's size, as the engine hands them over
@@ -31,7 +31,7 @@ fn clock_stats_from_decoded_edges(bencher: divan::Bencher) {
 
 #[divan::bench]
 fn decode_and_engine_from_raw_frames(bencher: divan::Bencher) {
-    let (bytes, edges) = frames(2.0);
+    let (bytes, edges) = frames(2.0, 1.0);
     bencher.counter(ItemsCount::new(edges)).bench_local(|| {
         let mut f = Feed::new(EngineConfig::default());
         for chunk in bytes.chunks(64 * 1024) {

@@ -11,16 +11,18 @@ import numpy as np
 def stats(path, tick_ns=8.0):
     t = np.fromfile(path, dtype="<u8").astype(np.int64)
     rises, falls = t[0::2], t[1::2]
-    n = min(len(rises), len(falls))
     period = np.diff(rises)
+    # complete cycles only (rise, fall, next rise): their high and low times
+    n = min(len(period), len(falls))
     high = falls[:n] - rises[:n]
-    low = rises[1:n] - falls[:n - 1]
+    low = rises[1:n + 1] - falls[:n]
     c2c = np.diff(period)
     p1, p50, p99 = np.percentile(period, [1, 50, 99], method="inverted_cdf") * tick_ns
     return {
         "period_mean_ns": float(period.mean() * tick_ns),
         "period_min_ns": float(period.min() * tick_ns),
         "period_max_ns": float(period.max() * tick_ns),
+        "high_mean_ns": float(high.mean() * tick_ns),
         "high_min_ns": float(high.min() * tick_ns),
         "low_min_ns": float(low.min() * tick_ns),
         "duty": float(high.mean() / period.mean()),
@@ -30,6 +32,7 @@ def stats(path, tick_ns=8.0):
         "period_p50_ns": float(p50),
         "period_p99_ns": float(p99),
         "edges": int(len(t)),
+        "periods": int(period.size),
     }
 
 if __name__ == "__main__":

@@ -2,11 +2,11 @@
 
 use slackmeter::sim::{BenchModel, SimProbe};
 
-/// Probe frames of `seconds` of the steady demo clock (1 ns RMS jitter, no rails), and how many
+/// Probe frames of `seconds` of the steady demo clock (no rails) with this jitter, and how many
 /// edges they carry.
-pub fn frames(seconds: f64) -> (Vec<u8>, u64) {
+pub fn frames(seconds: f64, jitter_rms_ns: f64) -> (Vec<u8>, u64) {
     let mut m = BenchModel::scenario("steady").expect("the steady scenario exists");
-    m.jitter_rms_ns = 1.0;
+    m.jitter_rms_ns = jitter_rms_ns;
     m.rails.clear();
     let mut p = SimProbe::new(m, Vec::new());
     p.start();

@@ -288,11 +288,12 @@ impl DevHistogram {
     }
 
     /// Record every sample of `x`, whose run sums are `r`: the same as [`DevHistogram::record`]
-    /// in turn. A narrow run is counted in a small local table with
-    /// four interleaved lanes first, so that repeats of one value do not queue on one counter.
+    /// in turn. A run less than 128 ticks wide inside the dense range is counted in a local table
+    /// with four interleaved lanes first, so that repeats of one value do not queue on one
+    /// counter (one or two values: from the run's sums alone).
     #[inline(always)]
     pub fn record_run(&mut self, x: &[i64], r: &RunSums) {
-        const W: usize = 16;
+        const W: usize = 128;
         let (lo, hi) = (r.lo, r.hi);
         if x.is_empty() {
             return;
@@ -480,11 +481,13 @@ mod tests {
     /// values, inside and outside the dense histogram) give what one-at-a-time calls give.
     #[test]
     fn run_helpers_equal_one_sample_at_a_time() {
-        let runs: [Vec<i64>; 6] = [
+        let runs: [Vec<i64>; 8] = [
             vec![500; 9],
             (0..37).map(|i| 500 + i % 2).collect(),
             (0..41).map(|i| 495 + (i * 7) % 13).collect(),
             (0..50).map(|i| 400 + (i * 31) % 90).collect(),
+            (0..70).map(|i| 440 + (i * 53) % 128).collect(),
+            (0..60).map(|i| (i * 37) % 1000).collect(),
             (0..30)
                 .map(|i| 500 + (i * 7919) % 300_000 - 150_000)
                 .collect(),

@@ -368,11 +368,15 @@ impl ClockState {
             (&mut sc.falls, &mut sc.rises)
         };
         first[1] = pt;
-        for (k, x) in first[2..=n.div_ceil(2)].iter_mut().enumerate() {
-            *x = t[2 * k + 1];
-        }
-        for (k, x) in second[1..=n / 2].iter_mut().enumerate() {
-            *x = t[2 * k];
+        // pairs (t[2k], t[2k + 1]): when n is even the last pair's second edge is the pending
+        // one, written one past the committed ones and not read
+        for ((p, f), s) in t
+            .chunks_exact(2)
+            .zip(first[2..].iter_mut())
+            .zip(second[1..].iter_mut())
+        {
+            *s = p[0];
+            *f = p[1];
         }
         let rises = &sc.rises[..=nr];
         let falls = &sc.falls[..=nf];
