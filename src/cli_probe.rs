@@ -563,6 +563,28 @@ pub struct ListenArgs {
     pub settings: Vec<firmware_protocol::Configure>,
 }
 
+/// A real probe's port options, shared by `record` and `watch` (both also have `--sim`).
+#[derive(clap::Args, Debug, Clone)]
+pub struct PortArgs {
+    /// Baud rate of the port.
+    #[arg(long, default_value_t = 1_000_000)]
+    pub baud: u32,
+    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; see
+    /// `slackmeter listen --help`; not with --sim, whose settings are its own flags).
+    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = probe_setting, conflicts_with = "sim")]
+    pub settings: Vec<firmware_protocol::Configure>,
+}
+
+impl PortArgs {
+    /// The link to the probe on `port` with these options.
+    pub fn link_config(&self, port: impl Into<PathBuf>) -> LinkConfig {
+        let mut cfg = LinkConfig::new(port);
+        cfg.baud = self.baud;
+        cfg.configure = self.settings.clone();
+        cfg
+    }
+}
+
 /// `slackmeter listen PORT`: handshake, then a running count of what the probe sends.
 pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
     let stop = interrupt_flag();

@@ -10,7 +10,7 @@ use miette::{IntoDiagnostic, Result, miette};
 
 use crate::budget::design::{DEMO_DESIGN, DEMO_NAME};
 use crate::cli_probe::{SimModelArgs, build_model, interrupt_flag, pos_time};
-use crate::link::{Link, LinkConfig, LinkEvent, host_ns_now};
+use crate::link::{Link, LinkEvent, host_ns_now};
 use crate::measure::{EngineConfig, Feed, Window};
 use crate::record::{EmbeddedDesign, Header, Recorder, Recording, ReplayOptions};
 use crate::sim::SimProbe;
@@ -35,13 +35,9 @@ pub struct RecordArgs {
     /// A note stored in the file (repeatable).
     #[arg(long)]
     pub note: Vec<String>,
-    /// Baud rate of the port.
-    #[arg(long, default_value_t = 1_000_000)]
-    pub baud: u32,
-    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; see
-    /// `slackmeter listen --help`; not with --sim, whose settings are its own flags).
-    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = crate::cli_probe::probe_setting, conflicts_with = "sim")]
-    pub settings: Vec<firmware_protocol::Configure>,
+    /// A real probe's port options.
+    #[command(flatten)]
+    pub port_options: crate::cli_probe::PortArgs,
     /// With --sim: generate as fast as possible, host times following simulated time (for
     /// making files; the content is the same as a paced run).
     #[arg(long)]
@@ -179,10 +175,7 @@ pub fn record_cmd(a: RecordArgs) -> Result<i32> {
     let port = a.port.clone().expect("checked");
     let h = header(&a, format!("probe on {}", port.display()), None)?;
     let rec = Recorder::create(&a.output, &h).map_err(miette::Report::new)?;
-    let mut cfg = LinkConfig::new(&port);
-    cfg.baud = a.baud;
-    cfg.configure = a.settings.clone();
-    let mut link = Link::start(cfg, 1024);
+    let mut link = Link::start(a.port_options.link_config(&port), 1024);
     loop {
         if stop.load(Ordering::Relaxed) || deadline.is_some_and(|d| started.elapsed() >= d) {
             break;

@@ -6,7 +6,6 @@ use miette::{Result, miette};
 
 use crate::budget::{Design, Library};
 use crate::cli_probe::{SimModelArgs, build_model};
-use crate::link::LinkConfig;
 use crate::tui::run::{Options, SourceSpec, run};
 
 /// Options of `watch`.
@@ -23,13 +22,9 @@ pub struct WatchArgs {
     /// Record from the start into this file (R starts/stops recording anyway).
     #[arg(long, value_name = "FILE")]
     pub record: Option<PathBuf>,
-    /// Baud rate of the port.
-    #[arg(long, default_value_t = 1_000_000)]
-    pub baud: u32,
-    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; see
-    /// `slackmeter listen --help`; not with --sim, whose settings are its own flags).
-    #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = crate::cli_probe::probe_setting, conflicts_with = "sim")]
-    pub settings: Vec<firmware_protocol::Configure>,
+    /// A real probe's port options.
+    #[command(flatten)]
+    pub port_options: crate::cli_probe::PortArgs,
     /// Show no slack (no design).
     #[arg(long)]
     pub no_design: bool,
@@ -73,10 +68,7 @@ pub fn watch_cmd(a: WatchArgs) -> Result<i32> {
         let (m, notes) = build_model(&a.model)?;
         SourceSpec::Sim(m, notes)
     } else {
-        let mut cfg = LinkConfig::new(a.port.clone().expect("checked"));
-        cfg.baud = a.baud;
-        cfg.configure = a.settings.clone();
-        SourceSpec::Port(cfg)
+        SourceSpec::Port(a.port_options.link_config(a.port.clone().expect("checked")))
     };
     run(Options {
         source,
