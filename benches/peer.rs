@@ -16,7 +16,7 @@ const PEER_FILE: &str = "/tmp/slackmeter-peer-edges.u64";
 /// Edges per read (64 KiB).
 const READ_EDGES: usize = 8192;
 /// Rounds of (engine best of `RUNS`, peer best of 5).
-const ROUNDS: usize = 3;
+const ROUNDS: usize = 5;
 const RUNS: usize = 7;
 
 fn main() {
