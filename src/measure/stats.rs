@@ -20,15 +20,8 @@ pub struct RunSums {
 }
 
 impl RunSums {
-    /// The sums of `x`.
-    #[inline(always)]
-    pub fn of(x: &[i64]) -> RunSums {
-        let (lo, hi) = extremes(x);
-        RunSums::about(x, lo, hi)
-    }
-
-    /// The sums of `x`, whose extremes `lo` and `hi` the caller found while making it (one
-    /// pass fewer).
+    /// The sums of `x`, whose extremes `lo` and `hi` ([`extremes`]) the caller found while
+    /// making it (one pass fewer).
     #[inline(always)]
     pub fn about(x: &[i64], lo: i64, hi: i64) -> RunSums {
         RunSums::about_weighted(x, lo, hi, false).0
@@ -51,24 +44,14 @@ impl RunSums {
         }
         // deviations below 2^16 square below 2^32: up to 2^31 of them sum exactly in u64
         let range = i128::from(hi) - i128::from(lo);
+        // (with the weights k < 2^16 too: k·(x − lo) below 2^32)
         if range < 1 << 16 && x.len() < 1 << 16 && weighted {
-            let (mut s, mut ss, mut sk) = (0u64, 0u64, 0u64);
-            for (k, &v) in x.iter().enumerate() {
-                let e = u64::from(v.wrapping_sub(lo) as u32);
-                s += e;
-                ss += e * e;
-                sk += u64::from(k as u32) * e;
-            }
+            let (s, ss, sk) = narrow_sums::<true>(x, lo);
             (r.sum_e, r.sum_ee) = (i128::from(s), i128::from(ss));
             return (r, Some(sk));
         }
         if range < 1 << 16 && x.len() < 1 << 31 {
-            let (mut s, mut ss) = (0u64, 0u64);
-            for &v in x {
-                let e = u64::from(v.wrapping_sub(lo) as u32);
-                s += e;
-                ss += e * e;
-            }
+            let (s, ss, _) = narrow_sums::<false>(x, lo);
             (r.sum_e, r.sum_ee) = (i128::from(s), i128::from(ss));
         } else {
             for &v in x {
@@ -84,6 +67,23 @@ impl RunSums {
     pub fn sum(&self) -> i128 {
         self.sum_e + i128::from(self.n) * i128::from(self.lo)
     }
+}
+
+/// Σe, Σe² and, when `WEIGHTED`, Σk·e of the deviations e_k = x_k − lo; one loop, compiled
+/// twice. The caller keeps them exact: every e below 2^32 and each sum below 2^64 (e.g. e below
+/// 2^16 over fewer than 2^16 samples, as [`RunSums::about_weighted`]).
+#[inline(always)]
+pub fn narrow_sums<const WEIGHTED: bool>(x: &[i64], lo: i64) -> (u64, u64, u64) {
+    let (mut s, mut ss, mut sk) = (0u64, 0u64, 0u64);
+    for (k, &v) in x.iter().enumerate() {
+        let e = u64::from(v.wrapping_sub(lo) as u32);
+        s += e;
+        ss += e * e;
+        if WEIGHTED {
+            sk += u64::from(k as u32) * e;
+        }
+    }
+    (s, ss, sk)
 }
 
 /// The smallest and largest of `x` ((i64::MAX, i64::MIN) when empty).
@@ -150,16 +150,8 @@ impl IntStats {
     }
 
     /// Add `x[i]`, which ended at `ticks[i]` and is the `first_index + i`-th of its kind, for
-    /// every i: exactly what [`IntStats::add`] in turn gives, in a few passes the compiler can
-    /// vectorise. Returns the run's [`RunSums`] (for callers' own tallies).
-    #[inline(always)]
-    pub fn add_run(&mut self, x: &[i64], ticks: &[u64], first_index: u64) -> RunSums {
-        let r = RunSums::of(x);
-        self.add_sums(&r, x, ticks, first_index);
-        r
-    }
-
-    /// [`IntStats::add_run`] with the run's sums `r` already taken.
+    /// every i, given the run's sums `r`: exactly what [`IntStats::add`] in turn gives, without
+    /// a pass over the run (but to find where a new extreme lies).
     #[inline(always)]
     pub fn add_sums(&mut self, r: &RunSums, x: &[i64], ticks: &[u64], first_index: u64) {
         debug_assert!(ticks.len() >= x.len());
@@ -501,7 +493,9 @@ mod tests {
                 one.add(v, ticks[i], 7 + i as u64);
                 h_one.record(v);
             }
-            let r = bulk.add_run(x, &ticks, 7);
+            let (lo, hi) = extremes(x);
+            let r = RunSums::about(x, lo, hi);
+            bulk.add_sums(&r, x, &ticks, 7);
             h_bulk.record_run(x, &r);
             assert_eq!(one, bulk, "{x:?}");
             assert!(h_one == h_bulk, "{x:?}");
@@ -513,7 +507,7 @@ mod tests {
                 .sum();
             assert_eq!((r.lo, r.sum_ee), (lo, ee), "{x:?}");
             // the weighted pass: the same sums, and Σk·(x_k − lo) for narrow runs
-            let hi = *x.iter().max().unwrap();
+            assert_eq!(hi, *x.iter().max().unwrap(), "{x:?}");
             let (rw, sk) = RunSums::about_weighted(x, lo, hi, true);
             assert_eq!(rw, r, "{x:?}");
             let want: i128 = x

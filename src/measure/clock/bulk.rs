@@ -190,17 +190,21 @@ impl ClockState {
         while i < ticks.len() {
             // first the longest stretch the steady state allows, its gaps checked after the
             // arrays are made (a stretch is almost always clean); if that fails, the scan
-            if let Some(st) = self.steady(ticks.len() - i, rising) {
-                let n = st.limit(rising);
-                if n >= 2 && self.bulk(&ticks[i..i + n], rising, Some(&st)) {
-                    steps += 1;
-                    unscanned += 1;
-                    i += n;
-                    rising ^= n % 2 == 1;
-                    continue;
+            let n = match self.steady(ticks.len() - i, rising) {
+                Some(st) => {
+                    let n = st.limit(rising);
+                    if n >= 2 && self.bulk(&ticks[i..i + n], rising, Some(&st)) {
+                        steps += 1;
+                        unscanned += 1;
+                        i += n;
+                        rising ^= n % 2 == 1;
+                        continue;
+                    }
+                    // nothing changed: the bounds still hold
+                    self.clean_len(&ticks[i..], rising, &st)
                 }
-            }
-            let n = self.clean_len(&ticks[i..], rising);
+                None => 0,
+            };
             if n >= 2 {
                 if self.bulk(&ticks[i..i + n], rising, None) {
                     steps += 1;
@@ -262,10 +266,11 @@ impl ClockState {
     }
 
     /// How many of the edges `t` (the first rising when `rising`) the bulk path may take from
-    /// this state: 0 unless the channel is in its steady state, else the clean prefix.
+    /// the steady state whose bounds are `st` (made for these edges): the clean prefix, found
+    /// edge by edge.
     #[inline(always)]
-    fn clean_len(&self, t: &[u64], rising: bool) -> usize {
-        let Some(Steady {
+    fn clean_len(&self, t: &[u64], rising: bool, st: &Steady) -> usize {
+        let &Steady {
             pt,
             gl,
             gh,
@@ -273,10 +278,7 @@ impl ClockState {
             max_rises,
             run_limit,
             n_max,
-        }) = self.steady(t.len(), rising)
-        else {
-            return 0;
-        };
+        } = st;
         // a gap is fine when not shorter than the glitch threshold of the pulse it closes (a
         // rise closes a low pulse) and not longer than a stall: one unsigned compare, which
         // also refuses time running backwards (the difference wraps around)
