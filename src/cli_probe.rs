@@ -648,7 +648,7 @@ pub fn listen_cmd(a: ListenArgs) -> Result<i32> {
                     "connected: {} (protocol {}), tick {} ({}/{} Hz), {} channels:",
                     probe.firmware,
                     probe.protocol_version,
-                    units::ns(probe.tick_ns()),
+                    units::ns(probe.tick_ns),
                     probe.tick_num_hz,
                     probe.tick_den,
                     probe.channels.len()

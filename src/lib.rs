@@ -1,19 +1,14 @@
 //! slackmeter: timing budgets for clocked discrete-logic machines, held against bench measurement.
 //!
-//! Module map and dependency rules: see DEVELOPERS.md.
+//! This crate is the program: the command line, the session layer and the live view. The pure
+//! computations live in `slackmeter-core`, the edges to ports and files in `slackmeter-io`; both
+//! are re-exported here under their module names. Module map and dependency rules: DEVELOPERS.md.
 
-pub mod budget;
+pub use slackmeter_core::{budget, diag, margin, measure, probe, units};
+pub use slackmeter_io::{export, link, record, report, sim};
+
 pub mod cli;
 pub mod cli_probe;
 pub mod cli_record;
 pub mod cli_watch;
-pub mod diag;
-pub mod export;
-pub mod link;
-pub mod margin;
-pub mod measure;
-pub mod record;
-pub mod report;
-pub mod sim;
 pub mod tui;
-pub mod units;

@@ -179,17 +179,23 @@ fn rails_are_within_one_lsb_after_calibration() {
 fn line_events_give_rates_and_counts() {
     let Some(dir) = captures() else { return };
     let (s, t) = analyse(dir, "lines");
-    let hb = s.line("heartbeat").expect("heartbeat");
+    let hb = s
+        .line(slackmeter::probe::LineRole::Heartbeat)
+        .expect("heartbeat");
     let rate = hb.rate_hz.expect("rate");
     let want = num(&t, "heartbeat_hz");
     println!("heartbeat {rate:.3} Hz, {} edges", hb.edges);
     assert!((rate - want).abs() <= 0.02 * want, "{rate}");
     assert_eq!(
-        s.line("reset").expect("reset").rises,
+        s.line(slackmeter::probe::LineRole::Reset)
+            .expect("reset")
+            .rises,
         num(&t, "reset_pulses") as u64
     );
     assert_eq!(
-        s.line("fault").expect("fault").rises,
+        s.line(slackmeter::probe::LineRole::Fault)
+            .expect("fault")
+            .rises,
         num(&t, "fault_rises") as u64
     );
 }

@@ -108,12 +108,12 @@ fn handshake_configure_stream_and_reconnect_over_a_pty() {
     let (probe, reconnects) = connected.expect("handshake completed");
     assert!(probe.firmware.starts_with("slackmeter-sim"));
     assert_eq!(reconnects, 0);
-    assert!((probe.tick_ns() - 8.0).abs() < 1e-9);
+    assert!((probe.tick_ns - 8.0).abs() < 1e-9);
     assert!(
         probe
             .channels
             .iter()
-            .any(|c| c.label == "VCC_FAR" && c.kind == "analog")
+            .any(|c| c.label == "VCC_FAR" && c.kind == slackmeter::probe::ChannelKind::Analog)
     );
     assert!(edge_frames >= 40, "{edge_frames} edge frames");
     assert!(status_frames >= 2, "status every 200 ms after CONFIGURE");

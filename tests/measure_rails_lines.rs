@@ -79,8 +79,8 @@ fn heartbeat_rate_and_fault_events() {
     // a 200 ns phase at 47 % duty breaks at 2.35 MHz: (2.35 − 1)/5 × 30 s = 8.1 s into the sweep
     let f = run(m, 10.0);
     let s = f.engine.snapshot(Window::Session);
-    let hb = s.line("heartbeat").unwrap();
-    let fault = s.line("fault").unwrap();
+    let hb = s.line(slackmeter::probe::LineRole::Heartbeat).unwrap();
+    let fault = s.line(slackmeter::probe::LineRole::Fault).unwrap();
     assert_eq!(fault.level, Some(true));
     let at = fault.events.last().unwrap().at_s;
     assert!((7.0..8.2).contains(&at), "fault at {at} s");

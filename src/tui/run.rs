@@ -59,12 +59,14 @@ fn spawn_sim(
         let mut p = SimProbe::new(model, notes);
         let fw = crate::sim::probe::FIRMWARE_ID.to_string();
         let _ = tx.blocking_send(Input::Link(LinkEvent::Connected {
-            probe: crate::link::ProbeInfo {
+            probe: crate::probe::ProbeDesc {
                 firmware: fw,
                 protocol_version: 1,
                 tick_num_hz: 1,
                 tick_den: 1,
+                tick_ns: 1.0,
                 timebase_ppm: 0,
+                max_edge_rate_khz: 0,
                 channels: vec![],
             },
             reconnects: 0,
@@ -194,7 +196,11 @@ fn new_events(app: &mut App, prev: Option<&Snapshot>, s: &Snapshot) {
             ),
         );
     }
-    for l in s.lines.iter().filter(|l| l.role != "heartbeat") {
+    for l in s
+        .lines
+        .iter()
+        .filter(|l| l.role != crate::probe::LineRole::Heartbeat)
+    {
         let before = prev
             .and_then(|p| p.lines.iter().find(|x| x.channel == l.channel))
             .and_then(|x| x.events.last())

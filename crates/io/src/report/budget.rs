@@ -2,14 +2,14 @@
 
 use std::fmt::Write;
 
-use crate::budget::solver::{Budget, HoldStatus, Path, SweepPoint};
-use crate::units::{hz, ns};
+use slackmeter_core::budget::solver::{Budget, HoldStatus, Path, SweepPoint};
+use slackmeter_core::units::{hz, ns};
 
 fn corner_words(b: &Budget) -> &'static str {
     match b.corner {
-        crate::budget::Corner::Max => "max corner (guaranteed data-sheet limits)",
-        crate::budget::Corner::Typ => "typ corner (typical values, not guaranteed)",
-        crate::budget::Corner::Min => "min corner",
+        slackmeter_core::budget::Corner::Max => "max corner (guaranteed data-sheet limits)",
+        slackmeter_core::budget::Corner::Typ => "typ corner (typical values, not guaranteed)",
+        slackmeter_core::budget::Corner::Min => "min corner",
     }
 }
 

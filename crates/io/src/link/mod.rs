@@ -12,81 +12,10 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant, SystemTime, UNIX_EPOCH};
 
 use firmware_protocol::{
-    self as proto, ChannelKind, Configure, MAX_WIRE, Message, StreamDecoder, results, types,
+    self as proto, Configure, MAX_WIRE, Message, StreamDecoder, results, types,
 };
+pub use slackmeter_core::probe::ProbeDesc;
 use tokio::sync::mpsc;
-
-/// One channel of a connected probe.
-#[derive(Clone, Debug, PartialEq, Eq, serde::Serialize)]
-pub struct ChannelInfo {
-    /// Channel id.
-    pub id: u8,
-    /// "edge", "line" or "analog".
-    pub kind: String,
-    /// Capability bits, role or ADC bits (see PROTOCOL.md).
-    pub info: u8,
-    /// Label.
-    pub label: String,
-    /// µV per count numerator (analog).
-    pub scale_num_uv: i32,
-    /// µV per count denominator (analog).
-    pub scale_den: u32,
-    /// Offset in µV (analog).
-    pub offset_uv: i32,
-}
-
-/// What a probe said about itself.
-#[derive(Clone, Debug, PartialEq, serde::Serialize)]
-pub struct ProbeInfo {
-    /// Firmware id.
-    pub firmware: String,
-    /// Protocol version.
-    pub protocol_version: u8,
-    /// Tick rate numerator.
-    pub tick_num_hz: u64,
-    /// Tick rate denominator.
-    pub tick_den: u32,
-    /// Stated timebase accuracy, ppm.
-    pub timebase_ppm: u16,
-    /// Channels.
-    pub channels: Vec<ChannelInfo>,
-}
-
-impl ProbeInfo {
-    /// Read a HELLO.
-    pub fn from_hello(h: &proto::Hello<'_>) -> ProbeInfo {
-        ProbeInfo {
-            firmware: h.firmware.to_string(),
-            protocol_version: h.protocol_version,
-            tick_num_hz: h.tick_num_hz,
-            tick_den: h.tick_den,
-            timebase_ppm: h.timebase_ppm,
-            channels: h
-                .channels
-                .iter()
-                .map(|c| ChannelInfo {
-                    id: c.id,
-                    kind: match c.kind {
-                        ChannelKind::Edge => "edge",
-                        ChannelKind::Line => "line",
-                        ChannelKind::Analog => "analog",
-                    }
-                    .to_string(),
-                    info: c.info,
-                    label: c.label.to_string(),
-                    scale_num_uv: c.scale_num_uv,
-                    scale_den: c.scale_den,
-                    offset_uv: c.offset_uv,
-                })
-                .collect(),
-        }
-    }
-
-    /// The tick in ns.
-    pub fn tick_ns(&self) -> f64 {
-        1e9 * f64::from(self.tick_den) / self.tick_num_hz as f64
-    }
-}
 
 /// How to reach the probe.
 #[derive(Clone, Debug)]
@@ -207,7 +136,7 @@ pub enum LinkEvent {
     /// Handshake done, streaming.
     Connected {
         /// The probe's self-description.
-        probe: ProbeInfo,
+        probe: ProbeDesc,
         /// How many times the link has come back.
         reconnects: u32,
     },
@@ -334,7 +263,7 @@ struct Session {
 }
 
 enum Step {
-    Hello(ProbeInfo),
+    Hello(ProbeDesc),
     Ack(proto::Ack),
     None,
 }
@@ -373,7 +302,7 @@ impl Session {
         let mut steps = Vec::new();
         self.decoder.push(bytes, |f| match f.header.msg_type {
             types::HELLO | types::ACK => match Message::decode(&f) {
-                Ok(Message::Hello(h)) => steps.push(Step::Hello(ProbeInfo::from_hello(&h))),
+                Ok(Message::Hello(h)) => steps.push(Step::Hello(ProbeDesc::from_hello(&h))),
                 Ok(Message::Ack(a)) => steps.push(Step::Ack(a)),
                 _ => steps.push(Step::None),
             },
@@ -386,7 +315,7 @@ impl Session {
         Ok(steps)
     }
 
-    fn handshake(&mut self, cfg: &LinkConfig) -> Result<ProbeInfo, (LinkError, bool)> {
+    fn handshake(&mut self, cfg: &LinkConfig) -> Result<ProbeDesc, (LinkError, bool)> {
         let path = cfg.path.display().to_string();
         let io_lost = |e: io::Error| {
             (

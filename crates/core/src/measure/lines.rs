@@ -2,6 +2,8 @@
 
 use serde::Serialize;
 
+use crate::probe::LineRole;
+
 use super::stats::IntStats;
 
 /// One change of a line.
@@ -116,7 +118,7 @@ pub struct LineSnapshot {
     /// Label.
     pub name: String,
     /// "reset", "fault", "heartbeat" or "other".
-    pub role: String,
+    pub role: LineRole,
     /// Current level.
     pub level: Option<bool>,
     /// Edges in the window.
@@ -139,7 +141,7 @@ pub struct LineSnapshot {
 pub fn snapshot(
     channel: u8,
     name: &str,
-    role: &str,
+    role: LineRole,
     acc: &LineAcc,
     st: &LineState,
     now_tick: u64,
@@ -151,7 +153,7 @@ pub fn snapshot(
     LineSnapshot {
         channel,
         name: name.to_string(),
-        role: role.to_string(),
+        role,
         level: st.level,
         edges: acc.edges,
         rises: acc.rises,

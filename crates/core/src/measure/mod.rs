@@ -11,14 +11,15 @@ pub mod stats;
 use std::collections::{BTreeMap, VecDeque};
 
 use firmware_protocol::{
-    ChannelKind, Counters, FLAG_BURST_START, FLAG_LOST_BEFORE, Message, StreamDecoder, methods,
-    roles,
+    Counters, FLAG_BURST_START, FLAG_LOST_BEFORE, Message, StreamDecoder, methods,
 };
 use serde::Serialize;
 
 pub use clock::{ClockConfig, ClockSnapshot, Glitch, Stall};
 pub use lines::{LineEvent, LineSnapshot};
 pub use rails::{RailConfig, RailSnapshot, Sag};
+
+use crate::probe::{ChannelKind, LineRole, ProbeDesc};
 
 /// Settings of the engine.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -120,34 +121,6 @@ impl Trust {
     }
 }
 
-/// A channel of the connected probe.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct ChannelDesc {
-    /// Id.
-    pub id: u8,
-    /// "edge", "line", "analog".
-    pub kind: String,
-    /// Capability bits, role, or ADC bits.
-    pub info: u8,
-    /// Label.
-    pub label: String,
-    /// Analog scale (µV numerator, denominator, offset µV).
-    pub scale: (i32, u32, i32),
-}
-
-/// What the probe said about itself.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct ProbeDesc {
-    /// Firmware id.
-    pub firmware: String,
-    /// Tick, ns.
-    pub tick_ns: f64,
-    /// Stated timebase accuracy, ppm.
-    pub timebase_ppm: u16,
-    /// Channels.
-    pub channels: Vec<ChannelDesc>,
-}
-
 struct Blocks<A> {
     closed: VecDeque<(u64, A)>,
     session: Option<A>,
@@ -177,7 +150,7 @@ struct RailChannel {
 
 struct LineChannel {
     label: String,
-    role: String,
+    role: LineRole,
     state: lines::LineState,
     blocks: Blocks<lines::LineAcc>,
 }
@@ -248,17 +221,8 @@ impl Snapshot {
         self.rails.iter().find(|r| r.name == name)
     }
     /// A line by role.
-    pub fn line(&self, role: &str) -> Option<&LineSnapshot> {
+    pub fn line(&self, role: LineRole) -> Option<&LineSnapshot> {
         self.lines.iter().find(|l| l.role == role)
-    }
-}
-
-fn role_name(info: u8) -> &'static str {
-    match info {
-        roles::RESET => "reset",
-        roles::FAULT => "fault",
-        roles::HEARTBEAT => "heartbeat",
-        _ => "other",
     }
 }
 
@@ -338,15 +302,15 @@ impl Engine {
     fn install(&mut self, p: ProbeDesc) {
         let tick = p.tick_ns;
         for c in &p.channels {
-            match c.kind.as_str() {
-                "edge" => {
+            match c.kind {
+                ChannelKind::Edge => {
                     self.clocks.entry(c.id).or_insert_with(|| ClockChannel {
                         label: c.label.clone(),
                         state: clock::ClockState::new(self.cfg.clock.clone(), tick),
                         blocks: Blocks::new(),
                     });
                 }
-                "analog" => {
+                ChannelKind::Analog => {
                     let mut rc = self.cfg.rail.clone();
                     if let Some(l) = self.cfg.rail_limits_mv.get(&c.label) {
                         rc.limit_mv = *l;
@@ -358,10 +322,10 @@ impl Engine {
                         interval_s: 0.0,
                     });
                 }
-                _ => {
+                ChannelKind::Line => {
                     self.lines.entry(c.id).or_insert_with(|| LineChannel {
                         label: c.label.clone(),
-                        role: role_name(c.info).to_string(),
+                        role: LineRole::from_byte(c.info),
                         state: lines::LineState::new(tick, 1000),
                         blocks: Blocks::new(),
                     });
@@ -420,27 +384,7 @@ impl Engine {
     pub fn on_message(&mut self, m: &Message<'_>) {
         match m {
             Message::Hello(h) => {
-                let desc = ProbeDesc {
-                    firmware: h.firmware.to_string(),
-                    tick_ns: 1e9 * f64::from(h.tick_den) / h.tick_num_hz as f64,
-                    timebase_ppm: h.timebase_ppm,
-                    channels: h
-                        .channels
-                        .iter()
-                        .map(|c| ChannelDesc {
-                            id: c.id,
-                            kind: match c.kind {
-                                ChannelKind::Edge => "edge",
-                                ChannelKind::Line => "line",
-                                ChannelKind::Analog => "analog",
-                            }
-                            .into(),
-                            info: c.info,
-                            label: c.label.to_string(),
-                            scale: (c.scale_num_uv, c.scale_den, c.offset_uv),
-                        })
-                        .collect(),
-                };
+                let desc = ProbeDesc::from_hello(h);
                 if self.probe.as_ref() != Some(&desc) {
                     // a different probe (or the first): start over with its channels
                     let keep_logs = std::mem::take(&mut self.logs);
@@ -499,10 +443,10 @@ impl Engine {
                 let mut beats = Vec::new();
                 for t in e.ticks().map(|t| t.saturating_add(off)) {
                     l.state.change(t, high);
-                    if high && l.role == "fault" {
+                    if high && l.role == LineRole::Fault {
                         rises.push(t);
                     }
-                    if l.role == "heartbeat" {
+                    if l.role == LineRole::Heartbeat {
                         beats.push(t);
                     }
                     high = !high;
@@ -717,7 +661,7 @@ impl Engine {
             .map(|(id, l)| {
                 let acc = merged(&l.blocks, Some(&l.state.acc), window, lines::LineAcc::merge)
                     .unwrap_or_else(lines::LineState::empty_acc);
-                lines::snapshot(*id, &l.label, &l.role, &acc, &l.state, self.now_tick)
+                lines::snapshot(*id, &l.label, l.role, &acc, &l.state, self.now_tick)
             })
             .collect();
         let worst_rail = rails
@@ -732,7 +676,9 @@ impl Engine {
         let mut fault_onsets = self.onsets.clone();
         // a heartbeat silent for more than three of its intervals, with no fault line
         if fault_onsets.is_empty()
-            && let Some(hb) = lines.iter().find(|l: &&LineSnapshot| l.role == "heartbeat")
+            && let Some(hb) = lines
+                .iter()
+                .find(|l: &&LineSnapshot| l.role == LineRole::Heartbeat)
             && let (Some(rate), Some(since)) = (hb.rate_hz, hb.since_change_s)
             && since > 3.0 / (2.0 * rate)
             && let Some(on) = &self.heartbeat_onset

@@ -15,7 +15,7 @@ use crate::diag::{Source, SourceError};
 use crate::units;
 
 /// The demo design (the invented Larkspur-8 machine), embedded so every command has a default.
-pub const DEMO_DESIGN: &str = include_str!("../../designs/larkspur-8.toml");
+pub const DEMO_DESIGN: &str = include_str!("../../../../designs/larkspur-8.toml");
 /// Display name of the embedded demo design.
 pub const DEMO_NAME: &str = "designs/larkspur-8.toml";
 

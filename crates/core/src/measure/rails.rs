@@ -2,6 +2,8 @@
 
 use serde::Serialize;
 
+use crate::probe::AnalogScale;
+
 use super::stats::{DevHistogram, IntStats};
 
 /// Settings of the rail statistics.
@@ -93,7 +95,7 @@ pub struct RailState {
     /// Settings.
     pub cfg: RailConfig,
     /// µV = raw × num / den + offset.
-    pub scale: (i32, u32, i32),
+    pub scale: AnalogScale,
     tick_ns: f64,
     origin: Option<i64>,
     /// Current block.
@@ -110,7 +112,7 @@ pub struct RailState {
 
 impl RailState {
     /// A rail with its scale and the probe tick.
-    pub fn new(cfg: RailConfig, scale: (i32, u32, i32), tick_ns: f64) -> RailState {
+    pub fn new(cfg: RailConfig, scale: AnalogScale, tick_ns: f64) -> RailState {
         RailState {
             cfg,
             scale,
@@ -128,8 +130,7 @@ impl RailState {
 
     /// mV of a raw count.
     pub fn mv(&self, raw: i64) -> f64 {
-        (raw as f64 * f64::from(self.scale.0) / f64::from(self.scale.1) + f64::from(self.scale.2))
-            / 1000.0
+        self.scale.mv(raw as f64)
     }
 
     /// An empty block (None before the first sample).
@@ -265,7 +266,7 @@ pub fn snapshot(
     st: &RailState,
     interval_s: f64,
 ) -> RailSnapshot {
-    let lsb = (f64::from(st.scale.0) / f64::from(st.scale.1)).abs() / 1000.0;
+    let lsb = st.scale.lsb_mv();
     let mut r = RailSnapshot {
         channel,
         name: name.to_string(),
@@ -290,9 +291,7 @@ pub fn snapshot(
         r.min_mv = Some(st.mv(s.min));
         r.min_at_s = Some(s.min_at.0 as f64 * st.tick_ns * 1e-9);
         r.max_mv = Some(st.mv(s.max));
-        r.mean_mv = s.mean().map(|m| {
-            (m * f64::from(st.scale.0) / f64::from(st.scale.1) + f64::from(st.scale.2)) / 1000.0
-        });
+        r.mean_mv = s.mean().map(|m| st.scale.mv(m));
     }
     r.ripple_pkpk_mv = a.segment_pkpk.quantile(0.5).map(|v| v as f64 * lsb);
     if a.within_df > 0 {

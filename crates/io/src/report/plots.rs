@@ -10,7 +10,7 @@ use std::path::{Path, PathBuf};
 use firmware_protocol::{FLAG_BURST_START, FLAG_LOST_BEFORE, Message, StreamDecoder};
 use plotters::prelude::*;
 
-use crate::measure::stats::DevHistogram;
+use slackmeter_core::measure::stats::DevHistogram;
 
 const MAX_BUCKETS: usize = 2048;
 
@@ -116,7 +116,7 @@ impl PlotCollector {
             return;
         }
         // TIE within the record: rising edges against their own least-squares line
-        for (&x, r) in t.iter().zip(crate::measure::clock::detrended(&t)) {
+        for (&x, r) in t.iter().zip(slackmeter_core::measure::clock::detrended(&t)) {
             self.tie.push(x, r * self.tick_ns);
         }
     }

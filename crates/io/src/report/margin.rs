@@ -2,8 +2,8 @@
 
 use std::fmt::Write;
 
-use crate::margin::{Against, Margin};
-use crate::units::{hz, ns};
+use slackmeter_core::margin::{Against, Margin};
+use slackmeter_core::units::{hz, ns};
 
 fn table(out: &mut String, title: &str, a: &Against, measured: &str) {
     let _ = writeln!(

@@ -4,9 +4,9 @@ use std::fmt::Write;
 
 use serde::Serialize;
 
-use crate::measure::{ClockSnapshot, Snapshot};
 use crate::record::{Header, ReplaySummary};
-use crate::units::{hz, ns};
+use slackmeter_core::measure::{ClockSnapshot, Snapshot};
+use slackmeter_core::units::{hz, ns};
 
 /// The JSON document of `slackmeter report --json`.
 #[derive(Serialize)]
@@ -22,9 +22,9 @@ pub struct ReportDoc<'a> {
     /// Every clock.
     pub clocks: &'a [ClockSnapshot],
     /// Rails.
-    pub rails: &'a [crate::measure::RailSnapshot],
+    pub rails: &'a [slackmeter_core::measure::RailSnapshot],
     /// Lines.
-    pub lines: &'a [crate::measure::LineSnapshot],
+    pub lines: &'a [slackmeter_core::measure::LineSnapshot],
     /// Lowest rail.
     pub worst_rail: &'a Option<(String, f64)>,
     /// Frames lost (sequence gaps).
@@ -32,7 +32,7 @@ pub struct ReportDoc<'a> {
     /// CRC errors.
     pub crc_errors: u64,
     /// All trust counters.
-    pub trust: &'a crate::measure::Trust,
+    pub trust: &'a slackmeter_core::measure::Trust,
     /// Marks.
     pub marks: &'a [crate::record::replay::MarkAt],
     /// Link events.
@@ -40,9 +40,9 @@ pub struct ReportDoc<'a> {
     /// Damage found in the file.
     pub damage: &'a [crate::record::format::Damage],
     /// Glitches (most recent).
-    pub glitch_events: &'a [crate::measure::Glitch],
+    pub glitch_events: &'a [slackmeter_core::measure::Glitch],
     /// Sags (most recent).
-    pub sag_events: &'a [(String, crate::measure::Sag)],
+    pub sag_events: &'a [(String, slackmeter_core::measure::Sag)],
 }
 
 /// Build the JSON document.

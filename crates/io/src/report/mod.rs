@@ -6,7 +6,7 @@ pub mod plots;
 pub mod recording;
 
 /// A recording replays into the measurement engine's byte feed.
-impl crate::record::replay::ReplaySink for crate::measure::Feed {
+impl crate::record::replay::ReplaySink for slackmeter_core::measure::Feed {
     fn data(&mut self, bytes: &[u8]) {
         self.push(bytes);
     }
