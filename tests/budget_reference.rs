@@ -1,6 +1,6 @@
 //! The budget engine checked against published values: data-sheet columns, the published
 //! counter cascade rule, and the worked example of the clock plan.
-//! Sources are named beside each check (see ../shared/REFERENCES.md for the table they come from).
+//! Sources are named beside each check; docs/REFERENCES.md lists each value with its source.
 
 use slackmeter::budget::derate::{self, Conditions, Corner};
 use slackmeter::budget::library::{ArcKind, BUILTIN_FILES, Library};
@@ -289,7 +289,7 @@ fn chain_of_real_parts_sums_data_sheet_maxima() {
 
 #[test]
 fn clock_plan_of_the_worked_example_through_the_solver() {
-    // Invented worked example, ../shared/DESIGN.md §4: L = 500 ns, H = 125 ns → d* = 0.20,
+    // Invented worked example, docs/REFERENCES.md §11: L = 500 ns, H = 125 ns → d* = 0.20,
     // T_min = 625 ns (1.6 MHz); at 50 % duty T_min = 1000 ns (1.0 MHz).
     let lib = Library::builtin();
     let d = design(&lib, include_str!("designs/worked-example.toml"));

@@ -60,3 +60,38 @@ fn design_file_doc_example_is_a_valid_design() {
     .unwrap_or_else(|e| panic!("{e:?}"));
     assert!(!d.captures.is_empty());
 }
+
+#[test]
+fn nothing_in_the_repository_cites_a_file_outside_it() {
+    // the folder beside the checkout that the project's notes once came from
+    let outside = ["..", "/shared/"].concat();
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut stack = vec![root.to_path_buf()];
+    let mut hits = Vec::new();
+    let mut read = 0;
+    while let Some(d) = stack.pop() {
+        for e in std::fs::read_dir(&d).unwrap() {
+            let p = e.unwrap().path();
+            let name = p.file_name().unwrap().to_string_lossy().to_string();
+            if p.is_dir() {
+                let hidden = name.starts_with('.') && name != ".ci";
+                if !hidden && name != "target" && name != "node_modules" {
+                    stack.push(p);
+                }
+            } else if let Ok(text) = std::fs::read_to_string(&p) {
+                read += 1;
+                for (n, line) in text.lines().enumerate() {
+                    if line.contains(&outside) {
+                        hits.push(format!("{}:{}", p.display(), n + 1));
+                    }
+                }
+            }
+        }
+    }
+    assert!(read > 100, "read only {read} files");
+    assert!(
+        hits.is_empty(),
+        "cites files outside the repository:\n{}",
+        hits.join("\n")
+    );
+}

@@ -1,5 +1,5 @@
 //! The measurement engine on hand-built edge lists and synthetic stamps, checked against the
-//! published definitions and worked values in ../shared/REFERENCES.md §8.
+//! published definitions and worked values in docs/REFERENCES.md §8.
 
 mod common;
 
