@@ -8,7 +8,5 @@ pub use slackmeter_core::{budget, diag, margin, measure, probe, units};
 pub use slackmeter_io::{export, link, record, report, sim};
 
 pub mod cli;
-pub mod cli_probe;
-pub mod cli_record;
-pub mod cli_watch;
+pub mod session;
 pub mod tui;

@@ -1,16 +1,5 @@
-//! slackmeter command-line entry point: parse, dispatch, map errors to exit codes.
-
-use clap::Parser;
-use slackmeter::cli::{self, Cli};
+//! slackmeter's entry point: the command line runs, its exit code ends the process.
 
 fn main() {
-    let parsed = Cli::parse();
-    let code = match cli::run(parsed) {
-        Ok(code) => code,
-        Err((code, report)) => {
-            eprintln!("{report:?}");
-            code
-        }
-    };
-    std::process::exit(code);
+    std::process::exit(slackmeter::cli::run());
 }

@@ -45,17 +45,18 @@ const ALLOWED: &[(&str, &[&str])] = &[
     ("bin/lib", &["*"]),
     ("bin/main", &["bin/cli"]),
     ("bin/cli", &["*"]),
+    // the session layer: every source (port, virtual probe, replay) into one event stream
     (
         "bin/session",
         &[
             "core/measure",
             "core/probe",
-            "core/units",
             "io/link",
             "io/record",
             "io/sim",
         ],
     ),
+    // the live view: sources only through the session
     (
         "bin/tui",
         &[
@@ -64,8 +65,6 @@ const ALLOWED: &[(&str, &[&str])] = &[
             "core/measure",
             "core/probe",
             "core/units",
-            "io/record",
-            "io/report",
             "bin/session",
         ],
     ),

@@ -5,7 +5,7 @@ mod common;
 
 use firmware_protocol::*;
 use slackmeter::budget::{Design, Library, OperatingPoint, solve};
-use slackmeter::cli_probe::typical_fault_limit;
+use slackmeter::cli::model::typical_fault_limit;
 use slackmeter::diag::Source;
 use slackmeter::margin::{MarginConfig, Verdict, evaluate};
 use slackmeter::measure::{EngineConfig, Feed, Window};

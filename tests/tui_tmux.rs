@@ -131,3 +131,98 @@ fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
     drop(guard);
     let _ = wait_for;
 }
+
+/// `R` in the live view: the --record file stops, a new one starts in the middle of the
+/// session; both report the clock and the rails.
+#[test]
+fn r_starts_a_recording_mid_session_that_reports_like_record() {
+    if Command::new("tmux").arg("-V").output().is_err() {
+        eprintln!("tmux is not installed: skipped (CI installs it)");
+        return;
+    }
+    let dir = std::env::temp_dir().join(format!("slackmeter-tmux-r-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    let session = format!("slackmeter-test-r-{}", std::process::id());
+    let guard = Cleanup {
+        session: session.clone(),
+        probes: vec![],
+    };
+    let cmd = format!(
+        "{} watch --sim --no-design --record start.smrec ; sleep 2",
+        env!("CARGO_BIN_EXE_slackmeter")
+    );
+    let dir_s = dir.display().to_string();
+    let t = |a: &[&str]| {
+        let mut v = vec!["-L", session.as_str()];
+        v.extend_from_slice(a);
+        tmux(&v)
+    };
+    t(&[
+        "new-session",
+        "-d",
+        "-s",
+        "w",
+        "-c",
+        &dir_s,
+        "-x",
+        "120",
+        "-y",
+        "34",
+        &cmd,
+    ]);
+    let cap = |what: &str, secs| wait_for(&session, what, secs);
+    cap("2.000 MHz", 20);
+    cap("REC start.smrec", 5);
+    t(&["send-keys", "-t", "w", "R"]);
+    cap("recording stopped", 5);
+    std::thread::sleep(Duration::from_millis(300));
+    t(&["send-keys", "-t", "w", "R"]);
+    cap("REC slackmeter-", 5);
+    std::thread::sleep(Duration::from_millis(2500));
+    t(&["send-keys", "-t", "w", "R"]);
+    let screen = cap("recording stopped: slackmeter-", 5);
+    t(&["send-keys", "-t", "w", "q"]);
+    std::thread::sleep(Duration::from_millis(800));
+    drop(guard);
+    let joined: Vec<_> = std::fs::read_dir(&dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| {
+            p.file_name()
+                .unwrap()
+                .to_string_lossy()
+                .starts_with("slackmeter-")
+        })
+        .collect();
+    assert_eq!(joined.len(), 1, "{joined:?}\n{screen}");
+    let report = |p: &Path| -> serde_json::Value {
+        let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+            .args(["report", "--json"])
+            .arg(p)
+            .output()
+            .unwrap();
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout).unwrap()
+    };
+    let a = report(&dir.join("start.smrec"));
+    let b = report(&joined[0]);
+    for v in [&a, &b] {
+        let f = v["clock"]["frequency_hz"].as_f64().expect("a clock");
+        assert!((f / 2e6 - 1.0).abs() < 1e-4, "{f}");
+        assert!(v["clock"]["duty"].as_f64().is_some());
+        assert_eq!(v["lost_frames"], 0);
+        assert_eq!(v["trust"]["other_rejects"], 0);
+    }
+    assert_eq!(a["rails"].as_array().unwrap().len(), 3);
+    assert_eq!(
+        a["rails"].as_array().unwrap().len(),
+        b["rails"].as_array().unwrap().len()
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

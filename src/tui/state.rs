@@ -1,7 +1,12 @@
-//! The live view's state and its pure updates (keys, link events, snapshots).
+//! The live view's state and its pure updates (keys, session events, snapshots).
+
+use std::collections::BTreeMap;
 
 use crate::margin::Margin;
 use crate::measure::{Snapshot, Window};
+use crate::probe::LineRole;
+use crate::session::{Event, Origin};
+use crate::units;
 
 use super::keys::Action;
 
@@ -40,6 +45,25 @@ pub enum Source {
         /// Finished.
         done: bool,
     },
+}
+
+impl Source {
+    /// The state a view of `origin` starts in.
+    pub fn of(origin: &Origin) -> Source {
+        match origin {
+            Origin::Port(what) => Source::Connecting { what: what.clone() },
+            Origin::Sim => Source::Connecting {
+                what: "virtual probe".into(),
+            },
+            Origin::Replay { file, speed } => Source::Replay {
+                file: file.clone(),
+                at_s: 0.0,
+                paused: false,
+                speed: *speed,
+                done: false,
+            },
+        }
+    }
 }
 
 /// The distribution shown in the clock area.
@@ -94,7 +118,50 @@ pub struct App {
     /// Something changed since the last draw.
     pub dirty: bool,
     /// Recent history of each rail (lowest value per update, mV), oldest first.
-    pub rail_history: std::collections::BTreeMap<String, std::collections::VecDeque<f64>>,
+    pub rail_history: BTreeMap<String, std::collections::VecDeque<f64>>,
+    /// What the last snapshot held, so each glitch, sag, line change and failure is listed once.
+    seen: Seen,
+}
+
+/// The newest of each kind of event in the last snapshot taken.
+#[derive(Clone, Debug, PartialEq)]
+struct Seen {
+    glitches: u64,
+    glitch_at_s: f64,
+    sag_at_s: f64,
+    line_at_s: BTreeMap<u8, f64>,
+    onsets: usize,
+}
+
+impl Default for Seen {
+    fn default() -> Self {
+        Seen {
+            glitches: 0,
+            glitch_at_s: f64::NEG_INFINITY,
+            sag_at_s: f64::NEG_INFINITY,
+            line_at_s: BTreeMap::new(),
+            onsets: 0,
+        }
+    }
+}
+
+impl Seen {
+    fn of(s: &Snapshot) -> Seen {
+        Seen {
+            glitches: s.clock().map_or(0, |c| c.glitches),
+            glitch_at_s: s.glitch_events.last().map_or(f64::NEG_INFINITY, |g| g.at_s),
+            sag_at_s: s
+                .sag_events
+                .last()
+                .map_or(f64::NEG_INFINITY, |x| x.1.start_s),
+            line_at_s: s
+                .lines
+                .iter()
+                .filter_map(|l| l.events.last().map(|e| (l.channel, e.at_s)))
+                .collect(),
+            onsets: s.fault_onsets.len(),
+        }
+    }
 }
 
 /// Updates kept in a rail's history (four a second: 15 s).
@@ -141,7 +208,108 @@ impl App {
             color,
             quit: false,
             dirty: true,
-            rail_history: std::collections::BTreeMap::new(),
+            rail_history: BTreeMap::new(),
+            seen: Seen::default(),
+        }
+    }
+
+    /// A session event; `now_s` is the engine's time, for the event list.
+    pub fn on_session(&mut self, ev: &Event, now_s: f64) {
+        let replay = matches!(self.source, Source::Replay { .. });
+        match ev {
+            Event::Connected { probe, reconnects } => {
+                if *reconnects > 0 {
+                    self.event(now_s, format!("link back (reconnect {reconnects})"));
+                }
+                if !replay {
+                    self.source = Source::Streaming {
+                        probe: probe.firmware.clone(),
+                        reconnects: *reconnects,
+                    };
+                }
+            }
+            Event::Lost { reason } => {
+                self.event(now_s, format!("link lost: {reason}"));
+                self.source = Source::Lost {
+                    reason: reason.clone(),
+                    retry_in_s: 0.5,
+                };
+            }
+            Event::Retrying { retry_in, reason } => match &mut self.source {
+                Source::Lost { retry_in_s, .. } => *retry_in_s = retry_in.as_secs_f64(),
+                Source::Connecting { .. } => self.event(0.0, format!("no probe yet: {reason}")),
+                _ => {}
+            },
+            Event::Refused { what, reason } => {
+                self.event(now_s, format!("probe refused {what}: {reason}"))
+            }
+            Event::Mark { at_s, text } => self.event(*at_s, format!("mark: {text}")),
+            Event::Position { at_s: at } => {
+                if let Source::Replay { at_s, .. } = &mut self.source {
+                    *at_s = *at;
+                }
+                return;
+            }
+            Event::End => {
+                if let Source::Replay { done, .. } = &mut self.source {
+                    *done = true;
+                }
+            }
+            Event::RecordingFailed(e) => self.event(now_s, format!("recording failed: {e}")),
+            Event::Data { .. } | Event::Connecting { .. } | Event::Recorded { .. } => return,
+            Event::Failed(_) => {}
+        }
+        self.dirty = true;
+    }
+
+    /// New figures: list what is new in them (glitches, sags, line changes, failures), then show
+    /// them (unless frozen).
+    pub fn update(&mut self, snap: Snapshot, margin: Option<Margin>) {
+        self.note_new_events(&snap);
+        self.show(snap, margin);
+    }
+
+    fn note_new_events(&mut self, s: &Snapshot) {
+        let seen = std::mem::replace(&mut self.seen, Seen::of(s));
+        // glitches come in bursts: one line per update
+        let now = self.seen.glitches;
+        if now > seen.glitches {
+            let n = now - seen.glitches;
+            let new = s.glitch_events.iter().filter(|g| g.at_s > seen.glitch_at_s);
+            let (shortest, at) = new.fold((f64::INFINITY, s.probe_time_s), |(w, _), g| {
+                (w.min(g.width_ns), g.at_s)
+            });
+            let shortest = if shortest.is_finite() {
+                units::ns(shortest).to_string()
+            } else {
+                "—".into()
+            };
+            let es = if n == 1 { "" } else { "es" };
+            self.event(at, format!("{n} glitch{es} (shortest {shortest})"));
+        }
+        for (rail, sag) in s.sag_events.iter().filter(|x| x.1.start_s > seen.sag_at_s) {
+            let text = format!(
+                "sag on {rail}: −{:.0} mV for {:.0} ms",
+                sag.depth_mv, sag.duration_ms
+            );
+            self.event(sag.start_s, text);
+        }
+        for l in s.lines.iter().filter(|l| l.role != LineRole::Heartbeat) {
+            let before = seen
+                .line_at_s
+                .get(&l.channel)
+                .copied()
+                .unwrap_or(f64::NEG_INFINITY);
+            for e in l.events.iter().filter(|e| e.at_s > before) {
+                let level = if e.high { "high" } else { "low" };
+                self.event(e.at_s, format!("{} {level}", l.name));
+            }
+        }
+        if seen.onsets < s.fault_onsets.len()
+            && let Some(o) = s.fault_onsets.last()
+        {
+            let text = format!("FAILURE ({}) at {}", o.cause, units::hz(o.frequency_hz));
+            self.event(o.at_s, text);
         }
     }
 
@@ -291,5 +459,127 @@ mod tests {
         assert_eq!(a.apply(Action::Record), Effect::ToggleRecord);
         a.apply(Action::Quit);
         assert!(a.quit);
+    }
+
+    /// Snapshots of the sagging demo bench with glitches and resets, 0.7 s apart.
+    fn snapshots() -> Vec<Snapshot> {
+        use crate::measure::{EngineConfig, Feed};
+        use crate::sim::{BenchModel, SimProbe};
+        let mut m = BenchModel::scenario("sagging").unwrap();
+        m.freq_hz = 200e3;
+        m.glitch_rate_hz = 20.0;
+        m.reset_interval_s = Some(0.3);
+        let mut p = SimProbe::new(m, vec![]);
+        p.start();
+        let mut f = Feed::new(EngineConfig::default());
+        (1..=2)
+            .map(|i| {
+                p.run_until(f64::from(i) * 0.7e9);
+                f.push(&std::mem::take(p.output()));
+                f.engine.snapshot(Window::Session)
+            })
+            .collect()
+    }
+
+    fn count(a: &App, what: &str) -> usize {
+        a.events.iter().filter(|e| e.text.contains(what)).count()
+    }
+
+    #[test]
+    fn each_glitch_sag_and_line_change_is_listed_once() {
+        let s = snapshots();
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        a.update(s[0].clone(), None);
+        let first = a.events.len();
+        assert!(count(&a, "glitch") == 1, "{:?}", a.events);
+        assert!(count(&a, "RESET high") >= 1, "{:?}", a.events);
+        a.update(s[0].clone(), None);
+        assert_eq!(a.events.len(), first, "the same figures list nothing new");
+        // frozen: the figures on screen stay, what is new is still listed, once
+        a.apply(Action::Freeze);
+        a.update(s[1].clone(), None);
+        let second = a.events.len();
+        assert!(second > first);
+        a.update(s[1].clone(), None);
+        assert_eq!(a.events.len(), second, "frozen figures list nothing twice");
+        assert_eq!(a.snapshot.as_ref(), Some(&s[0]));
+        assert_eq!(count(&a, "glitch"), 2);
+        let mut sags: Vec<f64> = s
+            .iter()
+            .flat_map(|x| &x.sag_events)
+            .map(|x| x.1.start_s)
+            .collect();
+        sags.sort_by(f64::total_cmp);
+        sags.dedup();
+        assert!(!sags.is_empty());
+        assert_eq!(count(&a, "sag on"), sags.len());
+        let resets = s[1]
+            .lines
+            .iter()
+            .find(|l| l.name == "RESET")
+            .map_or(0, |l| l.events.len());
+        assert_eq!(count(&a, "RESET"), resets, "{:?}", a.events);
+        assert_eq!(count(&a, "HEARTBEAT"), 0, "the heartbeat is not an event");
+    }
+
+    #[test]
+    fn session_events_move_the_source() {
+        use crate::probe::ProbeDesc;
+        use std::time::Duration;
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        let probe = ProbeDesc {
+            firmware: "fw".into(),
+            protocol_version: 1,
+            tick_num_hz: 1,
+            tick_den: 1,
+            tick_ns: 1.0,
+            timebase_ppm: 0,
+            max_edge_rate_khz: 0,
+            channels: vec![],
+        };
+        a.on_session(
+            &Event::Retrying {
+                retry_in: Duration::from_millis(500),
+                reason: "not yet".into(),
+            },
+            0.0,
+        );
+        assert!(a.events[0].text.contains("no probe yet"));
+        a.on_session(
+            &Event::Connected {
+                probe: probe.clone(),
+                reconnects: 0,
+            },
+            1.0,
+        );
+        assert!(matches!(a.source, Source::Streaming { .. }));
+        a.on_session(
+            &Event::Lost {
+                reason: "unplugged".into(),
+            },
+            2.0,
+        );
+        assert!(matches!(a.source, Source::Lost { .. }));
+        a.on_session(
+            &Event::Connected {
+                probe,
+                reconnects: 1,
+            },
+            3.0,
+        );
+        assert_eq!(
+            a.source,
+            Source::Streaming {
+                probe: "fw".into(),
+                reconnects: 1
+            }
+        );
+        assert!(
+            a.events
+                .last()
+                .unwrap()
+                .text
+                .contains("link back (reconnect 1)")
+        );
     }
 }

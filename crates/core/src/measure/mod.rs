@@ -765,6 +765,12 @@ impl Feed {
         self.engine.note_reconnect();
     }
 
+    /// The stream was joined mid-way (a recording started during a session): sequence
+    /// tracking restarts, nothing is counted.
+    pub fn restart_sequence(&mut self) {
+        self.decoder.reset_sequence();
+    }
+
     /// Decoder counters.
     pub fn counters(&self) -> Counters {
         self.decoder.counters

@@ -219,14 +219,22 @@ fn ports_hint() -> String {
 
 type Port = Box<dyn serialport::SerialPort>;
 
-fn open_port(cfg: &LinkConfig) -> Result<Port, LinkError> {
-    let path = cfg.path.display().to_string();
-    if !cfg.path.exists() {
-        return Err(LinkError::NotFound {
-            path,
+/// Refuse a port path where there is no device (a mistyped path, not a probe being plugged in):
+/// the error lists the ports there are.
+pub fn check_present(path: &Path) -> Result<(), LinkError> {
+    if path.exists() {
+        Ok(())
+    } else {
+        Err(LinkError::NotFound {
+            path: path.display().to_string(),
             hint: ports_hint(),
-        });
+        })
     }
+}
+
+fn open_port(cfg: &LinkConfig) -> Result<Port, LinkError> {
+    check_present(&cfg.path)?;
+    let path = cfg.path.display().to_string();
     let port = serialport::new(path.clone(), cfg.baud)
         .timeout(Duration::from_millis(20))
         .open()

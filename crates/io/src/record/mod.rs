@@ -1,9 +1,11 @@
 //! Recordings: the `.smrec` format, the recorder thread, and replay through the same engine.
 
 pub mod format;
+pub mod note;
 pub mod replay;
 pub mod writer;
 
 pub use format::{EmbeddedDesign, Header, RecordingError};
+pub use note::{Continuity, LinkNote};
 pub use replay::{Recording, ReplayOptions, ReplaySummary};
 pub use writer::{RecCounts, Recorder};

@@ -9,6 +9,7 @@ use std::time::{Duration, Instant};
 use serde::Serialize;
 
 use super::format::{ChunkKind, ChunkReader, Damage, Parsed, RecordingError, parse_header};
+use super::note::{Continuity, LinkNote};
 
 /// What a replay feeds: the measurement engine's byte feed implements it (in `report`), so
 /// this module needs no knowledge of the engine.
@@ -17,6 +18,8 @@ pub trait ReplaySink {
     fn data(&mut self, bytes: &[u8]);
     /// The link came back (a recorded reconnection).
     fn reconnect(&mut self);
+    /// The recording joined a running stream: restart sequence tracking, count nothing.
+    fn joined(&mut self);
     /// Forget the statistics so far (the start of `--from`).
     fn reset(&mut self);
     /// Probe time reached, s (to place marks).
@@ -187,14 +190,10 @@ impl Recording {
                 ChunkKind::Link => {
                     let event: serde_json::Value =
                         serde_json::from_slice(&c.payload).unwrap_or(serde_json::Value::Null);
-                    if event.get("event").and_then(|e| e.as_str()) == Some("connected")
-                        && event
-                            .get("reconnects")
-                            .and_then(|r| r.as_u64())
-                            .unwrap_or(0)
-                            > 0
-                    {
-                        feed.reconnect();
+                    match LinkNote::parse(&c.payload).map(|n| n.continuity()) {
+                        Some(Continuity::Reconnected) => feed.reconnect(),
+                        Some(Continuity::Joined) => feed.joined(),
+                        Some(Continuity::Unbroken) | None => {}
                     }
                     s.links.push(LinkAt { at_s, event });
                 }

@@ -2,17 +2,19 @@
 //!
 //! Calls never block: items go into a queue; past a byte cap they are dropped, counted, and the
 //! loss is written into the file as a link event when the writer catches up. The file is flushed
-//! at least once a second, so a killed process loses at most the last second.
+//! at least once a second, so a killed process loses at most the last second. A write that
+//! fails ends the thread and shows at once in [`Recorder::failure`], not only at `finish`.
 
 use std::fs::File;
 use std::io::{self, BufWriter, Write};
 use std::path::{Path, PathBuf};
-use std::sync::Arc;
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::mpsc;
+use std::sync::{Arc, OnceLock};
 use std::time::{Duration, Instant};
 
 use super::format::{ChunkKind, Header, RecordingError, encode_chunk, encode_header};
+use super::note::LinkNote;
 
 /// Queue cap before items are dropped (and the drop reported).
 pub const BACKLOG_CAP: u64 = 64 << 20;
@@ -42,6 +44,8 @@ pub struct RecStats {
     pub dropped: AtomicU64,
     /// Marks written.
     pub marks: AtomicU64,
+    /// Why the writer thread stopped, when a write failed.
+    failure: OnceLock<(io::ErrorKind, String)>,
 }
 
 /// A copy of the counters.
@@ -113,7 +117,13 @@ impl Recorder {
         let s2 = stats.clone();
         let thread = std::thread::Builder::new()
             .name("recorder".into())
-            .spawn(move || write_loop(w, rx, s2))
+            .spawn(move || {
+                let r = write_loop(w, rx, &s2);
+                if let Err(e) = &r {
+                    let _ = s2.failure.set((e.kind(), e.to_string()));
+                }
+                r
+            })
             .map_err(io_err)?;
         Ok(Recorder {
             tx: Some(tx),
@@ -148,8 +158,9 @@ impl Recorder {
         self.send(Item::Mark(host_ns, text.to_string()), text.len() as u64);
     }
 
-    /// A link event (JSON text).
-    pub fn link(&self, host_ns: u64, json: String) {
+    /// A link event.
+    pub fn link(&self, host_ns: u64, note: &LinkNote) {
+        let json = note.to_json();
         let n = json.len() as u64;
         self.send(Item::Link(host_ns, json), n);
     }
@@ -159,12 +170,33 @@ impl Recorder {
         self.stats.counts()
     }
 
+    /// The write that failed, as soon as the writer thread has stopped on it (nothing more
+    /// reaches the file after that).
+    pub fn failure(&self) -> Option<RecordingError> {
+        self.stats
+            .failure
+            .get()
+            .map(|(kind, msg)| self.write_error(*kind, msg))
+    }
+
+    fn write_error(&self, kind: io::ErrorKind, msg: &str) -> RecordingError {
+        RecordingError::Write {
+            path: self.path.display().to_string(),
+            err: io::Error::new(kind, msg.to_string()),
+        }
+    }
+
     /// Write everything queued, close the file, return the final counters.
-    pub fn finish(mut self) -> io::Result<RecCounts> {
+    pub fn finish(mut self) -> Result<RecCounts, RecordingError> {
         self.tx.take();
         if let Some(t) = self.thread.take() {
-            t.join()
-                .map_err(|_| io::Error::other("recorder thread panicked"))??;
+            match t.join() {
+                Ok(Ok(())) => {}
+                Ok(Err(e)) => return Err(self.write_error(e.kind(), &e.to_string())),
+                Err(_) => {
+                    return Err(self.write_error(io::ErrorKind::Other, "recorder thread panicked"));
+                }
+            }
         }
         Ok(self.stats.counts())
     }
@@ -182,7 +214,7 @@ impl Drop for Recorder {
 fn write_loop(
     mut w: BufWriter<File>,
     rx: mpsc::Receiver<Item>,
-    stats: Arc<RecStats>,
+    stats: &RecStats,
 ) -> io::Result<()> {
     let mut pending: Option<(u64, Vec<u8>)> = None;
     let mut buf = Vec::with_capacity(MAX_CHUNK + 64);
@@ -260,10 +292,10 @@ fn write_loop(
             if let Some((t0, p)) = pending.take() {
                 emit(&mut w, &mut buf, ChunkKind::Data, t0, &p)?;
             }
-            let json = format!(
-                "{{\"event\":\"recorder-overflow\",\"dropped_bytes\":{}}}",
-                dropped - reported_drop
-            );
+            let json = LinkNote::RecorderOverflow {
+                dropped_bytes: dropped - reported_drop,
+            }
+            .to_json();
             emit(&mut w, &mut buf, ChunkKind::Link, last_t, json.as_bytes())?;
             reported_drop = dropped;
         }

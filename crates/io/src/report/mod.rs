@@ -13,6 +13,9 @@ impl crate::record::replay::ReplaySink for slackmeter_core::measure::Feed {
     fn reconnect(&mut self) {
         self.note_reconnect();
     }
+    fn joined(&mut self) {
+        self.restart_sequence();
+    }
     fn reset(&mut self) {
         self.engine.reset();
     }

@@ -1,0 +1,151 @@
+//! `slackmeter listen PORT`: handshake, the probe's self-description, then a running count of
+//! what it sends with the recent window's figures.
+
+use std::path::PathBuf;
+use std::time::{Duration, Instant};
+
+use super::args::{self, PortArgs};
+use super::error::{CliResult, Outcome};
+use super::signal::{interrupt_flag, interrupted};
+use crate::measure::{EngineConfig, Window};
+use crate::probe::ProbeDesc;
+use crate::session::{self, Event, Next, Session, SourceSpec};
+use crate::units;
+
+/// Options of `listen`.
+#[derive(clap::Args, Debug)]
+pub struct ListenArgs {
+    /// Serial device of the probe, e.g. /dev/ttyUSB0 or the path `sim --pty` printed.
+    pub port: PathBuf,
+    /// The port's options.
+    #[command(flatten)]
+    pub port_options: PortArgs,
+    /// Stop after this long, e.g. 10s.
+    #[arg(long, value_parser = args::pos_time)]
+    pub duration: Option<f64>,
+    /// Give up when the device goes away instead of waiting for it to return.
+    #[arg(long)]
+    pub no_reconnect: bool,
+}
+
+fn print_probe(probe: &ProbeDesc) {
+    println!(
+        "connected: {} (protocol {}), tick {} ({}/{} Hz), {} channels:",
+        probe.firmware,
+        probe.protocol_version,
+        units::ns(probe.tick_ns),
+        probe.tick_num_hz,
+        probe.tick_den,
+        probe.channels.len()
+    );
+    for c in &probe.channels {
+        println!("  {:>3} {:<6} {}", c.id, c.kind, c.label);
+    }
+}
+
+/// The running count: the link's state, the counters, and the recent window's figures.
+fn progress(s: &Session, state: &str, reconnects: u32) -> String {
+    let c = s.counters();
+    let t = s.tally();
+    let secs = s.elapsed_s();
+    let snap = s.engine().map(|e| e.snapshot(Window::Recent));
+    let clock = snap
+        .as_ref()
+        .and_then(|s| s.clock())
+        .map_or(String::new(), |k| {
+            let f = k
+                .frequency_hz
+                .map_or("—".into(), |f| units::hz(f).to_string());
+            let min = |v: Option<f64>| v.map_or("—".into(), |x| units::ns(x).to_string());
+            format!(
+                " | {} f {f}, duty {}, min high {}, min low {}",
+                k.label,
+                k.duty.map_or("—".into(), |d| format!("{:.2} %", d * 100.0)),
+                min(k.high_min_ns),
+                min(k.low_min_ns)
+            )
+        });
+    let rail = snap
+        .as_ref()
+        .and_then(|s| s.worst_rail.as_ref())
+        .map_or(String::new(), |(n, mv)| {
+            format!(", lowest rail {n} {:.3} V", mv / 1000.0)
+        });
+    format!(
+        "\r{state}: {:.0} s, {} frames, {:.2} MB/s, {} edges, lost {} frames, {} CRC errors, {} reconnects{clock}{rail}   ",
+        secs,
+        c.frames,
+        t.bytes as f64 / 1e6 / secs.max(1e-9),
+        t.edges,
+        c.lost_frames,
+        c.crc_errors,
+        reconnects
+    )
+}
+
+/// `slackmeter listen`.
+pub fn run(a: ListenArgs) -> CliResult<Outcome> {
+    interrupt_flag();
+    let mut cfg = a.port_options.link_config(&a.port);
+    cfg.reconnect = !a.no_reconnect;
+    let header = session::header(a.port.display().to_string(), vec![], None, None);
+    let mut s = Session::start(SourceSpec::Port(cfg), header, Some(EngineConfig::default()))?;
+    let deadline = a.duration.map(|ns| Duration::from_nanos(ns as u64));
+    let started = Instant::now();
+    let mut last_print = Instant::now();
+    let mut reconnects = 0;
+    let mut state = "connecting".to_string();
+    loop {
+        if interrupted() || deadline.is_some_and(|d| started.elapsed() >= d) {
+            break;
+        }
+        match s.next_within(Duration::from_millis(10)) {
+            Next::Event(Event::Connected {
+                probe,
+                reconnects: r,
+            }) => {
+                reconnects = r;
+                state = "streaming".into();
+                eprintln!();
+                print_probe(&probe);
+            }
+            Next::Event(Event::Lost { reason }) => {
+                eprintln!("\nlink lost: {reason}; waiting for the device to return");
+                state = format!("lost: {reason}");
+            }
+            Next::Event(Event::Retrying { retry_in, .. }) => {
+                if !state.starts_with("lost") {
+                    state = format!("retrying in {} ms", retry_in.as_millis());
+                }
+            }
+            Next::Event(Event::Refused { what, reason }) => {
+                eprintln!("\nprobe refused {what}: {reason}")
+            }
+            Next::Event(Event::Failed(e)) => {
+                eprintln!();
+                return Err(e.into());
+            }
+            Next::Ended => break,
+            Next::Event(_) | Next::Idle => {}
+        }
+        if last_print.elapsed() >= Duration::from_millis(500) {
+            last_print = Instant::now();
+            eprint!("{}", progress(&s, &state, reconnects));
+        }
+    }
+    eprintln!();
+    let c = s.counters();
+    let t = s.tally();
+    println!(
+        "received {} frames ({} bytes): {} edges, {} line events, {} samples; {} lost frames, {} CRC errors, {} reconnects",
+        c.frames,
+        t.bytes,
+        t.edges,
+        t.line_events,
+        t.samples,
+        c.lost_frames,
+        c.crc_errors,
+        reconnects
+    );
+    Ok(Outcome::Done)
+}

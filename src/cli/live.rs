@@ -1,0 +1,30 @@
+//! The live view on a new session (watch, replay). The session starts before the terminal is
+//! taken, so a missing port or file is reported as plain text with its exit code.
+
+use std::path::PathBuf;
+
+use super::design::embedded;
+use super::error::{CliResult, Outcome};
+use crate::budget::{Design, Library};
+use crate::measure::EngineConfig;
+use crate::session::{self, Session, SourceSpec};
+use crate::tui::run::{Options, run};
+
+/// Start `source` (shown as `what`) and run the live view on it until quit.
+pub fn show(
+    source: SourceSpec,
+    what: String,
+    design: Option<Design>,
+    library: Library,
+    record: Option<PathBuf>,
+) -> CliResult<Outcome> {
+    let header = session::header(what, vec![], design.as_ref().map(embedded), None);
+    let session = Session::start(source, header, Some(EngineConfig::default()))?;
+    run(Options {
+        session,
+        design,
+        library,
+        record,
+    })?;
+    Ok(Outcome::Done)
+}

@@ -1,0 +1,142 @@
+//! The command line: the parser, the dispatch to one file per command, and the exit code of
+//! each outcome (chosen in error.rs, the one place). Shared argument groups and value parsers
+//! are in args.rs; commands never import each other.
+
+pub mod analysis;
+pub mod args;
+pub mod budget;
+pub mod design;
+pub mod error;
+pub mod export;
+pub mod failures;
+pub mod listen;
+pub mod live;
+pub mod model;
+pub mod parts;
+pub mod ports;
+pub mod record;
+pub mod replay;
+pub mod report;
+pub mod signal;
+pub mod sim;
+pub mod watch;
+
+use std::ffi::OsString;
+
+use clap::{Parser, Subcommand};
+
+use self::error::{CliError, CliResult, Outcome, exit_code};
+
+/// Timing budgets for clocked discrete-logic machines, held against bench measurement.
+#[derive(Parser, Debug)]
+#[command(name = "slackmeter", version, about, long_about = None)]
+#[command(
+    after_help = "Exit codes: 0 fine, 1 runtime failure (I/O, device), 2 bad command line or \
+input file, 3 the clock does not fit the budget."
+)]
+pub struct Cli {
+    /// The command.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The commands.
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Compute the timing budget of a design: what each clock phase needs, f_max, slack.
+    #[command(
+        after_help = "Without DESIGN the built-in demo machine (designs/larkspur-8.toml) is used.\n\
+Quantities take SI units with or without a space: --vcc 4.75V, --freq \"1.8 MHz\", --temp 85, --duty 30%."
+    )]
+    Budget(self::budget::BudgetArgs),
+    /// List the part library (built-in parts plus a --parts folder).
+    Parts(self::parts::PartsArgs),
+    /// Run the virtual probe: the demo machine's clock, rails and lines, spoken in the probe
+    /// protocol on a pseudo-terminal, into a file or to standard output.
+    #[command(
+        after_help = "Examples:\n  slackmeter sim --pty\n  slackmeter sim --scenario sagging --pty --link /tmp/probe\n  \
+slackmeter sim --freq 1.5MHz --duty 30% --jitter 2ns --tick 8ns --rail VCC=4.9V,ripple=20mV --out run.bin --duration 5s\n  \
+slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --pty"
+    )]
+    #[command(mut_arg("design", |a| a.help(
+        "Design whose typical timing --fault-on-typ fails by (the built-in demo design by default)"
+    )))]
+    Sim(Box<self::sim::SimArgs>),
+    /// List the serial ports this system has, with their identification.
+    Ports,
+    /// Connect to a probe (or a virtual one), show what it is and count what it sends.
+    Listen(self::listen::ListenArgs),
+    /// Record a probe (or the virtual probe) to a file, headless, with a progress line.
+    #[command(mut_arg("design", |a| a.help(
+        "Design stored in the recording and used by --fault-on-typ (with --sim the built-in demo design by default)"
+    )))]
+    Record(Box<self::record::RecordArgs>),
+    /// Analyse a recording: every clock, rail and line figure with its uncertainty.
+    #[command(mut_arg("design", |a| a.help(
+        "Judge the clock against this design (the design embedded in the recording otherwise)"
+    )))]
+    Report(Box<self::report::ReportArgs>),
+    /// Export a recording's signals for a waveform viewer (VCD) or a spreadsheet (CSV).
+    Export(self::export::ExportArgs),
+    /// Set the failure onsets of several sweep recordings (one per supply) beside the budget's
+    /// f_max against supply: the measured f_fail(VCC) curve.
+    #[command(mut_arg("design", |a| a.help(
+        "The design whose f_max(VCC) the failures are set beside (the first file's embedded design otherwise)"
+    )))]
+    Failures(self::failures::FailuresArgs),
+    /// The live bench view: watch a probe (or the virtual probe) with figures and slack.
+    #[command(
+        after_help = "Keys are shown at the bottom of the view; ? shows them all.\nExample: slackmeter watch --sim"
+    )]
+    #[command(mut_arg("design", |a| a.help(
+        "Design the slack is shown against and --fault-on-typ fails by (the built-in demo design by default)"
+    )))]
+    Watch(Box<self::watch::WatchArgs>),
+    /// Replay a recording in the live view (p pauses, + - change speed, n jumps to a mark).
+    #[command(mut_arg("design", |a| a.help(
+        "Judge against this design (the one embedded in the recording otherwise)"
+    )))]
+    Replay(self::replay::ReplayArgs),
+}
+
+/// Run a parsed command.
+pub fn dispatch(command: Command) -> CliResult<Outcome> {
+    match command {
+        Command::Budget(a) => self::budget::run(a),
+        Command::Parts(a) => self::parts::run(a),
+        Command::Sim(a) => self::sim::run(*a),
+        Command::Ports => self::ports::run(),
+        Command::Listen(a) => self::listen::run(a),
+        Command::Record(a) => self::record::run(*a),
+        Command::Report(a) => self::report::run(*a),
+        Command::Export(a) => self::export::run(a),
+        Command::Failures(a) => self::failures::run(a),
+        Command::Watch(a) => self::watch::run(*a),
+        Command::Replay(a) => self::replay::run(a),
+    }
+}
+
+/// Parse `args` (the program name first), run the command, print any error; the exit code.
+pub fn run_with(args: impl IntoIterator<Item = impl Into<OsString> + Clone>) -> i32 {
+    let result = match Cli::try_parse_from(args) {
+        Ok(cli) => dispatch(cli.command),
+        Err(e) => {
+            // clap prints its own message; --help and --version are not errors
+            let _ = e.print();
+            let parsed = match e.use_stderr() {
+                true => Err(CliError::input(miette::miette!("{}", e.kind()))),
+                false => Ok(Outcome::Done),
+            };
+            return exit_code(&parsed);
+        }
+    };
+    if let Err(e) = &result {
+        eprintln!("{:?}", e.report);
+    }
+    exit_code(&result)
+}
+
+/// The program: this process's arguments; the exit code.
+pub fn run() -> i32 {
+    run_with(std::env::args_os())
+}

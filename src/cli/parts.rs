@@ -1,0 +1,94 @@
+//! `slackmeter parts`: the part library with each part's source and status.
+
+use miette::miette;
+
+use super::args::LibraryArgs;
+use super::error::{CliError, CliResult, Outcome};
+use crate::budget::library::{ArcKind, Status};
+
+/// Options of `parts`.
+#[derive(clap::Args, Debug)]
+pub struct PartsArgs {
+    /// Only parts of this family (e.g. 74HC).
+    #[arg(long)]
+    pub family: Option<String>,
+    /// The part library.
+    #[command(flatten)]
+    pub library: LibraryArgs,
+    /// Print JSON.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `slackmeter parts`.
+pub fn run(a: PartsArgs) -> CliResult<Outcome> {
+    let lib = a.library.load()?;
+    let parts: Vec<_> = lib
+        .parts
+        .iter()
+        .filter(|p| {
+            a.family
+                .as_ref()
+                .is_none_or(|f| lib.families[p.family].name.eq_ignore_ascii_case(f))
+        })
+        .collect();
+    if parts.is_empty() {
+        let fams: Vec<&str> = lib.families.iter().map(|f| f.name.as_str()).collect();
+        return Err(CliError::input(miette!(
+            help = format!("families: {}", fams.join(", ")),
+            "no parts in family {:?}",
+            a.family.unwrap_or_default()
+        )));
+    }
+    if a.json {
+        let doc: Vec<_> = parts
+            .iter()
+            .map(|p| {
+                serde_json::json!({
+                    "type": p.type_name,
+                    "family": lib.families[p.family].name,
+                    "function": p.function,
+                    "source": p.source,
+                    "status": p.status,
+                    "arcs": p.arcs.iter().map(|a| serde_json::json!({
+                        "name": a.name, "kind": a.kind, "status": a.status,
+                        "typ_status": a.typ.as_ref().map(|_| a.typ_status), "source": a.source,
+                    })).collect::<Vec<_>>(),
+                })
+            })
+            .collect();
+        println!("{}", serde_json::to_string_pretty(&doc)?);
+        return Ok(Outcome::Done);
+    }
+    println!(
+        "{:<15} {:<7} {:<12} arcs — function — source",
+        "type", "family", "status"
+    );
+    for p in parts {
+        let arcs: Vec<String> = p
+            .arcs
+            .iter()
+            .map(|a| match a.kind {
+                ArcKind::Delay => a.name.clone(),
+                k => format!("{}({})", a.name, format!("{k:?}").to_lowercase()),
+            })
+            .collect();
+        let status = match p.status {
+            Status::Seen => "seen",
+            Status::FromMemory => "from memory",
+        };
+        println!(
+            "{:<15} {:<7} {:<12} {} — {} — {}",
+            p.type_name,
+            lib.families[p.family].name,
+            status,
+            arcs.join(", "),
+            p.function,
+            p.source
+        );
+    }
+    for n in &lib.notes {
+        println!("note: {n}");
+    }
+    Ok(Outcome::Done)
+}

@@ -1,0 +1,53 @@
+//! `slackmeter watch`: the live view on a probe or the virtual probe.
+
+use std::path::PathBuf;
+
+use super::args::ProbeArgs;
+use super::design::DesignArgs;
+use super::error::{CliResult, Outcome};
+use super::live::show;
+use super::model::build_model;
+use crate::session::{Pace, SimSpec, SourceSpec};
+
+/// Options of `watch`.
+#[derive(clap::Args, Debug)]
+pub struct WatchArgs {
+    /// The probe, or the virtual probe.
+    #[command(flatten)]
+    pub probe: ProbeArgs,
+    /// The design the slack is shown against (and --fault-on-typ fails by).
+    #[command(flatten)]
+    pub design: DesignArgs,
+    /// Record from the start into this file (R starts/stops recording anyway).
+    #[arg(long, value_name = "FILE")]
+    pub record: Option<PathBuf>,
+    /// Show no slack (no design).
+    #[arg(long)]
+    pub no_design: bool,
+}
+
+/// `slackmeter watch`.
+pub fn run(a: WatchArgs) -> CliResult<Outcome> {
+    a.probe
+        .check("`slackmeter watch --sim` or `slackmeter watch /dev/ttyUSB0`")?;
+    let library = a.design.library()?;
+    let design = a.design.or_demo(&library)?;
+    let (spec, what) = match &a.probe.port {
+        Some(port) => (
+            SourceSpec::Port(a.probe.port_options.link_config(port)),
+            port.display().to_string(),
+        ),
+        None => {
+            let setup = build_model(&a.probe.model, &design, &library)?;
+            let spec = SimSpec {
+                model: setup.model,
+                notes: setup.notes,
+                pace: Pace::RealTime,
+                duration_ns: None,
+            };
+            (SourceSpec::Sim(spec), "virtual probe".to_string())
+        }
+    };
+    let design = (!a.no_design).then_some(design);
+    show(spec, what, design, library, a.record)
+}
