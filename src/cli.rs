@@ -240,7 +240,7 @@ fn budget_cmd(a: BudgetArgs) -> Result<i32> {
             file,
             crate::record::ReplayOptions::default(),
             crate::measure::EngineConfig::default(),
-            |_| {},
+            crate::measure::NoObserver,
         )?;
         if a.vcc.is_none()
             && let Some((_, mv)) = &snap.worst_rail

@@ -11,7 +11,7 @@ use miette::{IntoDiagnostic, Result, miette};
 use crate::budget::design::{DEMO_DESIGN, DEMO_NAME};
 use crate::cli_probe::{SimModelArgs, build_model, interrupt_flag, pos_time};
 use crate::link::{Link, LinkEvent, host_ns_now};
-use crate::measure::{EngineConfig, Feed, Window};
+use crate::measure::{EngineConfig, Feed, NoObserver, Observer, Window};
 use crate::record::{EmbeddedDesign, Header, Recorder, Recording, ReplayOptions};
 use crate::sim::SimProbe;
 
@@ -291,24 +291,24 @@ fn pos_time_or_zero(s: &str) -> std::result::Result<f64, String> {
         })
 }
 
-/// What `analyse` returns: the recording, the engine after the replay, its session snapshot and
-/// the replay summary.
-pub type Analysis = (
+/// What `analyse` returns: the recording, the engine after the replay (with its observer), its
+/// session snapshot and the replay summary.
+pub type Analysis<O = NoObserver> = (
     Recording,
-    Feed,
+    Feed<O>,
     crate::measure::Snapshot,
     crate::record::ReplaySummary,
 );
 
-/// Replay a recording through the engine (and `tap`, for plots).
-pub fn analyse(
+/// Replay a recording through the engine, watched by `observer` (plots; `NoObserver` else).
+pub fn analyse<O: Observer>(
     file: &std::path::Path,
     opts: ReplayOptions,
     cfg: EngineConfig,
-    tap: impl FnMut(&[u8]),
-) -> Result<Analysis> {
+    observer: O,
+) -> Result<Analysis<O>> {
     let mut rec = Recording::open(file).map_err(miette::Report::new)?;
-    let mut feed = Feed::new(cfg);
+    let mut feed = Feed::with_observer(cfg, observer);
     let bar = (std::io::stderr().is_terminal() && rec.len > 32 << 20).then(|| {
         let b = indicatif::ProgressBar::new(rec.len);
         b.set_style(
@@ -321,16 +321,11 @@ pub fn analyse(
         b
     });
     let sum = rec
-        .replay_tapped(
-            &mut feed,
-            opts,
-            |at| {
-                if let Some(b) = &bar {
-                    b.set_position(at);
-                }
-            },
-            tap,
-        )
+        .replay(&mut feed, opts, |at| {
+            if let Some(b) = &bar {
+                b.set_position(at);
+            }
+        })
         .map_err(miette::Report::new)?;
     if let Some(b) = bar {
         b.finish_and_clear();
@@ -346,15 +341,11 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
         to_s: a.to.map(|ns| ns * 1e-9),
         speed: None,
     };
-    let mut plots = a
+    let plots = a
         .plots
         .as_ref()
         .map(|_| crate::report::plots::PlotCollector::new());
-    let (rec, feed, snap, sum) = analyse(&a.file, opts, EngineConfig::default(), |b| {
-        if let Some(p) = plots.as_mut() {
-            p.push(b);
-        }
-    })?;
+    let (rec, feed, snap, sum) = analyse(&a.file, opts, EngineConfig::default(), plots)?;
     let file = a.file.display().to_string();
     // the design: given, or embedded in the recording
     let lib = crate::budget::Library::builtin();
@@ -395,15 +386,14 @@ pub fn report_cmd(a: ReportArgs) -> Result<i32> {
         }
         None => None,
     };
-    if let (Some(dir), Some(mut p)) = (&a.plots, plots) {
-        p.finish();
+    if let (Some(dir), Some(p)) = (&a.plots, feed.observer()) {
         let limits = snap
             .rails
             .iter()
             .map(|r| (r.name.clone(), r.limit_mv / 1000.0))
             .collect();
         let hists = feed.engine.clock_histograms(Window::Session);
-        let mut files = crate::report::plots::write(dir, &p, hists.as_ref(), &limits)
+        let mut files = crate::report::plots::write(dir, p, hists.as_ref(), &limits)
             .map_err(|e| miette!("cannot write plots into {}: {e}", dir.display()))?;
         if let (Some(d), Some(m)) = (&design, &margin) {
             let duty = m.duty;
@@ -584,8 +574,12 @@ pub fn failures_cmd(a: FailuresArgs) -> Result<i32> {
     };
     let mut rows = Vec::new();
     for f in &a.files {
-        let (rec, _, snap, sum) =
-            analyse(f, ReplayOptions::default(), EngineConfig::default(), |_| {})?;
+        let (rec, _, snap, sum) = analyse(
+            f,
+            ReplayOptions::default(),
+            EngineConfig::default(),
+            NoObserver,
+        )?;
         for dmg in &sum.damage {
             eprintln!(
                 "{}: damaged at byte {}: {} ({} bytes skipped)",
