@@ -8,11 +8,11 @@ use crc::{CRC_32_ISO_HDLC, Crc, Table};
 /// Protocol (and frame format) version this crate speaks.
 pub const VERSION: u8 = 1;
 /// Header length: version, type, sequence.
-pub const HEADER_LEN: usize = 4;
+const HEADER_LEN: usize = 4;
 /// CRC length.
-pub const CRC_LEN: usize = 4;
+const CRC_LEN: usize = 4;
 /// Largest decoded frame (header + body + CRC).
-pub const MAX_FRAME: usize = 1024;
+const MAX_FRAME: usize = 1024;
 /// Largest body.
 pub const MAX_BODY: usize = MAX_FRAME - HEADER_LEN - CRC_LEN;
 /// Largest frame on the wire: COBS overhead plus the delimiter.
@@ -98,7 +98,7 @@ pub fn encode_frame(
 }
 
 /// Check a decoded frame (header + body + CRC) and split it.
-pub fn parse_decoded(decoded: &[u8]) -> Result<RawFrame<'_>, FrameError> {
+fn parse_decoded(decoded: &[u8]) -> Result<RawFrame<'_>, FrameError> {
     if decoded.len() < HEADER_LEN + CRC_LEN {
         return Err(FrameError::Runt);
     }

@@ -10,8 +10,8 @@ pub mod frame;
 pub mod message;
 
 pub use frame::{
-    Counters, EncodeError, FrameError, Header, MAX_BODY, MAX_FRAME, MAX_WIRE, RawFrame,
-    StreamDecoder, VERSION, crc32, decode_frame, encode_frame,
+    Counters, EncodeError, FrameError, Header, MAX_BODY, MAX_WIRE, RawFrame, StreamDecoder,
+    VERSION, crc32, decode_frame, encode_frame,
 };
 pub use message::{
     Ack, Analog, BodyError, Channel, ChannelKind, Channels, Configure, CountWindow, DecodeError,

@@ -6,26 +6,30 @@ use std::path::Path;
 
 use super::error::CliResult;
 use crate::budget::{self, Corner, Design, Library, OperatingPoint};
-use crate::measure::{EngineConfig, Feed, Snapshot, Window};
+use crate::measure::{EngineConfig, Feed, NoObserver, Observer, Snapshot, Window};
 use crate::record::{Recording, ReplayOptions, ReplaySummary};
 
 /// A recording after its replay.
-pub struct Analysis {
+pub struct Analysis<O = NoObserver> {
     /// The file (its header).
     pub recording: Recording,
-    /// The engine after the replay.
-    pub feed: Feed,
+    /// The engine after the replay, with its observer.
+    pub feed: Feed<O>,
     /// The whole session's figures.
     pub snapshot: Snapshot,
     /// What the replay went through (marks, link events, damage).
     pub summary: ReplaySummary,
 }
 
-/// Replay `file` through the engine, handing every data payload to `tap` (plots); a progress
-/// bar shows on long files.
-pub fn analyse(file: &Path, opts: ReplayOptions, tap: impl FnMut(&[u8])) -> CliResult<Analysis> {
+/// Replay `file` through the engine, watched by `observer` (plots; `NoObserver` otherwise); a
+/// progress bar shows on long files.
+pub fn analyse<O: Observer>(
+    file: &Path,
+    opts: ReplayOptions,
+    observer: O,
+) -> CliResult<Analysis<O>> {
     let mut recording = Recording::open(file)?;
-    let mut feed = Feed::new(EngineConfig::default());
+    let mut feed = Feed::with_observer(EngineConfig::default(), observer);
     let bar = (std::io::stderr().is_terminal() && recording.len > 32 << 20).then(|| {
         let b = indicatif::ProgressBar::new(recording.len);
         if let Ok(style) = indicatif::ProgressStyle::with_template(
@@ -41,7 +45,7 @@ pub fn analyse(file: &Path, opts: ReplayOptions, tap: impl FnMut(&[u8])) -> CliR
             b.set_position(at);
         }
     };
-    let summary = recording.replay_tapped(&mut feed, opts, progress, tap)?;
+    let summary = recording.replay(&mut feed, opts, progress)?;
     if let Some(b) = bar {
         b.finish_and_clear();
     }

@@ -129,7 +129,7 @@ pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
     let mut op = operating_point(&a, &design)?;
     let mut measured_clock = None;
     if let Some(file) = &a.recording {
-        let an = analyse(file, ReplayOptions::default(), |_| {})?;
+        let an = analyse(file, ReplayOptions::default(), crate::measure::NoObserver)?;
         measured_clock = from_recording(&an.snapshot, &design, a.vcc.is_some(), &mut op);
     }
 

@@ -86,7 +86,7 @@ pub fn run(a: FailuresArgs) -> CliResult<Outcome> {
     let mut design: Option<Design> = None;
     let mut rows = Vec::new();
     for f in &a.files {
-        let an = analyse(f, ReplayOptions::default(), |_| {})?;
+        let an = analyse(f, ReplayOptions::default(), crate::measure::NoObserver)?;
         for dmg in &an.summary.damage {
             eprintln!(
                 "{}: damaged at byte {}: {} ({} bytes skipped)",

@@ -53,13 +53,12 @@ pub struct ReportArgs {
 /// The SVGs: the collector's, and with a margin the supply plot.
 fn write_plots(
     dir: &Path,
-    mut p: PlotCollector,
-    an: &Analysis,
+    p: &PlotCollector,
+    an: &Analysis<Option<PlotCollector>>,
     judged: Option<(&Design, &Margin)>,
     lib: &Library,
     temp_c: Option<f64>,
 ) -> CliResult<()> {
-    p.finish();
     let limits = an
         .snapshot
         .rails
@@ -67,7 +66,7 @@ fn write_plots(
         .map(|r| (r.name.clone(), r.limit_mv / 1000.0))
         .collect();
     let hists = an.feed.engine.clock_histograms(Window::Session);
-    let mut files = plots::write(dir, &p, hists.as_ref(), &limits).map_err(|e| {
+    let mut files = plots::write(dir, p, hists.as_ref(), &limits).map_err(|e| {
         CliError::runtime(miette!("cannot write plots into {}: {e}", dir.display()))
     })?;
     if let Some((d, m)) = judged {
@@ -106,12 +105,8 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         to_s: a.to.map(|ns| ns * 1e-9),
         speed: None,
     };
-    let mut plots = a.plots.as_ref().map(|_| PlotCollector::new());
-    let an = analyse(&a.file, opts, |b| {
-        if let Some(p) = plots.as_mut() {
-            p.push(b);
-        }
-    })?;
+    let plots = a.plots.as_ref().map(|_| PlotCollector::new());
+    let an = analyse(&a.file, opts, plots)?;
     let file = a.file.display().to_string();
     let header = &an.recording.parsed.header;
     let design = if a.no_design {
@@ -129,7 +124,7 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
             .inspect_err(|e| eprintln!("no margin: {e}"))
             .ok()
     });
-    if let (Some(dir), Some(p)) = (&a.plots, plots) {
+    if let (Some(dir), Some(p)) = (&a.plots, an.feed.observer()) {
         let judged = design.as_ref().zip(margin.as_ref());
         write_plots(dir, p, &an, judged, &lib, a.temp)?;
     }

@@ -1,13 +1,14 @@
 //! Export a recording's signals: a value change dump (IEEE Std 1364 VCD: clock and lines as
 //! wires, rails as reals, timescale from the probe tick) and CSV (one row per edge, line change
-//! or rail sample), through the general-purpose `vcd` and `csv` crates.
+//! or rail sample), through the general-purpose `vcd` and `csv` crates. The signals are what the
+//! measurement engine took in: its validated events, watched while the recording replays.
 
 use std::io::Write;
 
-use firmware_protocol::{ChannelKind, Message, StreamDecoder};
+use slackmeter_core::measure::{EngineConfig, Event, Feed, Observer};
+use slackmeter_core::probe::ChannelKind;
 
-use crate::record::Recording;
-use crate::record::format::ChunkKind;
+use crate::record::{Recording, RecordingError, ReplayOptions};
 
 /// One signal event.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -25,9 +26,8 @@ pub struct Signal {
     pub id: u8,
     /// Label.
     pub label: String,
-    /// "edge", "line" or "analog".
-    pub kind: &'static str,
-    scale: (i32, u32, i32),
+    /// What it carries.
+    pub kind: ChannelKind,
 }
 
 /// Everything a recording carries, as signal events in time order.
@@ -39,69 +39,60 @@ pub struct Signals {
     pub tick_ps: u64,
     /// Channels.
     pub signals: Vec<Signal>,
-    /// (tick, channel id, value), sorted by tick.
+    /// (tick, channel id, value), sorted by tick (the engine's timeline).
     pub events: Vec<(u64, u8, Value)>,
 }
 
-/// Read every event of a recording (memory grows with the events: meant for files a waveform
-/// viewer can open).
-pub fn collect(rec: &mut Recording) -> Result<Signals, crate::record::RecordingError> {
-    let mut out = Signals::default();
-    let mut dec = StreamDecoder::new();
-    let path = rec.path.clone();
-    let reader = rec.chunk_reader();
-    while let Some(c) = reader
-        .next_chunk()
-        .map_err(|err| crate::record::RecordingError::Io {
-            path: path.clone(),
-            err,
-        })?
-    {
-        if c.kind != ChunkKind::Data {
-            continue;
-        }
-        dec.push(&c.payload, |f| match Message::decode(&f) {
-            Ok(Message::Hello(h)) => {
-                out.tick_ns = 1e9 * f64::from(h.tick_den) / h.tick_num_hz as f64;
-                out.tick_ps = (out.tick_ns * 1000.0).round().max(1.0) as u64;
-                out.signals = h
+impl Observer for Signals {
+    fn event(&mut self, ev: &Event<'_>) {
+        match *ev {
+            Event::Probe { desc, new: true } => {
+                self.tick_ns = desc.tick_ns;
+                self.tick_ps = desc.tick_ps();
+                self.signals = desc
                     .channels
                     .iter()
-                    .map(|ch| Signal {
-                        id: ch.id,
-                        label: ch.label.to_string(),
-                        kind: match ch.kind {
-                            ChannelKind::Edge => "edge",
-                            ChannelKind::Line => "line",
-                            ChannelKind::Analog => "analog",
-                        },
-                        scale: (ch.scale_num_uv, ch.scale_den, ch.offset_uv),
+                    .map(|c| Signal {
+                        id: c.id,
+                        label: c.label.clone(),
+                        kind: c.kind,
                     })
                     .collect();
             }
-            Ok(Message::Edges(e) | Message::Lines(e)) => {
-                let mut level = e.first_rising;
-                for t in e.ticks() {
-                    out.events.push((t, e.channel, Value::Level(level)));
+            Event::Edges {
+                channel,
+                first_rising,
+                ticks,
+            }
+            | Event::Lines {
+                channel,
+                first_rising,
+                ticks,
+            } => {
+                let mut level = first_rising;
+                for &t in ticks {
+                    self.events.push((t, channel, Value::Level(level)));
                     level = !level;
                 }
             }
-            Ok(Message::Analog(a)) => {
-                if let Some(s) = out.signals.iter().find(|s| s.id == a.channel) {
-                    let (num, den, off) = s.scale;
-                    let mut t = a.first_tick;
-                    for raw in a.samples() {
-                        let mv = (f64::from(raw) * f64::from(num) / f64::from(den)
-                            + f64::from(off))
-                            / 1000.0;
-                        out.events.push((t, a.channel, Value::Millivolts(mv)));
-                        t += u64::from(a.interval_ticks);
-                    }
-                }
-            }
+            Event::Analog {
+                channel, samples, ..
+            } => self.events.extend(
+                samples
+                    .iter()
+                    .map(|s| (s.tick, channel, Value::Millivolts(s.mv))),
+            ),
             _ => {}
-        });
+        }
     }
+}
+
+/// Read every event of a recording, replayed through the engine as `report` replays it (memory
+/// grows with the events: meant for files a waveform viewer can open).
+pub fn collect(rec: &mut Recording) -> Result<Signals, RecordingError> {
+    let mut feed = Feed::with_observer(EngineConfig::default(), Signals::default());
+    rec.replay(&mut feed, ReplayOptions::default(), |_| {})?;
+    let mut out = feed.into_observer();
     out.events.sort_by_key(|e| e.0);
     Ok(out)
 }
@@ -113,7 +104,7 @@ pub fn timescale(tick_ps: u64) -> (u32, vcd::TimescaleUnit, u64) {
         (100, 100, vcd::TimescaleUnit::PS),
         (10, 10, vcd::TimescaleUnit::PS),
     ] {
-        if tick_ps % ps == 0 {
+        if tick_ps.is_multiple_of(ps) {
             return (n, unit, ps);
         }
     }
@@ -139,7 +130,7 @@ pub fn write_vcd(s: &Signals, w: impl Write) -> std::io::Result<()> {
                 }
             })
             .collect();
-        let id = if sig.kind == "analog" {
+        let id = if sig.kind == ChannelKind::Analog {
             v.add_var(vcd::VarType::Real, 64, &name, None)?
         } else {
             v.add_wire(1, &name)?
@@ -175,7 +166,7 @@ pub fn write_csv(s: &Signals, w: impl Write) -> Result<(), csv::Error> {
     for &(tick, ch, val) in &s.events {
         let sig = s.signals.iter().find(|x| x.id == ch);
         let label = sig.map_or("?", |x| x.label.as_str());
-        let kind = sig.map_or("?", |x| x.kind);
+        let kind = sig.map_or("?", |x| x.kind.word());
         let value = match val {
             Value::Level(b) => (b as u8).to_string(),
             Value::Millivolts(mv) => format!("{:.4}", mv / 1000.0),

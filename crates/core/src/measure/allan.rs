@@ -1,72 +1,9 @@
-//! Allan deviation (NIST SP 1065, "Handbook of Frequency Stability Analysis"): batch estimators
-//! on fractional frequency data, and a streaming overlapping estimator on phase samples.
-
-/// Non-overlapping Allan deviation of fractional frequency data `y` (spacing τ0) at τ = m·τ0.
-pub fn adev(y: &[f64], m: usize) -> Option<f64> {
-    if m == 0 {
-        return None;
-    }
-    let groups: Vec<f64> = y
-        .chunks_exact(m)
-        .map(|c| c.iter().sum::<f64>() / m as f64)
-        .collect();
-    if groups.len() < 2 {
-        return None;
-    }
-    let s: f64 = groups.windows(2).map(|w| (w[1] - w[0]).powi(2)).sum();
-    Some((s / (2.0 * (groups.len() - 1) as f64)).sqrt())
-}
-
-/// Phase data from fractional frequency: x0 = 0, x(i+1) = x(i) + y(i)·τ0 (τ0 = 1).
-fn phase(y: &[f64]) -> Vec<f64> {
-    let mut x = Vec::with_capacity(y.len() + 1);
-    x.push(0.0);
-    for v in y {
-        x.push(x[x.len() - 1] + v);
-    }
-    x
-}
-
-/// Overlapping Allan deviation of fractional frequency data at τ = m·τ0.
-pub fn oadev(y: &[f64], m: usize) -> Option<f64> {
-    oadev_phase(&phase(y), m, 1.0)
-}
-
-/// Overlapping Allan deviation from phase samples `x` spaced τ0 apart, at τ = m·τ0.
-pub fn oadev_phase(x: &[f64], m: usize, tau0: f64) -> Option<f64> {
-    if m == 0 || x.len() < 2 * m + 1 {
-        return None;
-    }
-    let n = x.len() - 2 * m;
-    let s: f64 = (0..n)
-        .map(|i| (x[i + 2 * m] - 2.0 * x[i + m] + x[i]).powi(2))
-        .sum();
-    let tau = m as f64 * tau0;
-    Some((s / (2.0 * n as f64 * tau * tau)).sqrt())
-}
-
-/// Modified Allan deviation of fractional frequency data at τ = m·τ0.
-pub fn mdev(y: &[f64], m: usize) -> Option<f64> {
-    let x = phase(y);
-    if m == 0 || x.len() < 3 * m + 1 {
-        return None;
-    }
-    let n = x.len();
-    let terms = n - 3 * m + 1;
-    let mut s = 0.0;
-    for j in 0..terms {
-        let mut inner = 0.0;
-        for i in j..j + m {
-            inner += x[i + 2 * m] - 2.0 * x[i + m] + x[i];
-        }
-        s += inner * inner;
-    }
-    let m = m as f64;
-    Some((s / (2.0 * m.powi(4) * terms as f64)).sqrt())
-}
+//! Allan deviation (NIST SP 1065, "Handbook of Frequency Stability Analysis"): a streaming
+//! overlapping estimator on phase samples, checked against the handbook's batch estimators
+//! (kept with the tests) and its test data.
 
 /// Largest octave τ = 2^k·τ0 the streaming estimator follows.
-pub const MAX_OCTAVE: usize = 10;
+const MAX_OCTAVE: usize = 10;
 
 /// Streaming overlapping Allan deviation at τ = 2^k·τ0 (k = 0…10) from phase samples (ns)
 /// taken every τ0; memory is a ring of 2·2^10 + 1 samples.
@@ -78,7 +15,7 @@ pub struct AllanStream {
     sums: [f64; MAX_OCTAVE + 1],
     counts: [u64; MAX_OCTAVE + 1],
     /// Phase sample spacing, s.
-    pub tau0_s: f64,
+    tau0_s: f64,
 }
 
 impl AllanStream {
@@ -117,11 +54,6 @@ impl AllanStream {
         self.len = 0;
     }
 
-    /// Forget everything.
-    pub fn clear(&mut self) {
-        *self = AllanStream::new(self.tau0_s);
-    }
-
     /// (τ in s, overlapping ADEV (fractional), number of terms) for each octave with data.
     pub fn points(&self) -> Vec<(f64, f64, u64)> {
         (0..=MAX_OCTAVE)
@@ -139,6 +71,70 @@ impl AllanStream {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Non-overlapping Allan deviation of fractional frequency data `y` (spacing τ0) at τ = m·τ0.
+    pub fn adev(y: &[f64], m: usize) -> Option<f64> {
+        if m == 0 {
+            return None;
+        }
+        let groups: Vec<f64> = y
+            .chunks_exact(m)
+            .map(|c| c.iter().sum::<f64>() / m as f64)
+            .collect();
+        if groups.len() < 2 {
+            return None;
+        }
+        let s: f64 = groups.windows(2).map(|w| (w[1] - w[0]).powi(2)).sum();
+        Some((s / (2.0 * (groups.len() - 1) as f64)).sqrt())
+    }
+
+    /// Phase data from fractional frequency: x0 = 0, x(i+1) = x(i) + y(i)·τ0 (τ0 = 1).
+    fn phase(y: &[f64]) -> Vec<f64> {
+        let mut x = Vec::with_capacity(y.len() + 1);
+        x.push(0.0);
+        for v in y {
+            x.push(x[x.len() - 1] + v);
+        }
+        x
+    }
+
+    /// Overlapping Allan deviation of fractional frequency data at τ = m·τ0.
+    pub fn oadev(y: &[f64], m: usize) -> Option<f64> {
+        oadev_phase(&phase(y), m, 1.0)
+    }
+
+    /// Overlapping Allan deviation from phase samples `x` spaced τ0 apart, at τ = m·τ0.
+    pub fn oadev_phase(x: &[f64], m: usize, tau0: f64) -> Option<f64> {
+        if m == 0 || x.len() < 2 * m + 1 {
+            return None;
+        }
+        let n = x.len() - 2 * m;
+        let s: f64 = (0..n)
+            .map(|i| (x[i + 2 * m] - 2.0 * x[i + m] + x[i]).powi(2))
+            .sum();
+        let tau = m as f64 * tau0;
+        Some((s / (2.0 * n as f64 * tau * tau)).sqrt())
+    }
+
+    /// Modified Allan deviation of fractional frequency data at τ = m·τ0.
+    pub fn mdev(y: &[f64], m: usize) -> Option<f64> {
+        let x = phase(y);
+        if m == 0 || x.len() < 3 * m + 1 {
+            return None;
+        }
+        let n = x.len();
+        let terms = n - 3 * m + 1;
+        let mut s = 0.0;
+        for j in 0..terms {
+            let mut inner = 0.0;
+            for i in j..j + m {
+                inner += x[i + 2 * m] - 2.0 * x[i + m] + x[i];
+            }
+            s += inner * inner;
+        }
+        let m = m as f64;
+        Some((s / (2.0 * m.powi(4) * terms as f64)).sqrt())
+    }
 
     const NBS14_9: [f64; 9] = [
         892.0, 809.0, 823.0, 798.0, 671.0, 644.0, 883.0, 903.0, 677.0,

@@ -82,12 +82,12 @@ impl LineState {
     pub fn empty_acc() -> LineAcc {
         LineAcc::new()
     }
-    /// One change to `high` at `tick`.
+    /// Continuity broke (time ran backwards, ticks ran out): forget the open pulse.
+    pub fn break_continuity(&mut self) {
+        self.last_rise = None;
+    }
+    /// One change to `high` at `tick` (after the last change).
     pub fn change(&mut self, tick: u64, high: bool) {
-        if self.last_change.is_some_and(|l| tick <= l) {
-            // time ran backwards (a probe restart or bug): forget the open pulse
-            self.last_rise = None;
-        }
         self.level = Some(high);
         self.last_change = Some(tick);
         self.acc.edges += 1;

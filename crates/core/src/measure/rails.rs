@@ -138,8 +138,9 @@ impl RailState {
         self.origin.map(RailAcc::new)
     }
 
-    /// One sample at `tick`, `interval_ticks` after the previous one.
-    pub fn sample(&mut self, tick: u64, raw: u16, interval_ticks: u32) {
+    /// One sample at `tick`, `interval_ticks` after the previous one: its raw count and its
+    /// calibrated value (mV).
+    pub fn sample(&mut self, tick: u64, raw: u16, mv: f64, interval_ticks: u32) {
         let raw = i64::from(raw);
         if self.origin.is_none() {
             self.origin = Some(raw);
@@ -148,7 +149,6 @@ impl RailState {
         if self.acc.is_none() {
             self.acc = self.empty_acc();
         }
-        let mv = self.mv(raw);
         self.last_mv = Some(mv);
         let seg_ticks = (self.cfg.segment_ms * 1e6 / self.tick_ns) as u64;
         if tick.saturating_sub(self.seg_start) >= seg_ticks.max(1) {

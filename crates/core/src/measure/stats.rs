@@ -108,12 +108,10 @@ pub struct IntStats {
     sumsq: i128,
     /// Smallest sample.
     pub min: i64,
-    /// Where the smallest sample ended (tick) and its index.
+    /// Where the smallest sample ended (tick) and its index (the earliest of equal ones).
     pub min_at: (u64, u64),
     /// Largest sample.
     pub max: i64,
-    /// Where the largest sample ended (tick) and its index.
-    pub max_at: (u64, u64),
 }
 
 impl IntStats {
@@ -127,7 +125,6 @@ impl IntStats {
             min: i64::MAX,
             min_at: (0, 0),
             max: i64::MIN,
-            max_at: (0, 0),
         }
     }
 
@@ -143,15 +140,12 @@ impl IntStats {
             self.min = x;
             self.min_at = (tick, index);
         }
-        if x > self.max {
-            self.max = x;
-            self.max_at = (tick, index);
-        }
+        self.max = self.max.max(x);
     }
 
     /// Add `x[i]`, which ended at `ticks[i]` and is the `first_index + i`-th of its kind, for
     /// every i, given the run's sums `r`: exactly what [`IntStats::add`] in turn gives, without
-    /// a pass over the run (but to find where a new extreme lies).
+    /// a pass over the run (but to find where a new minimum lies).
     #[inline(always)]
     pub fn add_sums(&mut self, r: &RunSums, x: &[i64], ticks: &[u64], first_index: u64) {
         debug_assert!(ticks.len() >= x.len());
@@ -164,20 +158,16 @@ impl IntStats {
         self.sum += r.sum_e + n * c;
         self.sumsq += r.sum_ee + 2 * c * r.sum_e + n * c * c;
         self.n += r.n;
-        // strict comparisons: the earliest extreme wins, as with add()
+        // a strict comparison: the earliest minimum wins, as with add()
         if r.lo < self.min {
             let i = x.iter().position(|&v| v == r.lo).unwrap_or(0);
             self.min = r.lo;
             self.min_at = (ticks[i], first_index + i as u64);
         }
-        if r.hi > self.max {
-            let i = x.iter().position(|&v| v == r.hi).unwrap_or(0);
-            self.max = r.hi;
-            self.max_at = (ticks[i], first_index + i as u64);
-        }
+        self.max = self.max.max(r.hi);
     }
 
-    /// Fold another block (same origin) into this one; earliest extreme wins ties.
+    /// Fold another block (same origin) into this one; the earliest minimum wins ties.
     pub fn merge(&mut self, o: &IntStats) {
         debug_assert_eq!(self.origin, o.origin);
         self.n += o.n;
@@ -187,10 +177,7 @@ impl IntStats {
             self.min = o.min;
             self.min_at = o.min_at;
         }
-        if o.max > self.max || (o.max == self.max && o.max_at.0 < self.max_at.0) {
-            self.max = o.max;
-            self.max_at = o.max_at;
-        }
+        self.max = self.max.max(o.max);
     }
 
     /// Mean (None when empty).
@@ -226,7 +213,7 @@ impl IntStats {
 }
 
 /// Deviations kept in the dense exact array: |x − reference| ≤ DENSE_HALF.
-pub const DENSE_HALF: i64 = 2047;
+const DENSE_HALF: i64 = 2047;
 
 /// A histogram of integer samples as deviations from a reference value: one exact bucket per
 /// tick within ±2047 ticks of it (a dense array: recording costs one increment, which the
@@ -328,13 +315,8 @@ impl DevHistogram {
     }
 
     /// Samples recorded.
-    pub fn len(&self) -> u64 {
+    fn len(&self) -> u64 {
         self.dense.iter().sum::<u64>() + self.above.len() + self.below.len()
-    }
-
-    /// Whether empty.
-    pub fn is_empty(&self) -> bool {
-        self.len() == 0
     }
 
     /// Add another histogram with the same reference.

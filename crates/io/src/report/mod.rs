@@ -5,8 +5,10 @@ pub mod margin;
 pub mod plots;
 pub mod recording;
 
-/// A recording replays into the measurement engine's byte feed.
-impl crate::record::replay::ReplaySink for slackmeter_core::measure::Feed {
+use slackmeter_core::measure::{Feed, Observer};
+
+/// A recording replays into the measurement engine's byte feed (with whatever observes it).
+impl<O: Observer> crate::record::replay::ReplaySink for Feed<O> {
     fn data(&mut self, bytes: &[u8]) {
         self.push(bytes);
     }
@@ -17,7 +19,7 @@ impl crate::record::replay::ReplaySink for slackmeter_core::measure::Feed {
         self.restart_sequence();
     }
     fn reset(&mut self) {
-        self.engine.reset();
+        Feed::reset(self);
     }
     fn probe_time_s(&self) -> f64 {
         self.engine.snapshot_time_s()

@@ -1,16 +1,19 @@
 //! SVG plots of a recording (plotters, SVG backend: no system fonts needed): period and
 //! high/low time histograms, TIE over time, each rail over time with its limit.
 //!
-//! Time series are decimated while streaming (min/max per bucket, buckets doubling in width
-//! past 2048), so memory stays bounded whatever the recording's length.
+//! The plots watch the engine (an observer of its feed): the TIE is drawn from the very records
+//! the TIE figures were taken from (glitch edges set aside, no record across a continuity
+//! break), the rails from the calibrated samples the rail figures were taken from. Time series
+//! are decimated while streaming (min/max per bucket, buckets doubling in width past 2048), so
+//! memory stays bounded whatever the recording's length.
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
-use firmware_protocol::{FLAG_BURST_START, FLAG_LOST_BEFORE, Message, StreamDecoder};
 use plotters::prelude::*;
 
-use slackmeter_core::measure::stats::DevHistogram;
+use slackmeter_core::measure::{DevHistogram, Event, Observer, clock::detrended};
+use slackmeter_core::probe::ChannelKind;
 
 const MAX_BUCKETS: usize = 2048;
 
@@ -84,21 +87,18 @@ impl Decimator {
 
 struct RailSeries {
     label: String,
-    scale: (i32, u32, i32),
     series: Decimator,
 }
 
-/// Watches the same bytes as the engine and keeps what the plots need.
+/// Watches the engine and keeps what the plots need.
 #[derive(Default)]
 pub struct PlotCollector {
-    dec: StreamDecoder,
     tick_ns: f64,
+    /// The clock the figures are of (the lowest channel id), and the bucket width (1 ms).
     clock: Option<u8>,
+    width_ticks: u64,
     rails: BTreeMap<u8, RailSeries>,
     tie: Decimator,
-    record: Vec<u64>,
-    level: bool,
-    typ_period: f64,
 }
 
 impl PlotCollector {
@@ -109,125 +109,63 @@ impl PlotCollector {
             ..PlotCollector::default()
         }
     }
+}
 
-    fn flush_record(&mut self) {
-        let t = std::mem::take(&mut self.record);
-        if t.len() < 8 {
-            return;
-        }
-        // TIE within the record: rising edges against their own least-squares line
-        for (&x, r) in t.iter().zip(slackmeter_core::measure::clock::detrended(&t)) {
-            self.tie.push(x, r * self.tick_ns);
-        }
-    }
-
-    /// Bytes as recorded.
-    pub fn push(&mut self, bytes: &[u8]) {
-        let mut hellos = Vec::new();
-        let mut edges: Vec<(u8, bool, u8, Vec<u64>)> = Vec::new();
-        let mut analog: Vec<(u8, u64, u32, Vec<u16>)> = Vec::new();
-        self.dec.push(bytes, |f| match Message::decode(&f) {
-            Ok(Message::Hello(h)) => hellos.push((
-                1e9 * f64::from(h.tick_den) / h.tick_num_hz as f64,
-                h.channels
+impl Observer for PlotCollector {
+    fn event(&mut self, ev: &Event<'_>) {
+        match *ev {
+            Event::Probe { desc, new: true } => {
+                self.tick_ns = desc.tick_ns;
+                self.width_ticks = (1e6 / desc.tick_ns).max(1.0) as u64;
+                self.clock = desc
+                    .channels
                     .iter()
-                    .map(|c| {
-                        (
-                            c.id,
-                            c.kind,
-                            c.label.to_string(),
-                            (c.scale_num_uv, c.scale_den, c.offset_uv),
-                        )
-                    })
-                    .collect::<Vec<_>>(),
-            )),
-            Ok(Message::Edges(e)) => {
-                edges.push((e.channel, e.first_rising, e.flags, e.ticks().collect()))
-            }
-            Ok(Message::Analog(a)) => analog.push((
-                a.channel,
-                a.first_tick,
-                a.interval_ticks,
-                a.samples().collect(),
-            )),
-            Ok(_) | Err(_) => {}
-        });
-        for (tick_ns, chans) in hellos {
-            self.tick_ns = tick_ns;
-            let ms = (1e6 / tick_ns).max(1.0) as u64;
-            self.tie = Decimator::new(ms);
-            self.clock = chans
-                .iter()
-                .find(|c| c.1 == firmware_protocol::ChannelKind::Edge)
-                .map(|c| c.0);
-            for (id, kind, label, scale) in chans {
-                if kind == firmware_protocol::ChannelKind::Analog {
-                    self.rails.insert(
-                        id,
-                        RailSeries {
-                            label,
-                            scale,
-                            series: Decimator::new(ms),
-                        },
-                    );
-                }
-            }
-        }
-        for (ch, first, flags, ticks) in edges {
-            if Some(ch) != self.clock {
-                continue;
-            }
-            if flags & (FLAG_LOST_BEFORE | FLAG_BURST_START) != 0 {
-                self.flush_record();
-            }
-            self.level = first;
-            for t in ticks {
-                if self.level {
-                    // a rising edge closer than ¾ of the typical period to the last one kept is a
-                    // glitch's: it is not a clock cycle
-                    let keep = match self.record.last() {
-                        Some(&last) => {
-                            (t - last) as f64 >= 0.75 * self.typ_period || self.typ_period == 0.0
-                        }
-                        None => true,
-                    };
-                    if keep {
-                        if let Some(&last) = self.record.last() {
-                            let p = (t - last) as f64;
-                            self.typ_period = if self.typ_period == 0.0 {
-                                p
-                            } else {
-                                self.typ_period + (p - self.typ_period) / 64.0
-                            };
-                        }
-                        self.record.push(t);
-                        if self.record.len() >= 1024 {
-                            self.flush_record();
-                        }
+                    .filter(|c| c.kind == ChannelKind::Edge)
+                    .map(|c| c.id)
+                    .min();
+                self.rails.clear();
+                for c in &desc.channels {
+                    if c.kind == ChannelKind::Analog {
+                        self.rails.entry(c.id).or_insert_with(|| RailSeries {
+                            label: c.label.clone(),
+                            series: Decimator::new(self.width_ticks),
+                        });
                     }
                 }
-                self.level = !self.level;
+                self.tie = Decimator::new(self.width_ticks);
             }
-        }
-        for (ch, first, interval, samples) in analog {
-            if let Some(r) = self.rails.get_mut(&ch) {
-                let (num, den, off) = r.scale;
-                let mut t = first;
-                for s in samples {
-                    // volts (µV → V)
-                    r.series.push(
-                        t,
-                        (f64::from(s) * f64::from(num) / f64::from(den) + f64::from(off)) * 1e-6,
-                    );
-                    t += u64::from(interval);
+            Event::Analog {
+                channel, samples, ..
+            } => {
+                if let Some(r) = self.rails.get_mut(&channel) {
+                    for s in samples {
+                        r.series.push(s.tick, s.mv / 1000.0);
+                    }
                 }
+            }
+            _ => {}
+        }
+    }
+
+    fn wants_tie_records(&self) -> bool {
+        true
+    }
+
+    /// TIE within the record: its rising edges against their own least-squares line.
+    fn tie_record(&mut self, channel: u8, rises: &[u64]) {
+        if Some(channel) == self.clock {
+            for (&x, r) in rises.iter().zip(detrended(rises)) {
+                self.tie.push(x, r * self.tick_ns);
             }
         }
     }
 
-    /// Finish the open TIE record.
-    pub fn finish(&mut self) {
-        self.flush_record();
+    /// Only what the figures cover is drawn.
+    fn reset(&mut self) {
+        self.tie = Decimator::new(self.width_ticks);
+        for r in self.rails.values_mut() {
+            r.series = Decimator::new(self.width_ticks);
+        }
     }
 }
 

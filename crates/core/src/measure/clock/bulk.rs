@@ -6,98 +6,10 @@
 //! yields (tested against it below, `bulk_equals_per_edge`), several times faster.
 
 use super::super::stats::RunSums;
-use super::{BATCH, ClockState, MAX_GAP_TICKS, REFRESH, seg_add, tie_record_pkpk};
-
-/// Most periods one bulk step takes (one refresh segment), plus the opening values.
-const CAP: usize = REFRESH as usize + 2;
-
-/// Working arrays of one bulk step, kept with the channel so that a step allocates nothing.
-#[derive(Clone)]
-pub(super) struct Scratch {
-    /// The last committed rise, then the step's committed rises.
-    rises: [u64; CAP],
-    /// The last committed fall, then the step's committed falls.
-    falls: [u64; CAP],
-    period: [i64; CAP],
-    high: [i64; CAP],
-    low: [i64; CAP],
-    tmp: [i64; CAP],
-    /// A TIE record less the chord through its ends.
-    tie: Vec<i64>,
-}
-
-impl Scratch {
-    /// Empty arrays.
-    pub(super) fn new() -> Box<Scratch> {
-        Box::new(Scratch {
-            rises: [0; CAP],
-            falls: [0; CAP],
-            period: [0; CAP],
-            high: [0; CAP],
-            low: [0; CAP],
-            tmp: [0; CAP],
-            tie: Vec::new(),
-        })
-    }
-
-    /// The TIE record buffer (for the per-edge path).
-    pub(super) fn tie_buf(&mut self) -> &mut Vec<i64> {
-        &mut self.tie
-    }
-}
-
-/// The latest rises of the current run, oldest first, contiguous (so that "N rises back" is a
-/// slice offset); only the newest `keep + 1` are ever read, older ones are dropped in bulk.
-#[derive(Clone)]
-pub(super) struct RiseHistory {
-    buf: Vec<u64>,
-    keep: usize,
-}
-
-impl RiseHistory {
-    /// A history for looking up to `keep` rises back.
-    pub(super) fn new(keep: usize) -> RiseHistory {
-        RiseHistory {
-            buf: Vec::with_capacity(keep + 2 * CAP),
-            keep,
-        }
-    }
-    pub(super) fn clear(&mut self) {
-        self.buf.clear();
-    }
-    pub(super) fn is_empty(&self) -> bool {
-        self.buf.is_empty()
-    }
-    /// Append rises (at most `CAP` at a time), first dropping all but the newest `keep + 1`
-    /// when the buffer would outgrow its capacity.
-    pub(super) fn extend(&mut self, r: &[u64]) {
-        if self.buf.len() + r.len() > self.keep + 2 * CAP {
-            let drop = self.buf.len() - (self.keep + 1).min(self.buf.len());
-            self.buf.drain(..drop);
-        }
-        self.buf.extend_from_slice(r);
-    }
-    /// Every rise held, oldest first.
-    pub(super) fn as_slice(&self) -> &[u64] {
-        &self.buf
-    }
-}
-
-impl std::fmt::Debug for RiseHistory {
-    /// What can still be read: how many rises (up to `keep + 1`) and the newest ones.
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        let from = self.buf.len() - (self.keep + 1).min(self.buf.len());
-        f.debug_list().entries(&self.buf[from..]).finish()
-    }
-}
-
-impl std::fmt::Debug for Scratch {
-    /// Working arrays carry no state between steps: nothing to show (and two channels with
-    /// equal state compare equal by their Debug text).
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str("Scratch")
-    }
-}
+use super::acc::{FIT_LIM, seg_add};
+use super::config::{BATCH, MAX_GAP_TICKS, REFRESH};
+use super::state::ClockState;
+use super::tie::close_record;
 
 /// The bounds of a bulk step from the steady state (see [`ClockState::steady`]).
 struct Steady {
@@ -157,9 +69,6 @@ fn diff_extremes(out: &mut [i64], a: &[u64], b: &[u64]) -> (i64, i64) {
     (lo, hi)
 }
 
-/// The fit's plain-arithmetic bound (see `FitSums::add`).
-const FIT_LIM: i128 = 1 << 40;
-
 impl ClockState {
     /// Edges in order, the first rising when `first_rising` (polarities alternate): the same as
     /// [`ClockState::edge`] for each in turn, with clean stretches taken in bulk.
@@ -184,7 +93,7 @@ impl ClockState {
     /// The loop itself, inlined into each compiled variant; returns how many bulk steps it took,
     /// and how many of them were taken without the edge-by-edge scan.
     #[inline(always)]
-    fn edges_here(&mut self, ticks: &[u64], first_rising: bool) -> (usize, usize) {
+    pub(super) fn edges_here(&mut self, ticks: &[u64], first_rising: bool) -> (usize, usize) {
         let (mut i, mut steps, mut unscanned) = (0, 0, 0);
         let mut rising = first_rising;
         while i < ticks.len() {
@@ -390,7 +299,7 @@ impl ClockState {
         if let Some(st) = check {
             // every committed gap is a low or a high; then the last edge's own gap, and the
             // newest rise a fall commits (the rises of a clean stretch increase)
-            let last_rises = rising ^ (n % 2 == 0);
+            let last_rises = rising ^ n.is_multiple_of(2);
             let last = (t[n - 1].wrapping_sub(t[n - 2]), last_rises);
             let newest = match (last_rises, n) {
                 (false, _) => t[n - 2],
@@ -540,11 +449,11 @@ impl ClockState {
             self.record.extend_from_slice(&rest[..take]);
             rest = &rest[take..];
             if self.record.len() >= self.cfg.tie_record {
-                let (pkpk, ss, cnt) = tie_record_pkpk(&self.record, &mut sc.tie);
-                a.tie_rec_max_pkpk = a.tie_rec_max_pkpk.max(pkpk);
-                a.tie_rec_ss += ss;
-                a.tie_rec_n += cnt;
-                self.record.clear();
+                a.add_tie_record(close_record(
+                    &mut self.record,
+                    &mut sc.tie,
+                    &mut self.records_out,
+                ));
             }
         }
         // Allan phase samples every `allan_every` periods
@@ -583,8 +492,7 @@ impl ClockState {
         }
         // edges seen, and the channel's state after the step
         a.edges += n as u64;
-        a.span = Some(a.span.map_or((t[0], t[n - 1]), |(s, _)| (s, t[n - 1])));
-        self.pending = Some((t[n - 1], rising ^ (n % 2 == 0)));
+        self.pending = Some((t[n - 1], rising ^ n.is_multiple_of(2)));
         self.last_edge = Some(t[n - 2]);
         self.last_rise = Some(rises[nr]);
         self.last_fall = Some(falls[nf]);
@@ -592,123 +500,5 @@ impl ClockState {
         self.anchor = Some((rises[nr], kidx + nr as u64));
         self.count_periods(nr as u32);
         true
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::super::ClockConfig;
-    use super::*;
-    use rand::{Rng, SeedableRng};
-    use rand_xoshiro::Xoshiro256PlusPlus;
-
-    /// A stream of (tick, rising) with the troubles a bench sees: jitter, glitches next to
-    /// edges, stalls, a dropped edge (polarity break), time running backwards (a probe restart).
-    fn stream(seed: u64, n: usize) -> Vec<(u64, bool)> {
-        let mut r = Xoshiro256PlusPlus::seed_from_u64(seed);
-        let period = r.random_range(3..5000u64);
-        let duty = r.random_range(0.15..0.85);
-        let jitter = r.random_range(0..=period / 8 + 1);
-        let trouble = r.random_range(0.0..0.02);
-        let mut out = Vec::with_capacity(n);
-        let mut t = r.random_range(0..1u64 << 40);
-        let mut rising = r.random_bool(0.5);
-        while out.len() < n {
-            let base = if rising {
-                (period as f64 * (1.0 - duty)) as u64
-            } else {
-                (period as f64 * duty) as u64
-            };
-            t += base.max(1) + r.random_range(0..=jitter);
-            if r.random_bool(trouble) {
-                match r.random_range(0..5) {
-                    // a glitch: a short pulse right after this edge
-                    0 => {
-                        out.push((t, rising));
-                        t += 1;
-                        out.push((t, !rising));
-                        t += 1;
-                    }
-                    1 => t += period * r.random_range(5..50),
-                    2 => rising = !rising,
-                    3 => t = t.saturating_sub(period * r.random_range(1..100)).max(1),
-                    _ => t += period * r.random_range(2..4),
-                }
-            }
-            out.push((t, rising));
-            rising = !rising;
-        }
-        out
-    }
-
-    fn config(seed: u64) -> ClockConfig {
-        let mut c = ClockConfig::default();
-        if seed % 3 == 0 {
-            c.tie_record = 100 + seed as usize % 200;
-            c.n_cycles = [3, 40];
-            c.allan_tau0_s = 1e-7;
-        }
-        if seed % 5 == 0 {
-            c.glitch_ns = Some(4.0);
-        }
-        c
-    }
-
-    /// Per-edge and bulk give the same channel state, field by field (floats included), after
-    /// random batches and at the end, over random batchings and continuity breaks.
-    #[test]
-    fn bulk_equals_per_edge() {
-        for seed in 0..200u64 {
-            let edges = stream(seed, 3000 + (seed as usize * 37) % 5000);
-            let cfg = config(seed);
-            let tick_ns = [8.0, 62.5, 2.0][seed as usize % 3];
-            let mut one = ClockState::new(cfg.clone(), tick_ns);
-            let mut bulk = ClockState::new(cfg, tick_ns);
-            let mut r = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0xABCD);
-            let mut i = 0;
-            while i < edges.len() {
-                let len = r.random_range(1..1200).min(edges.len() - i);
-                // a batch as a probe sends it: alternating from its first polarity
-                let first = edges[i].1;
-                let ticks: Vec<u64> = edges[i..i + len].iter().map(|e| e.0).collect();
-                if r.random_bool(0.05) {
-                    one.break_continuity();
-                    bulk.break_continuity();
-                }
-                for (k, &t) in ticks.iter().enumerate() {
-                    one.edge(t, first ^ (k % 2 == 1));
-                }
-                bulk.edges(&ticks, first);
-                i += len;
-                // the whole state (three 4095-bucket histograms) now and then, and at the end
-                if i == edges.len() || r.random_bool(0.1) {
-                    assert_eq!(
-                        format!("{one:?}"),
-                        format!("{bulk:?}"),
-                        "seed {seed}, after edge {i}"
-                    );
-                }
-            }
-            assert!(
-                one.acc.as_ref().is_some_and(|a| a.period.n > 0),
-                "seed {seed}"
-            );
-        }
-    }
-
-    /// A clean stream goes almost entirely through the bulk path (so the test above tests it).
-    #[test]
-    fn clean_stream_is_taken_in_bulk() {
-        let mut s = ClockState::new(ClockConfig::default(), 8.0);
-        let ticks: Vec<u64> = (0..100_000u64).map(|k| 1000 + k * 31 + (k % 3)).collect();
-        let (steps, unscanned) = s.edges_here(&ticks, true);
-        // 50 000 periods in steps of at most one refresh segment, nearly all of them full, and
-        // all but the first few taken without the scan
-        assert!(
-            unscanned + 3 >= steps,
-            "{unscanned} of {steps} steps unscanned"
-        );
-        let full = 50_000 / REFRESH as usize;
-        assert!(steps >= full && steps <= 2 * full + 2, "{steps} bulk steps");
     }
 }

@@ -1,0 +1,302 @@
+//! The clock's accumulators: one block's mergeable statistics ([`ClockAcc`]), the TIE fit's
+//! least-squares sums ([`FitSums`]) and the sums of a short run of cycles ([`RunAcc`]).
+
+use serde::Serialize;
+
+use super::super::stats::{DevHistogram, IntStats};
+use super::config::BATCH;
+
+/// Least-squares sums for the TIE fit: u_k = t_k − t0 − k·T_ref over rising edges k.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct FitSums {
+    pub(super) n: i128,
+    pub(super) sk: i128,
+    pub(super) skk: i128,
+    pub(super) su: i128,
+    pub(super) sku: i128,
+    pub(super) suu: i128,
+    /// A term beyond the plain-arithmetic bounds was added (sums saturate from then on).
+    pub(super) big: bool,
+}
+
+/// The fit's plain-arithmetic bound: while every term has k and |u| below it and n stays below
+/// it, no sum can pass 2^120.
+pub(super) const FIT_LIM: i128 = 1 << 40;
+
+impl FitSums {
+    #[inline]
+    pub(super) fn add(&mut self, k: i64, u: i64) {
+        // plain arithmetic (the usual case) within the bounds; one larger term switches this
+        // fit to saturating for good
+        const LIM: i64 = FIT_LIM as i64;
+        if !self.big && (0..LIM).contains(&k) && (-LIM..LIM).contains(&u) && self.n < FIT_LIM {
+            let (k, u) = (i128::from(k), i128::from(u));
+            self.n += 1;
+            self.sk += k;
+            self.skk += k * k;
+            self.su += u;
+            self.sku += k * u;
+            self.suu += u * u;
+            return;
+        }
+        self.big = true;
+        let (k, u) = (i128::from(k), i128::from(u));
+        // saturating: only an absurd probe gets near the limits, and then the TIE is garbage anyway
+        self.n += 1;
+        self.sk = self.sk.saturating_add(k);
+        self.skk = self.skk.saturating_add(k.saturating_mul(k));
+        self.su = self.su.saturating_add(u);
+        self.sku = self.sku.saturating_add(k.saturating_mul(u));
+        self.suu = self.suu.saturating_add(u.saturating_mul(u));
+    }
+
+    fn merge(&mut self, o: &FitSums) {
+        self.big |= o.big;
+        self.n += o.n;
+        self.sk = self.sk.saturating_add(o.sk);
+        self.skk = self.skk.saturating_add(o.skk);
+        self.su = self.su.saturating_add(o.su);
+        self.sku = self.sku.saturating_add(o.sku);
+        self.suu = self.suu.saturating_add(o.suu);
+    }
+
+    /// RMS residual (ticks) against the least-squares line.
+    pub(super) fn residual_rms(&self) -> Option<f64> {
+        if self.n < 3 {
+            return None;
+        }
+        let n = self.n as f64;
+        // n·Σab − Σa·Σb exactly when it fits, in floating point otherwise
+        let centred = |sab: i128, sa: i128, sb: i128| match self
+            .n
+            .checked_mul(sab)
+            .and_then(|x| sa.checked_mul(sb).and_then(|y| x.checked_sub(y)))
+        {
+            Some(v) => v as f64,
+            None => n * sab as f64 - sa as f64 * sb as f64,
+        };
+        let sxx = centred(self.skk, self.sk, self.sk) / n;
+        let sxy = centred(self.sku, self.sk, self.su) / n;
+        let syy = centred(self.suu, self.su, self.su) / n;
+        if sxx <= 0.0 {
+            return None;
+        }
+        Some(((syy - sxy * sxy / sxx).max(0.0) / n).sqrt())
+    }
+}
+
+/// One block's worth of clock statistics (mergeable).
+#[derive(Clone, Debug, PartialEq)]
+pub struct ClockAcc {
+    /// Rising-to-rising periods (ticks).
+    pub period: IntStats,
+    /// High times.
+    pub high: IntStats,
+    /// Low times.
+    pub low: IntStats,
+    /// Adjacent period differences.
+    pub c2c: IntStats,
+    /// Histograms.
+    pub hist_period: DevHistogram,
+    /// High-time histogram.
+    pub hist_high: DevHistogram,
+    /// Low-time histogram.
+    pub hist_low: DevHistogram,
+    pub(super) fit: FitSums,
+    pub(super) tie_rec_max_pkpk: f64,
+    pub(super) tie_rec_ss: f64,
+    pub(super) tie_rec_n: u64,
+    pub(super) ncycle: [IntStats; 2],
+    /// Sums of `BATCH` contiguous periods (batch means for the mean period's uncertainty).
+    pub(super) batch: IntStats,
+    /// Edges seen (including glitch edges).
+    pub edges: u64,
+    /// Glitches.
+    pub glitches: u64,
+    /// Stalls.
+    pub stalls: u64,
+    /// Contiguous runs of periods (each gap, loss or glitch starts a new one).
+    pub runs: u64,
+    // count windows (when the probe only counts)
+    pub(super) count_edges: u64,
+    pub(super) count_ticks: u64,
+    pub(super) count_windows: u64,
+    pub(super) count_reciprocal: bool,
+    pub(super) samples: u64,
+    pub(super) samples_high: u64,
+}
+
+impl ClockAcc {
+    /// An empty block whose sums are taken about these reference values (ticks).
+    pub(super) fn new(origin: i64, ref_high: i64, ref_low: i64) -> ClockAcc {
+        ClockAcc {
+            period: IntStats::new(origin),
+            high: IntStats::new(ref_high),
+            low: IntStats::new(ref_low),
+            c2c: IntStats::new(0),
+            hist_period: DevHistogram::new(origin),
+            hist_high: DevHistogram::new(ref_high),
+            hist_low: DevHistogram::new(ref_low),
+            fit: FitSums::default(),
+            tie_rec_max_pkpk: 0.0,
+            tie_rec_ss: 0.0,
+            tie_rec_n: 0,
+            ncycle: [IntStats::new(0), IntStats::new(0)],
+            batch: IntStats::new(origin * BATCH as i64),
+            edges: 0,
+            glitches: 0,
+            stalls: 0,
+            runs: 0,
+            count_edges: 0,
+            count_ticks: 0,
+            count_windows: 0,
+            count_reciprocal: false,
+            samples: 0,
+            samples_high: 0,
+        }
+    }
+
+    /// A finished TIE record's (peak to peak, sum of squared residuals, edges), in ticks.
+    #[inline]
+    pub(super) fn add_tie_record(&mut self, (pkpk, ss, n): (f64, f64, u64)) {
+        self.tie_rec_max_pkpk = self.tie_rec_max_pkpk.max(pkpk);
+        self.tie_rec_ss += ss;
+        self.tie_rec_n += n;
+    }
+
+    /// Fold a later block into this one.
+    pub fn merge(&mut self, o: &ClockAcc) {
+        self.period.merge(&o.period);
+        self.high.merge(&o.high);
+        self.low.merge(&o.low);
+        self.c2c.merge(&o.c2c);
+        self.hist_period.merge(&o.hist_period);
+        self.hist_high.merge(&o.hist_high);
+        self.hist_low.merge(&o.hist_low);
+        self.fit.merge(&o.fit);
+        self.add_tie_record((o.tie_rec_max_pkpk, o.tie_rec_ss, o.tie_rec_n));
+        for i in 0..2 {
+            self.ncycle[i].merge(&o.ncycle[i]);
+        }
+        self.batch.merge(&o.batch);
+        self.edges += o.edges;
+        self.glitches += o.glitches;
+        self.stalls += o.stalls;
+        self.runs += o.runs;
+        self.count_edges += o.count_edges;
+        self.count_ticks += o.count_ticks;
+        self.count_windows += o.count_windows;
+        self.count_reciprocal |= o.count_reciprocal;
+        self.samples += o.samples;
+        self.samples_high += o.samples_high;
+    }
+}
+
+/// Figures of a short stretch of cycles (about 20 ms, or one burst), for failure onsets.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize)]
+pub struct ShortRun {
+    /// Probe time of its last cycle, s.
+    pub end_s: f64,
+    /// Cycles in it.
+    pub cycles: u64,
+    /// Mean frequency, Hz.
+    pub frequency_hz: f64,
+    /// Duty (mean high / mean period).
+    pub duty: f64,
+    /// Shortest high time, ns.
+    pub high_min_ns: f64,
+    /// Shortest low time, ns.
+    pub low_min_ns: f64,
+}
+
+/// Sums of the short run being taken (ticks).
+#[derive(Clone, Copy, Debug, Default)]
+pub(super) struct RunAcc {
+    pub(super) start: u64,
+    pub(super) last: u64,
+    pub(super) n: u64,
+    pub(super) sum_p: u64,
+    pub(super) sum_h: u64,
+    pub(super) nh: u64,
+    pub(super) min_h: u64,
+    pub(super) min_l: u64,
+}
+
+impl RunAcc {
+    /// An empty run whose minimums are still to be found.
+    pub(super) fn fresh() -> RunAcc {
+        RunAcc {
+            min_h: u64::MAX,
+            min_l: u64::MAX,
+            ..RunAcc::default()
+        }
+    }
+
+    /// Its figures with a tick of `q` ns (None while it has no period).
+    pub(super) fn figures(&self, q: f64) -> Option<ShortRun> {
+        (self.n > 0).then(|| {
+            let mean_p = self.sum_p as f64 / self.n as f64;
+            ShortRun {
+                end_s: self.last as f64 * q * 1e-9,
+                cycles: self.n,
+                frequency_hz: 1e9 / (mean_p * q),
+                duty: if self.nh > 0 {
+                    self.sum_h as f64 / self.nh as f64 / mean_p
+                } else {
+                    0.0
+                },
+                high_min_ns: if self.nh > 0 {
+                    self.min_h as f64 * q
+                } else {
+                    f64::NAN
+                },
+                low_min_ns: if self.min_l < u64::MAX {
+                    self.min_l as f64 * q
+                } else {
+                    f64::NAN
+                },
+            }
+        })
+    }
+}
+
+/// Add `n` samples summing to `sum` to a refresh segment's (sum, count).
+#[inline]
+pub(super) fn seg_add(seg: &mut (u64, u64), sum: u64, n: u64) {
+    seg.0 = seg.0.saturating_add(sum);
+    seg.1 += n;
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The plain-arithmetic path of the fit sums gives exactly what the saturating path gives
+    /// wherever neither saturates, and a huge term switches to saturating without a panic.
+    #[test]
+    fn fit_sums_fast_path_equals_saturating_path() {
+        let mut fast = FitSums::default();
+        let mut slow = FitSums {
+            big: true,
+            ..FitSums::default()
+        };
+        let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
+        for k in 0..10_000i64 {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            let u = (x % 2_000_001) as i64 - 1_000_000;
+            fast.add(k, u);
+            slow.add(k, u);
+        }
+        assert!(!fast.big);
+        assert_eq!(
+            (fast.n, fast.sk, fast.skk, fast.su, fast.sku, fast.suu),
+            (slow.n, slow.sk, slow.skk, slow.su, slow.sku, slow.suu)
+        );
+        assert_eq!(fast.residual_rms(), slow.residual_rms());
+        fast.add(i64::MAX / 4, i64::MAX / 4);
+        fast.add(i64::MAX / 4, i64::MIN / 4);
+        assert!(fast.big && fast.suu > 0);
+    }
+}

@@ -1,0 +1,224 @@
+//! The figures of one clock channel as reported: [`ClockSnapshot`] and the pieces it is made of.
+
+use serde::Serialize;
+
+/// A figure the probe could not observe, and why.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Unavailable {
+    /// Which figure.
+    pub figure: String,
+    /// Why.
+    pub reason: String,
+}
+
+/// Percentiles of a time distribution, ns.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Percentiles {
+    /// 0.1 %.
+    pub p0_1: f64,
+    /// 1 %.
+    pub p1: f64,
+    /// Median.
+    pub p50: f64,
+    /// 99 %.
+    pub p99: f64,
+    /// 99.9 %.
+    pub p99_9: f64,
+}
+
+/// N-cycle error figures.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct NCycle {
+    /// N.
+    pub n: u32,
+    /// RMS of (t(k+N) − t(k)) − N·T, ns.
+    pub rms_ns: f64,
+    /// Largest |·|, ns.
+    pub max_abs_ns: f64,
+}
+
+/// An Allan deviation point.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct AllanPoint {
+    /// τ, s.
+    pub tau_s: f64,
+    /// Overlapping Allan deviation (fractional frequency).
+    pub adev: f64,
+    /// Terms in the estimate.
+    pub terms: u64,
+}
+
+/// The measured clock of one channel. Uncertainties are expanded (k = 2.5).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ClockSnapshot {
+    /// Channel id.
+    pub channel: u8,
+    /// Its label.
+    pub label: String,
+    /// "edge timestamps" or "count windows".
+    pub method: String,
+    /// Probe tick: the resolution of every single time, ns.
+    pub resolution_ns: f64,
+    /// Edges seen.
+    pub edges: u64,
+    /// Complete periods measured.
+    pub cycles: u64,
+    /// Count windows received (a counting probe), and the input cycles they counted.
+    pub count_windows: u64,
+    /// Input cycles counted over those windows.
+    pub counted_cycles: u64,
+    /// Frequency (reciprocal counting: measured periods over their total time).
+    pub frequency_hz: Option<f64>,
+    /// Its uncertainty (resolution and jitter; k = 2.5).
+    pub frequency_uncertainty_hz: Option<f64>,
+    /// Timebase accuracy the probe states (separate from resolution), Hz.
+    pub frequency_accuracy_hz: Option<f64>,
+    /// Mean period.
+    pub period_mean_ns: Option<f64>,
+    /// Shortest period.
+    pub period_min_ns: Option<f64>,
+    /// Longest period.
+    pub period_max_ns: Option<f64>,
+    /// Mean high time.
+    pub high_mean_ns: Option<f64>,
+    /// Shortest high time (the worst cycle; ± one tick).
+    pub high_min_ns: Option<f64>,
+    /// When it happened, s of probe time.
+    pub high_min_at_s: Option<f64>,
+    /// Which cycle.
+    pub high_min_cycle: Option<u64>,
+    /// Longest high time.
+    pub high_max_ns: Option<f64>,
+    /// Mean low time.
+    pub low_mean_ns: Option<f64>,
+    /// Shortest low time (the worst cycle; ± one tick).
+    pub low_min_ns: Option<f64>,
+    /// When it happened.
+    pub low_min_at_s: Option<f64>,
+    /// Which cycle.
+    pub low_min_cycle: Option<u64>,
+    /// Longest low time.
+    pub low_max_ns: Option<f64>,
+    /// Duty cycle: mean high / mean period.
+    pub duty: Option<f64>,
+    /// Its uncertainty (k = 2.5).
+    pub duty_uncertainty: Option<f64>,
+    /// Statistical duty from level samples, with its Wilson 95 % interval.
+    pub duty_sampled: Option<(f64, f64, f64)>,
+    /// Period jitter RMS as measured (sample standard deviation of periods).
+    pub period_jitter_rms_ns: Option<f64>,
+    /// Period jitter RMS, population form (÷N).
+    pub period_jitter_rms_pop_ns: Option<f64>,
+    /// Quantisation floor of period jitter at random phase: q/√6.
+    pub period_jitter_floor_ns: f64,
+    /// True when the measured jitter is explained by quantisation alone (below resolution).
+    pub period_jitter_below_resolution: bool,
+    /// De-biased estimate √(s² − q²/6), labelled as such.
+    pub period_jitter_debiased_ns: Option<f64>,
+    /// Uncertainty of the jitter estimate (k = 2.5).
+    pub period_jitter_uncertainty_ns: Option<f64>,
+    /// Period peak to peak.
+    pub period_jitter_pkpk_ns: Option<f64>,
+    /// Periods in the jitter figures.
+    pub period_jitter_n: u64,
+    /// Cycle-to-cycle jitter RMS (adjacent period differences).
+    pub cycle_to_cycle_rms_ns: Option<f64>,
+    /// Largest |adjacent period difference|.
+    pub cycle_to_cycle_max_ns: Option<f64>,
+    /// Quantisation floor of cycle-to-cycle jitter at random phase: q/√2.
+    pub cycle_to_cycle_floor_ns: f64,
+    /// TIE RMS against a least-squares ideal clock over the window.
+    pub tie_rms_ns: Option<f64>,
+    /// Largest TIE peak to peak within detrended records.
+    pub tie_pkpk_ns: Option<f64>,
+    /// Cycles per TIE record.
+    pub tie_record_cycles: usize,
+    /// N-cycle error.
+    pub n_cycle: Vec<NCycle>,
+    /// Overlapping Allan deviation (session).
+    pub allan: Vec<AllanPoint>,
+    /// Period percentiles.
+    pub period_percentiles: Option<Percentiles>,
+    /// High-time percentiles.
+    pub high_percentiles: Option<Percentiles>,
+    /// Low-time percentiles.
+    pub low_percentiles: Option<Percentiles>,
+    /// Glitches counted.
+    pub glitches: u64,
+    /// Stalls counted.
+    pub stalls: u64,
+    /// Figures the probe cannot observe, and why.
+    pub unavailable: Vec<Unavailable>,
+}
+
+impl ClockSnapshot {
+    /// The figures of a channel with a tick of `q` ns before anything is measured: floors
+    /// only, every figure absent.
+    pub(super) fn empty(
+        channel: u8,
+        label: &str,
+        q: f64,
+        tie_record_cycles: usize,
+    ) -> ClockSnapshot {
+        let floor = q / 6f64.sqrt();
+        ClockSnapshot {
+            channel,
+            label: label.to_string(),
+            method: "edge timestamps".into(),
+            resolution_ns: q,
+            edges: 0,
+            cycles: 0,
+            count_windows: 0,
+            counted_cycles: 0,
+            frequency_hz: None,
+            frequency_uncertainty_hz: None,
+            frequency_accuracy_hz: None,
+            period_mean_ns: None,
+            period_min_ns: None,
+            period_max_ns: None,
+            high_mean_ns: None,
+            high_min_ns: None,
+            high_min_at_s: None,
+            high_min_cycle: None,
+            high_max_ns: None,
+            low_mean_ns: None,
+            low_min_ns: None,
+            low_min_at_s: None,
+            low_min_cycle: None,
+            low_max_ns: None,
+            duty: None,
+            duty_uncertainty: None,
+            duty_sampled: None,
+            period_jitter_rms_ns: None,
+            period_jitter_rms_pop_ns: None,
+            period_jitter_floor_ns: floor,
+            period_jitter_below_resolution: false,
+            period_jitter_debiased_ns: None,
+            period_jitter_uncertainty_ns: None,
+            period_jitter_pkpk_ns: None,
+            period_jitter_n: 0,
+            cycle_to_cycle_rms_ns: None,
+            cycle_to_cycle_max_ns: None,
+            cycle_to_cycle_floor_ns: q / 2f64.sqrt(),
+            tie_rms_ns: None,
+            tie_pkpk_ns: None,
+            tie_record_cycles,
+            n_cycle: Vec::new(),
+            allan: Vec::new(),
+            period_percentiles: None,
+            high_percentiles: None,
+            low_percentiles: None,
+            glitches: 0,
+            stalls: 0,
+            unavailable: Vec::new(),
+        }
+    }
+
+    /// Say that `figure` cannot be observed, and why.
+    pub(super) fn mark_unavailable(&mut self, figure: &str, reason: &str) {
+        self.unavailable.push(Unavailable {
+            figure: figure.into(),
+            reason: reason.into(),
+        });
+    }
+}

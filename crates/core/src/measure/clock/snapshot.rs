@@ -1,0 +1,266 @@
+//! The figures of one clock channel from a merged block, and the uncertainty model behind them
+//! as small pure functions.
+//!
+//! Uncertainties are expanded with coverage factor [`K`] = 2.5 (about 99 % for normal errors),
+//! so that at least 95 % holds although each uncertainty is itself estimated from the data.
+//! Minimum/maximum times are bounds: a time between two stamps is known to ±1 tick.
+//! Quantisation (Widrow, Kollár & Liu, IEEE Trans. Instrum. Meas. 45(2), 1996): q²/12 per
+//! stamp and q²/6 per period at random phase; a steady clock commensurate with the tick gives
+//! two period readings, σ = q·√(p(1−p)). `tests/measure_closed_loop.rs` is the model's
+//! calibration.
+
+use super::super::stats::{DevHistogram, IntStats};
+use super::acc::ClockAcc;
+use super::config::{BATCH, K};
+use super::count::{counted_figures, counted_only};
+use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
+use super::state::ClockState;
+
+/// Figures of one channel from a merged block (and the session's Allan estimator).
+pub fn snapshot(
+    channel: u8,
+    label: &str,
+    acc: Option<&ClockAcc>,
+    state: &ClockState,
+    timebase_ppm: u16,
+    with_allan: bool,
+) -> ClockSnapshot {
+    let q = state.tick_ns;
+    let mut s = ClockSnapshot::empty(channel, label, q, state.cfg.tie_record);
+    let Some(a) = acc else {
+        s.mark_unavailable("all", "no complete clock cycle yet");
+        return s;
+    };
+    s.edges = a.edges;
+    s.count_windows = a.count_windows;
+    s.counted_cycles = a.count_edges;
+    s.glitches = a.glitches;
+    s.stalls = a.stalls;
+    if counted_only(a) {
+        counted_figures(&mut s, a, timebase_ppm);
+        return s;
+    }
+    s.cycles = a.period.n;
+    if a.period.n > 0 {
+        stamped_figures(&mut s, a, state, timebase_ppm);
+    }
+    if with_allan && let Some(al) = &state.allan {
+        s.allan = al
+            .points()
+            .into_iter()
+            .map(|(tau_s, adev, terms)| AllanPoint { tau_s, adev, terms })
+            .collect();
+    }
+    s
+}
+
+/// The figures of a block with at least one stamped period.
+fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, timebase_ppm: u16) {
+    let q = s.resolution_ns;
+    let p = &a.period;
+    let (mean_p, sp) = (p.mean().unwrap_or(0.0), p.std_sample().unwrap_or(0.0));
+    let mean_ns = mean_p * q;
+    s.period_mean_ns = Some(mean_ns);
+    s.period_min_ns = Some(p.min as f64 * q);
+    s.period_max_ns = Some(p.max as f64 * q);
+    let f = 1e9 / mean_ns;
+    s.frequency_hz = Some(f);
+    let n = p.n as f64;
+    let sp_ns = sp * q;
+    let sigma_p2 = period_noise_var(sp_ns, a.batch.n, a.batch.std_sample(), q);
+    let u_t = mean_period_uncertainty_ns(sigma_p2, n, a.runs.max(1) as f64, q);
+    s.frequency_uncertainty_hz = Some(K * f * u_t / mean_ns);
+    if timebase_ppm > 0 {
+        s.frequency_accuracy_hz = Some(f * f64::from(timebase_ppm) * 1e-6);
+    }
+    s.period_jitter_rms_ns = Some(sp_ns);
+    s.period_jitter_rms_pop_ns = p.std_pop().map(|v| v * q);
+    s.period_jitter_n = p.n;
+    s.period_jitter_pkpk_ns = Some((p.max - p.min) as f64 * q);
+    let debiased = debiased_jitter_ns(sp_ns, q);
+    s.period_jitter_debiased_ns = Some(debiased);
+    s.period_jitter_below_resolution = debiased < s.period_jitter_floor_ns;
+    s.period_jitter_uncertainty_ns = Some(jitter_uncertainty_ns(sp_ns, debiased, n, q));
+    let tick_s = q * 1e-9;
+    if let Some(h) = PhaseTimes::of(&a.high, q, tick_s) {
+        let u_h = mean_uncertainty_ns(&a.high, q, coherent_systematic_ns(sp_ns, q));
+        s.duty = Some(h.mean_ns / mean_ns);
+        s.duty_uncertainty = Some(duty_uncertainty(h.mean_ns, u_h, mean_ns, u_t));
+        (
+            s.high_mean_ns,
+            s.high_min_ns,
+            s.high_max_ns,
+            s.high_min_at_s,
+            s.high_min_cycle,
+        ) = h.fields();
+    }
+    if let Some(l) = PhaseTimes::of(&a.low, q, tick_s) {
+        (
+            s.low_mean_ns,
+            s.low_min_ns,
+            s.low_max_ns,
+            s.low_min_at_s,
+            s.low_min_cycle,
+        ) = l.fields();
+    }
+    if a.c2c.n > 0 {
+        s.cycle_to_cycle_rms_ns = a.c2c.rms_about_zero().map(|v| v * q);
+        s.cycle_to_cycle_max_ns =
+            Some(a.c2c.max.unsigned_abs().max(a.c2c.min.unsigned_abs()) as f64 * q);
+    }
+    s.tie_rms_ns = a.fit.residual_rms().map(|v| v * q);
+    if a.tie_rec_n > 0 {
+        s.tie_pkpk_ns = Some(a.tie_rec_max_pkpk * q);
+    }
+    let pref = state.refs.map_or(0, |r| r.0);
+    s.n_cycle = n_cycle_figures(&a.ncycle, state.cfg.n_cycles, mean_p, pref, q);
+    s.period_percentiles = percentiles(&a.hist_period, q);
+    s.high_percentiles = percentiles(&a.hist_high, q);
+    s.low_percentiles = percentiles(&a.hist_low, q);
+}
+
+/// Mean, extremes and the worst cycle of one phase (high or low times), ns and s.
+struct PhaseTimes {
+    mean_ns: f64,
+    min_ns: f64,
+    max_ns: f64,
+    min_at_s: f64,
+    min_cycle: u64,
+}
+
+impl PhaseTimes {
+    fn of(st: &IntStats, q: f64, tick_s: f64) -> Option<PhaseTimes> {
+        Some(PhaseTimes {
+            mean_ns: st.mean()? * q,
+            min_ns: st.min as f64 * q,
+            max_ns: st.max as f64 * q,
+            min_at_s: st.min_at.0 as f64 * tick_s,
+            min_cycle: st.min_at.1,
+        })
+    }
+
+    /// (mean, min, max, min at, min cycle), as the snapshot's fields hold them.
+    #[allow(clippy::type_complexity)]
+    fn fields(
+        &self,
+    ) -> (
+        Option<f64>,
+        Option<f64>,
+        Option<f64>,
+        Option<f64>,
+        Option<u64>,
+    ) {
+        (
+            Some(self.mean_ns),
+            Some(self.min_ns),
+            Some(self.max_ns),
+            Some(self.min_at_s),
+            Some(self.min_cycle),
+        )
+    }
+}
+
+/// The variance of the period noise, ns²: from batch means when there are at least 8 batches
+/// (it shows even below one tick), else from the period spread less quantisation (q²/6), kept
+/// at least at the quantisation floor when the spread is that of quantisation alone.
+fn period_noise_var(sp_ns: f64, batches: u64, batch_std: Option<f64>, q: f64) -> f64 {
+    let floor = q / 6f64.sqrt();
+    if batches >= 8 {
+        let vb = batch_std.unwrap_or(0.0) * q;
+        ((vb * vb - q * q / 6.0) / f64::from(BATCH)).max(0.0)
+    } else {
+        (sp_ns * sp_ns - q * q / 6.0)
+            .max(0.0)
+            .max(if sp_ns * sp_ns < 2.0 * q * q / 6.0 {
+                floor * floor
+            } else {
+                0.0
+            })
+    }
+}
+
+/// Standard uncertainty of the mean period, ns: the accumulated period noise σ_p²/N plus the
+/// quantisation of each run's two end stamps (q²/6 per run) over N².
+fn mean_period_uncertainty_ns(sigma_p2: f64, n: f64, runs: f64, q: f64) -> f64 {
+    (sigma_p2 / n + runs * q * q / 6.0 / (n * n)).sqrt()
+}
+
+/// The de-biased period jitter √(s² − q²/6), ns (0 when quantisation explains all of it).
+fn debiased_jitter_ns(sp_ns: f64, q: f64) -> f64 {
+    (sp_ns * sp_ns - q * q / 6.0).max(0.0).sqrt()
+}
+
+/// Expanded uncertainty of the jitter estimate, ns: the chi-square spread of a standard
+/// deviation, plus the error of subtracting q²/6: at most about q²/24/σ, and vanishing as
+/// exp(−2π²σ²/q²) once the jitter dithers the quantiser (the Gaussian characteristic function
+/// at 2π/q; Widrow, Kollár & Liu 1996).
+fn jitter_uncertainty_ns(sp_ns: f64, debiased: f64, n: f64, q: f64) -> f64 {
+    let stat = sp_ns / (2.0 * (n - 1.0).max(1.0)).sqrt();
+    let model = if debiased > 0.0 {
+        (q * q / 24.0 / debiased)
+            * (-2.0 * std::f64::consts::PI.powi(2) * (debiased / q).powi(2)).exp()
+    } else {
+        q / 6f64.sqrt()
+    };
+    K * (stat * stat + model * model).sqrt()
+}
+
+/// Coherent sampling (less spread than random phase would give): the quantisation error of a
+/// mean does not average away; a systematic term of up to half a tick remains (ns; 0 else).
+fn coherent_systematic_ns(sp_ns: f64, q: f64) -> f64 {
+    if sp_ns * sp_ns < 0.5 * q * q / 6.0 {
+        q / 12f64.sqrt()
+    } else {
+        0.0
+    }
+}
+
+/// Standard uncertainty of a mean phase time, ns: its spread over √n with the systematic term.
+fn mean_uncertainty_ns(st: &IntStats, q: f64, sys_ns: f64) -> f64 {
+    let sd = st.std_sample().unwrap_or(0.0) * q;
+    (sd * sd / st.n as f64 + sys_ns * sys_ns).sqrt()
+}
+
+/// Expanded uncertainty of the duty mean high / mean period from the two means' uncertainties.
+fn duty_uncertainty(high_ns: f64, u_high_ns: f64, period_ns: f64, u_period_ns: f64) -> f64 {
+    K * ((u_high_ns / period_ns).powi(2)
+        + (high_ns * u_period_ns / (period_ns * period_ns)).powi(2))
+    .sqrt()
+}
+
+/// N-cycle errors against N·(mean period) rather than N·reference (the sums hold the latter).
+fn n_cycle_figures(
+    sums: &[IntStats; 2],
+    ns: [u32; 2],
+    mean_p: f64,
+    pref: i64,
+    q: f64,
+) -> Vec<NCycle> {
+    let mut out = Vec::new();
+    for (st, n) in sums.iter().zip(ns) {
+        if st.n > 1 {
+            let shift = (mean_p - pref as f64) * f64::from(n);
+            let m = st.mean().unwrap_or(0.0);
+            let sd = st.std_pop().unwrap_or(0.0);
+            let max_abs = ((st.max as f64 - shift).abs()).max((st.min as f64 - shift).abs());
+            let rms = (sd * sd + (m - shift).powi(2)).sqrt();
+            out.push(NCycle {
+                n,
+                rms_ns: rms * q,
+                max_abs_ns: max_abs * q,
+            });
+        }
+    }
+    out
+}
+
+fn percentiles(h: &DevHistogram, q: f64) -> Option<Percentiles> {
+    let at = |p: f64| h.quantile(p).map(|v| v as f64 * q);
+    Some(Percentiles {
+        p0_1: at(0.001)?,
+        p1: at(0.01)?,
+        p50: at(0.5)?,
+        p99: at(0.99)?,
+        p99_9: at(0.999)?,
+    })
+}

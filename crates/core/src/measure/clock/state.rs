@@ -1,0 +1,501 @@
+//! The per-edge state machine of one clock channel: the reference path [`ClockState::edge`]
+//! handles every case (glitch look-ahead, stalls, polarity breaks, time running backwards, the
+//! first cycles of a run); `bulk.rs` takes clean stretches with identical results.
+
+use serde::Serialize;
+
+use super::super::allan::AllanStream;
+use super::acc::{ClockAcc, RunAcc, ShortRun, seg_add};
+use super::buffers::{RiseHistory, Scratch};
+use super::config::{BATCH, ClockConfig, MAX_GAP_TICKS, REFRESH, SHORT_RUN_NS};
+use super::tie::close_record;
+
+/// A short pulse: a double-clocking risk.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Glitch {
+    /// Probe time of its first edge, s.
+    pub at_s: f64,
+    /// true: a high pulse (inside a low phase); false: a low pulse.
+    pub high: bool,
+    /// Width, ns.
+    pub width_ns: f64,
+}
+
+/// The clock stopped.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct Stall {
+    /// Probe time of the last edge before the gap, s.
+    pub at_s: f64,
+    /// Length of the gap, ns.
+    pub gap_ns: f64,
+}
+
+/// Edge processing state of one channel (continuity, references, look-behind).
+#[derive(Clone, Debug)]
+pub struct ClockState {
+    /// Settings.
+    pub cfg: ClockConfig,
+    pub(super) tick_ns: f64,
+    /// Reference values fixed at the first cycle (origins of all sums).
+    pub(super) refs: Option<(i64, i64, i64)>,
+    pub(super) pending: Option<(u64, bool)>,
+    /// The edge after `pending` when the pulse between them was short (undecided glitch).
+    pub(super) suspect: Option<(u64, bool)>,
+    pub(super) last_rise: Option<u64>,
+    pub(super) last_fall: Option<u64>,
+    pub(super) last_edge: Option<u64>,
+    pub(super) prev_period: Option<i64>,
+    /// Tick and ideal-cycle index of the last committed rise (kept across gaps).
+    pub(super) anchor: Option<(u64, u64)>,
+    pub(super) fit_origin: Option<(u64, u64)>,
+    /// The run's latest rises (for the N-cycle error).
+    pub(super) rises: RiseHistory,
+    /// The TIE record being filled (committed rises).
+    pub(super) record: Vec<u64>,
+    /// Full TIE records kept for an observer (None: not kept).
+    pub(super) records_out: Option<Vec<Vec<u64>>>,
+    pub(super) batch_sum: i64,
+    pub(super) batch_n: u32,
+    typ_high: f64,
+    typ_low: f64,
+    typ_period: f64,
+    /// Sums and counts of periods, highs and lows since the last refresh (their means become
+    /// the typical values at the next refresh).
+    pub(super) seg: [(u64, u64); 3],
+    /// Glitch thresholds for high and low pulses and the stall gap, in ticks (refreshed from
+    /// the typical values every [`REFRESH`] periods, so the per-edge path compares integers).
+    pub(super) glitch_high_ticks: u64,
+    pub(super) glitch_low_ticks: u64,
+    pub(super) stall_ticks: u64,
+    pub(super) refresh: u32,
+    /// Length of a short run (20 ms) in ticks.
+    pub(super) run_ticks: u64,
+    pub(super) allan: Option<AllanStream>,
+    pub(super) allan_every: u64,
+    pub(super) allan_countdown: u64,
+    /// The current block.
+    pub acc: Option<ClockAcc>,
+    pub(super) run: RunAcc,
+    /// The last two finished short runs (older first).
+    pub(crate) runs: [Option<ShortRun>; 2],
+    /// Recent glitches.
+    pub(crate) glitch_events: Vec<Glitch>,
+    /// Recent stalls.
+    pub(crate) stall_events: Vec<Stall>,
+    pub(super) scratch: Box<Scratch>,
+}
+
+impl ClockState {
+    /// A channel with a tick of `tick_ns`.
+    pub fn new(cfg: ClockConfig, tick_ns: f64) -> ClockState {
+        ClockState {
+            rises: RiseHistory::new(cfg.n_cycles[0].max(cfg.n_cycles[1]) as usize),
+            scratch: Scratch::new(),
+            record: Vec::with_capacity(cfg.tie_record),
+            records_out: None,
+            cfg,
+            tick_ns,
+            refs: None,
+            pending: None,
+            suspect: None,
+            last_rise: None,
+            last_fall: None,
+            last_edge: None,
+            prev_period: None,
+            anchor: None,
+            fit_origin: None,
+            batch_sum: 0,
+            batch_n: 0,
+            typ_high: 0.0,
+            typ_low: 0.0,
+            typ_period: 0.0,
+            seg: [(0, 0); 3],
+            glitch_high_ticks: 0,
+            glitch_low_ticks: 0,
+            stall_ticks: u64::MAX,
+            refresh: 0,
+            run_ticks: (SHORT_RUN_NS / tick_ns) as u64,
+            allan: None,
+            allan_every: 1,
+            allan_countdown: 0,
+            acc: None,
+            run: RunAcc::default(),
+            runs: [None, None],
+            glitch_events: Vec::new(),
+            stall_events: Vec::new(),
+        }
+    }
+
+    /// Tick length.
+    pub fn tick_ns(&self) -> f64 {
+        self.tick_ns
+    }
+
+    /// Keep every full TIE record for [`ClockState::take_records`] (for an observer: the records
+    /// the figures were taken from).
+    pub(crate) fn keep_records(&mut self) {
+        self.records_out.get_or_insert_with(Vec::new);
+    }
+
+    /// The full TIE records kept since the last call, oldest first.
+    pub(crate) fn take_records(&mut self) -> impl Iterator<Item = Vec<u64>> + '_ {
+        self.records_out.iter_mut().flat_map(|r| r.drain(..))
+    }
+
+    /// An empty block with this channel's references (None before the first cycle).
+    pub(super) fn empty_acc(&self) -> Option<ClockAcc> {
+        self.refs.map(|(p, h, l)| ClockAcc::new(p, h, l))
+    }
+
+    /// The current short run so far (None when empty).
+    pub(crate) fn current_run(&self) -> Option<ShortRun> {
+        self.run.figures(self.tick_ns)
+    }
+
+    fn close_run(&mut self) {
+        if let Some(s) = self.run.figures(self.tick_ns) {
+            self.runs = [self.runs[1], Some(s)];
+        }
+        self.run = RunAcc::fresh();
+    }
+
+    /// Continuity is broken (data lost, new connection, burst): no interval spans the break.
+    pub fn break_continuity(&mut self) {
+        self.close_run();
+        self.pending = None;
+        self.suspect = None;
+        self.last_rise = None;
+        self.last_fall = None;
+        self.last_edge = None;
+        self.prev_period = None;
+        self.rises.clear();
+        self.record.clear();
+        self.batch_sum = 0;
+        self.batch_n = 0;
+        self.allan_countdown = 0;
+        if let Some(a) = self.allan.as_mut() {
+            a.gap();
+        }
+    }
+
+    /// Time ran backwards (or stood still) to `tick`: a probe restart or bug. Continuity breaks,
+    /// and the cycle index carries on from `tick` (the ideal clock cannot follow a restart).
+    pub(crate) fn restart_at(&mut self, tick: u64) {
+        self.break_continuity();
+        self.anchor = self.anchor.map(|(_, k)| (tick, k));
+    }
+
+    fn ensure_acc(&mut self, first_period: Option<i64>) -> Option<&mut ClockAcc> {
+        if self.acc.is_none() {
+            if self.refs.is_none() {
+                let p = first_period?;
+                let (h, l) = (p / 2, p - p / 2);
+                self.refs = Some((p, h.max(1), l.max(1)));
+                self.typ_period = p as f64;
+            }
+            self.acc = self.empty_acc();
+        }
+        self.acc.as_mut()
+    }
+
+    /// `n` more periods: the refresh segment ends at [`REFRESH`] periods (or at the very first
+    /// period, which sets the thresholds at once) and the thresholds are refreshed.
+    pub(super) fn count_periods(&mut self, n: u32) {
+        self.refresh += n;
+        if self.refresh >= REFRESH || self.refresh == 1 && self.stall_ticks == u64::MAX {
+            self.refresh = 0;
+            self.refresh_thresholds();
+        }
+    }
+
+    /// The typical period, high and low become the means of the segment since the last
+    /// refresh (a kind without samples keeps its value), then the thresholds follow them.
+    fn refresh_thresholds(&mut self) {
+        let typ = [&mut self.typ_period, &mut self.typ_high, &mut self.typ_low];
+        for ((sum, n), typ) in self.seg.iter_mut().zip(typ) {
+            if *n > 0 {
+                *typ = *sum as f64 / *n as f64;
+            }
+            (*sum, *n) = (0, 0);
+        }
+        let (h, l) = match self.cfg.glitch_ns {
+            Some(ns) => (ns / self.tick_ns, ns / self.tick_ns),
+            None => (
+                self.cfg.glitch_fraction * self.typ_high,
+                self.cfg.glitch_fraction * self.typ_low,
+            ),
+        };
+        // a pulse narrower than the threshold (strictly) is a glitch
+        self.glitch_high_ticks = h.ceil().max(0.0) as u64;
+        self.glitch_low_ticks = l.ceil().max(0.0) as u64;
+        self.stall_ticks = if self.typ_period > 0.0 {
+            (self.cfg.stall_periods * self.typ_period) as u64
+        } else {
+            u64::MAX
+        };
+    }
+
+    /// One edge (ticks strictly increasing, polarities alternating; anything else starts over
+    /// cleanly).
+    #[inline]
+    pub fn edge(&mut self, tick: u64, rising: bool) {
+        // time never runs backwards here: a probe that does (a bug, a restart) starts a new run
+        let newest = self
+            .suspect
+            .or(self.pending)
+            .map(|p| p.0)
+            .or(self.last_edge);
+        if newest.is_some_and(|n| tick <= n) || self.anchor.is_some_and(|(at, _)| tick <= at) {
+            self.restart_at(tick);
+        }
+        if let Some(a) = self.acc.as_mut() {
+            a.edges += 1;
+        }
+        let Some((pt, pr)) = self.pending else {
+            self.pending = Some((tick, rising));
+            return;
+        };
+        // the edge before this one must have the other polarity
+        let before = self.suspect.map_or(pr, |(_, nr)| nr);
+        if before == rising {
+            // polarity broken (an edge went missing): restart continuity here
+            self.break_continuity();
+            self.pending = Some((tick, rising));
+            return;
+        }
+        if let Some((nt, nr)) = self.suspect.take() {
+            // P→N was short. A glitch near an edge leaves two short pulses in a row (P→N, N→M):
+            // the shorter one is the glitch, the other is what is left of a real phase.
+            let second = tick - nt;
+            if second < self.glitch_ticks(nr) && second < nt - pt {
+                self.glitch(nt, nr, second);
+                // P stays pending: the phase it opened goes on
+            } else {
+                self.glitch(pt, pr, nt - pt);
+                self.pending = Some((tick, rising));
+            }
+            return;
+        }
+        if tick - pt < self.glitch_ticks(pr) {
+            // a short pulse: decide with the next edge which two edges to set aside
+            self.suspect = Some((tick, rising));
+            return;
+        }
+        self.commit(pt, pr);
+        self.pending = Some((tick, rising));
+    }
+
+    #[inline]
+    fn glitch_ticks(&self, high_pulse: bool) -> u64 {
+        if high_pulse {
+            self.glitch_high_ticks
+        } else {
+            self.glitch_low_ticks
+        }
+    }
+
+    fn glitch(&mut self, at: u64, high: bool, width: u64) {
+        let g = Glitch {
+            at_s: at as f64 * self.tick_ns * 1e-9,
+            high,
+            width_ns: width as f64 * self.tick_ns,
+        };
+        if self.glitch_events.len() < self.cfg.max_events {
+            self.glitch_events.push(g);
+        }
+        if let Some(a) = self.acc.as_mut() {
+            a.glitches += 1;
+        }
+    }
+
+    /// A decided edge: the stall check, then the rising or falling side (kept apart: the
+    /// falling side is small enough to inline, the rising side carries the period figures).
+    #[inline]
+    fn commit(&mut self, t: u64, rising: bool) {
+        if let Some(last) = self.last_edge
+            && (t - last > self.stall_ticks || t - last > MAX_GAP_TICKS)
+        {
+            self.stall(last, t);
+        }
+        self.last_edge = Some(t);
+        if rising {
+            self.commit_rise(t);
+        } else {
+            self.commit_fall(t);
+        }
+    }
+
+    #[cold]
+    fn stall(&mut self, last: u64, t: u64) {
+        let s = Stall {
+            at_s: last as f64 * self.tick_ns * 1e-9,
+            gap_ns: (t - last) as f64 * self.tick_ns,
+        };
+        if self.stall_events.len() < self.cfg.max_events {
+            self.stall_events.push(s);
+        }
+        if let Some(a) = self.acc.as_mut() {
+            a.stalls += 1;
+        }
+        self.break_continuity();
+    }
+
+    fn commit_rise(&mut self, t: u64) {
+        let period = self.last_rise.map(|r| (t - r) as i64);
+        let low = match (self.last_rise, self.last_fall) {
+            (Some(r), Some(f)) if f > r => Some((t - f) as i64),
+            (None, Some(f)) => Some((t - f) as i64),
+            _ => None,
+        };
+        // this rise's index on the ideal clock: +1 per period, whole cycles across a gap
+        let idx = match (self.last_rise, self.anchor) {
+            (Some(_), Some((_, k))) => k + 1,
+            (None, Some((at, k))) if self.typ_period > 0.0 => {
+                k + (t.saturating_sub(at) as f64 / self.typ_period)
+                    .round()
+                    .max(1.0) as u64
+            }
+            (None, Some((_, k))) => k + 1,
+            (_, None) => 0,
+        };
+        self.last_rise = Some(t);
+        self.anchor = Some((t, idx));
+        if self.ensure_acc(period).is_none() {
+            return;
+        }
+        if let Some(l) = low {
+            seg_add(&mut self.seg[2], l as u64, 1);
+            self.run.min_l = self.run.min_l.min(l as u64);
+            let a = self.acc.as_mut().expect("block exists");
+            a.low.add(l, t, idx);
+            a.hist_low.record(l);
+        }
+        match period {
+            Some(p) => self.on_period(t, p, idx),
+            None => {
+                if let Some(a) = self.acc.as_mut() {
+                    a.runs += 1;
+                }
+            }
+        }
+    }
+
+    #[inline]
+    fn commit_fall(&mut self, t: u64) {
+        if let Some(r) = self.last_rise {
+            let h = (t - r) as i64;
+            seg_add(&mut self.seg[1], h as u64, 1);
+            if self.run.n > 0 {
+                self.run.sum_h += h as u64;
+                self.run.nh += 1;
+                self.run.min_h = self.run.min_h.min(h as u64);
+            }
+            let idx = self.anchor.map_or(0, |a| a.1);
+            if self.ensure_acc(None).is_some() {
+                let a = self.acc.as_mut().expect("block exists");
+                a.high.add(h, t, idx);
+                a.hist_high.record(h);
+            }
+        }
+        self.last_fall = Some(t);
+    }
+
+    /// A period ending with the rise at `t`, whose ideal-cycle index is `idx` (the opening rise
+    /// has `idx − 1`).
+    fn on_period(&mut self, t: u64, p: i64, idx: u64) {
+        let k = idx - 1;
+        let (pref, _, _) = self.refs.expect("refs set with the first period");
+        seg_add(&mut self.seg[0], p as u64, 1);
+        self.count_periods(1);
+        let prev = self.prev_period.replace(p);
+        // phase of this rising edge against the session's reference clock; the first period
+        // also brings its opening edge into the fit
+        let first_fit = self.fit_origin.is_none();
+        let (k0, t0) = *self.fit_origin.get_or_insert((k, t - p as u64));
+        // in i128 and clamped: a probe's ticks may be anywhere in u64
+        let clamp = |v: i128| v.clamp(i128::from(i64::MIN / 4), i128::from(i64::MAX / 4)) as i64;
+        let kk = clamp(i128::from(k) + 1 - i128::from(k0));
+        let u = clamp(i128::from(t) - i128::from(t0) - i128::from(kk) * i128::from(pref));
+        // N-cycle error: the run's latest rises (the first period brings its opening rise)
+        if self.rises.is_empty() {
+            self.rises.extend(&[t - p as u64]);
+        }
+        self.rises.extend(&[t]);
+        let latest = self.rises.as_slice();
+        let mut ncyc = [None, None];
+        for (i, &n) in self.cfg.n_cycles.iter().enumerate() {
+            let n = n as usize;
+            if latest.len() > n {
+                let back = latest[latest.len() - 1 - n];
+                ncyc[i] = Some((t - back) as i64 - n as i64 * pref);
+            }
+        }
+        // detrended TIE record
+        self.record.push(t);
+        let rec = (self.record.len() >= self.cfg.tie_record).then(|| {
+            close_record(
+                &mut self.record,
+                &mut self.scratch.tie,
+                &mut self.records_out,
+            )
+        });
+        // Allan phase samples every `allan_every` cycles
+        if self.allan.is_none() {
+            let period_s = p as f64 * self.tick_ns * 1e-9;
+            self.allan_every = ((self.cfg.allan_tau0_s / period_s).round() as u64).max(1);
+            self.allan = Some(AllanStream::new(
+                self.allan_every as f64 * pref as f64 * self.tick_ns * 1e-9,
+            ));
+        }
+        let every = self.allan_every;
+        if self.run.n > 0 && t - self.run.start > self.run_ticks {
+            self.close_run();
+        }
+        if self.run.n == 0 {
+            self.run.start = t;
+            if self.run.min_h == 0 {
+                self.run.min_h = u64::MAX;
+                self.run.min_l = u64::MAX;
+            }
+        }
+        self.run.n += 1;
+        self.run.sum_p += p as u64;
+        self.run.last = t;
+        self.batch_sum += p;
+        self.batch_n += 1;
+        let batch_done = (self.batch_n == BATCH).then(|| std::mem::take(&mut self.batch_sum));
+        if batch_done.is_some() {
+            self.batch_n = 0;
+        }
+        let a = self.acc.as_mut().expect("block exists");
+        if let Some(b) = batch_done {
+            a.batch.add(b, t, idx);
+        }
+        a.period.add(p, t, idx);
+        a.hist_period.record(p);
+        if let Some(pp) = prev {
+            a.c2c.add(p - pp, t, idx);
+        } else {
+            a.runs += 1;
+        }
+        if first_fit {
+            a.fit.add(0, 0);
+        }
+        a.fit.add(kk, u);
+        for (i, v) in ncyc.iter().enumerate() {
+            if let Some(v) = v {
+                a.ncycle[i].add(*v, t, idx);
+            }
+        }
+        if let Some(r) = rec {
+            a.add_tie_record(r);
+        }
+        self.allan_countdown = self.allan_countdown.saturating_sub(1);
+        if self.allan_countdown == 0
+            && let Some(al) = self.allan.as_mut()
+        {
+            self.allan_countdown = every;
+            al.push(u as f64 * self.tick_ns);
+        }
+    }
+}

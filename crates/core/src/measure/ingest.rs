@@ -1,0 +1,545 @@
+//! The engine's checked front door: decoded protocol messages become validated [`Event`]s on
+//! one timeline. Every tick is placed here, once, with checked arithmetic: a later HELLO of the
+//! same probe continues the timeline past everything seen (its ticks start again), a batch
+//! that would run past 2^64 ticks keeps what fits and breaks continuity, and a channel whose
+//! time runs backwards breaks continuity. Data for channels the probe did not describe (or of
+//! another kind) is refused. Nothing here panics, whatever the probe sends.
+
+use firmware_protocol::{
+    Analog, CountWindow, Edges, FLAG_BURST_START, FLAG_LOST_BEFORE, Message, RawFrame, methods,
+};
+
+use crate::probe::{AnalogScale, ChannelKind, ProbeDesc};
+
+/// Why continuity broke on a channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum BreakCause {
+    /// The probe flagged data lost just before.
+    Lost,
+    /// The probe stamps in bursts and did not stamp the edges since its previous batch.
+    Burst,
+    /// The channel's time ran backwards (or stood still) to this tick: a probe restart or bug.
+    Reversal {
+        /// The first tick after the break.
+        to_tick: u64,
+    },
+    /// The probe's ticks ran past the end of the timeline (2^64): what followed was dropped.
+    Overflow,
+}
+
+/// One calibrated analog sample.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Sample {
+    /// When it was taken (engine timeline).
+    pub tick: u64,
+    /// The raw ADC count.
+    pub raw: u16,
+    /// The calibrated value, mV.
+    pub mv: f64,
+}
+
+/// A count window of a clock channel.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Count {
+    /// Channel id.
+    pub channel: u8,
+    /// Reciprocal (true) or gated counting.
+    pub reciprocal: bool,
+    /// Tick at the window's end (engine timeline).
+    pub end_tick: u64,
+    /// Gate length (gated) or measured span (reciprocal), ticks.
+    pub gate_ticks: u32,
+    /// Edges counted (gated) or cycles spanned (reciprocal).
+    pub edges: u32,
+    /// Level samples taken.
+    pub samples: u32,
+    /// Of those, samples that read high.
+    pub samples_high: u32,
+}
+
+/// One validated step of the probe's stream. Ticks are on the engine's timeline: strictly
+/// increasing within a batch, and a channel's next batch starts after its last one unless a
+/// [`Event::Break`] comes first.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Event<'a> {
+    /// The probe described itself: a different probe (or the first) when `new` (everything
+    /// starts over), else the same one again (continuity breaks).
+    Probe {
+        /// The description.
+        desc: &'a ProbeDesc,
+        /// Whether it differs from the one before.
+        new: bool,
+    },
+    /// Continuity broke on a channel: what follows does not continue what came before.
+    Break {
+        /// Channel id.
+        channel: u8,
+        /// Why.
+        cause: BreakCause,
+    },
+    /// The link came back: continuity broke on every channel.
+    Reconnect,
+    /// Edge timestamps of a clock channel, polarities alternating from `first_rising`.
+    Edges {
+        /// Channel id.
+        channel: u8,
+        /// Whether the first edge rises.
+        first_rising: bool,
+        /// Ticks, strictly increasing.
+        ticks: &'a [u64],
+    },
+    /// Changes of a line channel, levels alternating from `first_rising`.
+    Lines {
+        /// Channel id.
+        channel: u8,
+        /// Whether the first change rises.
+        first_rising: bool,
+        /// Ticks, strictly increasing.
+        ticks: &'a [u64],
+    },
+    /// A count window.
+    Count(Count),
+    /// Samples of an analog channel, `interval_ticks` apart.
+    Analog {
+        /// Channel id.
+        channel: u8,
+        /// Ticks between samples.
+        interval_ticks: u32,
+        /// The samples, in time order.
+        samples: &'a [Sample],
+    },
+    /// The probe's loss counters (totals since it started).
+    Status {
+        /// Buffer overflow events.
+        overflows: u16,
+        /// Edges it could not record.
+        edges_dropped: u32,
+        /// Samples it could not record.
+        samples_dropped: u32,
+    },
+    /// A log line from the probe.
+    Log(&'a str),
+    /// A data message for a channel the probe did not describe as that kind (refused).
+    Unknown {
+        /// Channel id.
+        channel: u8,
+        /// Whether the probe flagged data lost before it.
+        lost_before: bool,
+    },
+    /// A frame passed its CRC but its body did not decode.
+    Undecodable,
+}
+
+/// What the probe's description says about one channel id. An id described twice (under two
+/// kinds) is one channel to the timeline: its streams share the reversal check and its breaks.
+#[derive(Clone, Copy, Debug, Default)]
+struct Slot {
+    edge: bool,
+    line: bool,
+    /// The first analog channel's calibration.
+    analog: Option<AnalogScale>,
+    /// The last tick delivered on this channel's edge, line or sample stream.
+    last: Option<u64>,
+}
+
+/// The ingest step's state: the probe description, the timeline and reused buffers.
+pub(crate) struct Ingest {
+    probe: Option<ProbeDesc>,
+    slots: Box<[Slot; 256]>,
+    /// Added to every probe tick (None: the timeline is used up).
+    offset: Option<u64>,
+    /// The latest tick delivered on any channel.
+    newest: u64,
+    seen_data: bool,
+    ticks: Vec<u64>,
+    samples: Vec<Sample>,
+}
+
+impl Ingest {
+    /// Waiting for a probe's HELLO.
+    pub(crate) fn new() -> Ingest {
+        Ingest {
+            probe: None,
+            slots: Box::new([Slot::default(); 256]),
+            offset: Some(0),
+            newest: 0,
+            seen_data: false,
+            ticks: Vec::new(),
+            samples: Vec::new(),
+        }
+    }
+
+    /// One frame that passed its CRC: its events to `emit`, in order.
+    pub(crate) fn frame(&mut self, f: &RawFrame<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        match Message::decode(f) {
+            Ok(m) => self.message(&m, emit),
+            Err(_) => emit(&Event::Undecodable),
+        }
+    }
+
+    /// The link came back.
+    pub(crate) fn reconnect(&mut self, mut emit: impl FnMut(&Event<'_>)) {
+        emit(&Event::Reconnect);
+    }
+
+    fn message(&mut self, m: &Message<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        match m {
+            Message::Hello(h) => self.hello(ProbeDesc::from_hello(h), emit),
+            Message::Edges(e) => self.stamps(e, false, emit),
+            Message::Lines(e) => self.stamps(e, true, emit),
+            Message::Count(w) => self.count(w, emit),
+            Message::Analog(a) => self.analog(a, emit),
+            Message::Status(s) => emit(&Event::Status {
+                overflows: s.overflows,
+                edges_dropped: s.edges_dropped,
+                samples_dropped: s.samples_dropped,
+            }),
+            Message::Log(l) => emit(&Event::Log(l.text)),
+            Message::Ack(_)
+            | Message::Describe
+            | Message::Start
+            | Message::Stop
+            | Message::Configure(_)
+            | Message::Ping(_) => {}
+        }
+    }
+
+    fn hello(&mut self, desc: ProbeDesc, mut emit: impl FnMut(&Event<'_>)) {
+        let new = self.probe.as_ref() != Some(&desc);
+        if new {
+            // a different probe: its own timeline from zero
+            *self = Ingest {
+                ticks: std::mem::take(&mut self.ticks),
+                samples: std::mem::take(&mut self.samples),
+                ..Ingest::new()
+            };
+            for c in &desc.channels {
+                let s = &mut self.slots[usize::from(c.id)];
+                match c.kind {
+                    ChannelKind::Edge => s.edge = true,
+                    ChannelKind::Line => s.line = true,
+                    ChannelKind::Analog => {
+                        s.analog.get_or_insert(c.scale);
+                    }
+                }
+            }
+        } else if self.seen_data {
+            // the same probe again (restarted or reconnected): its ticks start again, so the
+            // timeline carries on after everything seen
+            self.offset = self.newest.checked_add(1);
+        }
+        let desc = self.probe.insert(desc);
+        emit(&Event::Probe { desc, new });
+    }
+
+    /// Data delivered on `channel` up to `last`: the channel's and the timeline's newest tick.
+    fn delivered(&mut self, channel: u8, last: u64) {
+        self.slots[usize::from(channel)].last = Some(last);
+        self.newest = self.newest.max(last);
+        self.seen_data = true;
+    }
+
+    /// A break when `first` does not come after the channel's last tick.
+    fn reversal(&self, channel: u8, first: u64) -> Option<Event<'static>> {
+        let last = self.slots[usize::from(channel)].last?;
+        (first <= last).then_some(Event::Break {
+            channel,
+            cause: BreakCause::Reversal { to_tick: first },
+        })
+    }
+
+    /// EDGES (`lines` false) or LINES.
+    fn stamps(&mut self, e: &Edges<'_>, lines: bool, mut emit: impl FnMut(&Event<'_>)) {
+        let slot = self.slots[usize::from(e.channel)];
+        let channel = e.channel;
+        if !(if lines { slot.line } else { slot.edge }) {
+            let lost_before = !lines && e.flags & FLAG_LOST_BEFORE != 0;
+            emit(&Event::Unknown {
+                channel,
+                lost_before,
+            });
+            return;
+        }
+        let mut buf = std::mem::take(&mut self.ticks);
+        buf.resize(usize::from(e.count), 0);
+        let n = e.ticks_into(&mut buf);
+        buf.truncate(n);
+        let single_byte = e.deltas.len() + 1 == usize::from(e.count);
+        let fit = place(&mut buf, self.offset, single_byte);
+        if !lines && e.flags & (FLAG_LOST_BEFORE | FLAG_BURST_START) != 0 {
+            let cause = if e.flags & FLAG_LOST_BEFORE != 0 {
+                BreakCause::Lost
+            } else {
+                BreakCause::Burst
+            };
+            emit(&Event::Break { channel, cause });
+        }
+        if fit > 0 {
+            let ticks = &buf[..fit];
+            if let Some(b) = self.reversal(channel, ticks[0]) {
+                emit(&b);
+            }
+            let first_rising = e.first_rising;
+            emit(&if lines {
+                Event::Lines {
+                    channel,
+                    first_rising,
+                    ticks,
+                }
+            } else {
+                Event::Edges {
+                    channel,
+                    first_rising,
+                    ticks,
+                }
+            });
+            self.delivered(channel, ticks[fit - 1]);
+        }
+        if fit < n {
+            emit(&Event::Break {
+                channel,
+                cause: BreakCause::Overflow,
+            });
+        }
+        self.ticks = buf;
+    }
+
+    fn count(&mut self, w: &CountWindow, mut emit: impl FnMut(&Event<'_>)) {
+        let channel = w.channel;
+        if !self.slots[usize::from(channel)].edge {
+            emit(&Event::Unknown {
+                channel,
+                lost_before: false,
+            });
+            return;
+        }
+        let end = w
+            .start_tick
+            .checked_add(u64::from(w.gate_ticks))
+            .zip(self.offset)
+            .and_then(|(t, off)| t.checked_add(off));
+        let Some(end_tick) = end else {
+            emit(&Event::Break {
+                channel,
+                cause: BreakCause::Overflow,
+            });
+            return;
+        };
+        // a window overlaps the edges stamped in it: it neither checks nor moves the channel's
+        // last tick
+        self.newest = self.newest.max(end_tick);
+        self.seen_data = true;
+        emit(&Event::Count(Count {
+            channel,
+            reciprocal: w.method == methods::RECIPROCAL,
+            end_tick,
+            gate_ticks: w.gate_ticks,
+            edges: w.edges,
+            samples: w.samples,
+            samples_high: w.samples_high,
+        }));
+    }
+
+    fn analog(&mut self, a: &Analog<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        let channel = a.channel;
+        let lost_before = a.flags & FLAG_LOST_BEFORE != 0;
+        let Some(scale) = self.slots[usize::from(channel)].analog else {
+            emit(&Event::Unknown {
+                channel,
+                lost_before,
+            });
+            return;
+        };
+        if lost_before {
+            emit(&Event::Break {
+                channel,
+                cause: BreakCause::Lost,
+            });
+        }
+        let first = self.offset.and_then(|off| a.first_tick.checked_add(off));
+        let step = u64::from(a.interval_ticks);
+        // the samples whose tick stays below 2^64 (the interval is at least 1)
+        let fit = first.map_or(0, |f| {
+            usize::try_from((u64::MAX - f) / step.max(1))
+                .map_or(usize::MAX, |k| k.saturating_add(1))
+                .min(a.count())
+        });
+        if let Some(t0) = first
+            && fit > 0
+        {
+            if let Some(b) = self.reversal(channel, t0) {
+                emit(&b);
+            }
+            let mut buf = std::mem::take(&mut self.samples);
+            buf.clear();
+            let mut tick = t0;
+            buf.extend(a.samples().take(fit).map(|raw| {
+                let s = Sample {
+                    tick,
+                    raw,
+                    mv: scale.mv(f64::from(raw)),
+                };
+                tick = tick.wrapping_add(step);
+                s
+            }));
+            emit(&Event::Analog {
+                channel,
+                interval_ticks: a.interval_ticks,
+                samples: &buf,
+            });
+            self.delivered(channel, buf[fit - 1].tick);
+            self.samples = buf;
+        }
+        if fit < a.count() {
+            emit(&Event::Break {
+                channel,
+                cause: BreakCause::Overflow,
+            });
+        }
+    }
+}
+
+/// Adds `offset` to a batch's decoded ticks (decoded with wrapping arithmetic; every delta is at
+/// least 1 and below 2^63) and returns how many of them stay on the timeline: the prefix that
+/// neither wrapped nor ran past 2^64 with the offset.
+fn place(ticks: &mut [u64], offset: Option<u64>, single_byte: bool) -> usize {
+    let (Some(off), Some(&first), Some(&last)) = (offset, ticks.first(), ticks.last()) else {
+        return 0;
+    };
+    let n = ticks.len();
+    // single-byte deltas add at most 127 each: when even that stays below 2^64 nothing wrapped
+    let clear = if single_byte {
+        first
+            .checked_add(off)
+            .and_then(|t| t.checked_add(127 * (n as u64 - 1)))
+            .is_some()
+    } else {
+        // a wrap shows as a tick not above the one before
+        ticks.windows(2).all(|w| w[0] < w[1]) && last.checked_add(off).is_some()
+    };
+    if clear {
+        if off != 0 {
+            ticks.iter_mut().for_each(|t| *t += off);
+        }
+        return n;
+    }
+    let mut prev = None;
+    for (i, t) in ticks.iter_mut().enumerate() {
+        if prev.is_some_and(|p| *t <= p) {
+            return i;
+        }
+        prev = Some(*t);
+        match t.checked_add(off) {
+            Some(v) => *t = v,
+            None => return i,
+        }
+    }
+    n
+}
+
+/// A HELLO frame of a 125 MHz probe with these channels, appended to `out` (for tests).
+#[cfg(test)]
+pub(super) fn hello_frame(out: &mut Vec<u8>, channels: &[firmware_protocol::Channel<'_>]) {
+    use firmware_protocol::{Channels, Hello, MAX_WIRE, encode_message};
+    let m = Message::Hello(Hello {
+        protocol_version: 1,
+        tick_num_hz: 125_000_000,
+        tick_den: 1,
+        timebase_ppm: 0,
+        max_edge_rate_khz: 0,
+        firmware: "t",
+        channels: Channels::List(channels),
+    });
+    let mut wire = [0u8; MAX_WIRE];
+    let n = encode_message(&m, 0, &mut wire).expect("a valid HELLO");
+    out.extend_from_slice(&wire[..n]);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use firmware_protocol::{Channel, MAX_WIRE, StreamDecoder, encode_frame, types};
+
+    /// An EDGES frame of channel 0 from its first tick and deltas, written by hand (a writer
+    /// refuses deltas that wrap).
+    fn edges_frame(out: &mut Vec<u8>, first: u64, deltas: &[u8]) {
+        let mut body = vec![0u8, 1, 0];
+        body.extend_from_slice(&(deltas.len() as u16 + 1).to_le_bytes());
+        body.extend_from_slice(&first.to_le_bytes());
+        body.extend_from_slice(deltas);
+        let mut wire = [0u8; MAX_WIRE];
+        let len = encode_frame(types::EDGES, 1, &body, &mut wire).unwrap();
+        out.extend_from_slice(&wire[..len]);
+    }
+
+    /// What the ingest emits for a byte stream, as text.
+    fn events(bytes: &[u8]) -> Vec<String> {
+        let mut ing = Ingest::new();
+        let mut d = StreamDecoder::new();
+        let mut out = Vec::new();
+        d.push(bytes, |f| {
+            ing.frame(&f, |ev| {
+                out.push(match ev {
+                    Event::Probe { new, .. } => format!("probe new={new}"),
+                    e => format!("{e:?}"),
+                })
+            })
+        });
+        out
+    }
+
+    /// Ticks running past 2^64 keep the prefix that fits and break continuity; a later batch
+    /// starting before the last one breaks it as a reversal.
+    #[test]
+    fn overflow_and_reversal_become_breaks() {
+        let mut b = Vec::new();
+        let analog = Channel {
+            id: 3,
+            kind: firmware_protocol::ChannelKind::Analog,
+            info: 10,
+            label: "V",
+            scale_num_uv: 5000,
+            scale_den: 1,
+            offset_uv: 0,
+        };
+        hello_frame(&mut b, &[Channel::edge(0, 1, "CLK"), analog]);
+        let m = u64::MAX;
+        edges_frame(&mut b, 1000, &[100, 100]);
+        edges_frame(&mut b, m - 5, &[3, 3, 3]);
+        edges_frame(&mut b, 10, &[10, 10]);
+        let ev = events(&b);
+        let want = [
+            "probe new=true".to_string(),
+            "Edges { channel: 0, first_rising: true, ticks: [1000, 1100, 1200] }".into(),
+            format!(
+                "Edges {{ channel: 0, first_rising: true, ticks: [{}, {}] }}",
+                m - 5,
+                m - 2
+            ),
+            "Break { channel: 0, cause: Overflow }".into(),
+            "Break { channel: 0, cause: Reversal { to_tick: 10 } }".into(),
+            "Edges { channel: 0, first_rising: true, ticks: [10, 20, 30] }".into(),
+        ];
+        assert_eq!(ev, want);
+    }
+
+    /// `place` finds the same prefix by its fast checks as by the tick-by-tick walk.
+    #[test]
+    fn placing_ticks_keeps_the_prefix_on_the_timeline() {
+        let m = u64::MAX;
+        for (ticks, off, single, want) in [
+            (vec![1u64, 2, 3], Some(0), true, 3),
+            (vec![1, 2, 3], Some(m - 2), true, 2),
+            (vec![1, 2, 3], None, true, 0),
+            (vec![m - 1, m, 0, 1], Some(0), false, 2),
+            (vec![5, 1 << 40, 1 << 50], Some(m - (1 << 50) + 1), false, 2),
+            (vec![5, 1 << 40, 1 << 50], Some(7), false, 3),
+        ] {
+            let mut t = ticks.clone();
+            assert_eq!(place(&mut t, off, single), want, "{ticks:?} + {off:?}");
+            for (a, b) in t[..want].iter().zip(&ticks) {
+                assert_eq!(*a, b + off.unwrap_or(0));
+            }
+        }
+    }
+}
