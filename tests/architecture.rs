@@ -254,9 +254,10 @@ fn paths_in(code: &str) -> Vec<Vec<String>> {
         let before = rest[..i].chars().last();
         let after = &rest[i + 4..];
         if before.is_none_or(|c| !c.is_alphanumeric() && c != '_')
-            && let Some(end) = after.find(';') {
-                out.extend(expand_use(&after[..end]));
-            }
+            && let Some(end) = after.find(';')
+        {
+            out.extend(expand_use(&after[..end]));
+        }
         rest = after;
     }
     let words: Vec<&str> = code

@@ -9,7 +9,7 @@ use slackmeter::cli::model::typical_fault_limit;
 use slackmeter::diag::Source;
 use slackmeter::margin::{MarginConfig, Verdict, evaluate};
 use slackmeter::measure::{EngineConfig, Feed, Window};
-use slackmeter::sim::model::{Bench, Slice};
+use slackmeter::sim::bench::{Bench, Slice};
 use slackmeter::sim::{BenchModel, RailModel, SimProbe};
 
 /// The worked example of DESIGN.md §4 as a design: L = 500 ns, H = 125 ns, P = 0.

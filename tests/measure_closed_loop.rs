@@ -3,7 +3,7 @@
 //! 95 % of scenarios, with uncertainties not wider than needed. Prints the calibration table.
 
 use slackmeter::measure::{EngineConfig, Feed, Window};
-use slackmeter::sim::model::{Bench, Slice};
+use slackmeter::sim::bench::{Bench, Slice};
 use slackmeter::sim::{BenchModel, RailModel, SimProbe};
 
 struct Rng(u64);

@@ -130,18 +130,7 @@ impl Recording {
         &mut self,
         feed: &mut impl ReplaySink,
         opts: ReplayOptions,
-        progress: impl FnMut(u64),
-    ) -> Result<ReplaySummary, RecordingError> {
-        self.replay_tapped(feed, opts, progress, |_| {})
-    }
-
-    /// [`Recording::replay`], also handing every data payload to `tap` (plots, exports).
-    pub fn replay_tapped(
-        &mut self,
-        feed: &mut impl ReplaySink,
-        opts: ReplayOptions,
         mut progress: impl FnMut(u64),
-        mut tap: impl FnMut(&[u8]),
     ) -> Result<ReplaySummary, RecordingError> {
         let t0 = self.parsed.header.start_unix_ns;
         let started = Instant::now();
@@ -177,7 +166,6 @@ impl Recording {
                 ChunkKind::Data => {
                     s.data_bytes += c.payload.len() as u64;
                     feed.data(&c.payload);
-                    tap(&c.payload);
                 }
                 ChunkKind::Mark => {
                     let probe_s = feed.probe_time_s();

@@ -10,7 +10,8 @@ use firmware_protocol::{
     results, roles, types,
 };
 
-use super::model::{ADC_UV_PER_COUNT, Bench, BenchModel, Slice};
+use super::bench::{Bench, Slice};
+use super::model::{ADC_UV_PER_COUNT, BenchModel};
 
 /// Simulated time per step.
 pub const SLICE_NS: f64 = 1e6;

@@ -7,7 +7,7 @@
 use std::ffi::CStr;
 use std::fs::File;
 use std::io::{self, Read, Write};
-use std::os::fd::{AsRawFd, FromRawFd};
+use std::os::fd::FromRawFd;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
@@ -187,9 +187,4 @@ impl Drop for PtyServer {
             let _ = std::fs::remove_file(l);
         }
     }
-}
-
-/// A raw descriptor for callers that poll (kept for tests).
-pub fn master_fd(s: &PtyServer) -> i32 {
-    s.master.as_raw_fd()
 }
