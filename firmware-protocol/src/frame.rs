@@ -156,10 +156,18 @@ pub struct Counters {
     pub bad_version: u64,
     /// Times the sequence number jumped forward.
     pub seq_gaps: u64,
-    /// Frames missing according to the sequence numbers.
+    /// Frames missing according to the sequence numbers (not received in order; a frame that
+    /// arrives late is counted here and in `out_of_order`).
     pub lost_frames: u64,
-    /// Frames whose sequence number went backwards (duplicates, reordering).
-    pub seq_backwards: u64,
+    /// Frames dropped as copies of a recent frame (same sequence number and CRC as one of the
+    /// last [`RECENT_FRAMES`] accepted): never delivered twice.
+    pub duplicates: u64,
+    /// Frames dropped because their sequence number lies behind the expectation and they are no
+    /// copy of a recent frame (late or stale): the expectation does not move.
+    pub out_of_order: u64,
+    /// Times the sequence restarted without a HELLO (two successive frames far behind the
+    /// expectation, the second following the first): tracking resumes from them.
+    pub seq_restarts: u64,
     /// Version byte of the last frame rejected for its version (0: none yet).
     pub last_bad_version: u8,
 }
@@ -171,13 +179,23 @@ impl Counters {
     }
 }
 
+/// Accepted frames remembered (sequence number and CRC) to tell a copy from a late frame.
+pub const RECENT_FRAMES: usize = 32;
+
 /// Streaming decoder: takes byte chunks of any size, yields intact frames, counts the rest,
-/// resynchronises at the next 0x00. Memory is one wire frame, whatever arrives.
+/// resynchronises at the next 0x00. Memory is one wire frame, whatever arrives. Frames are
+/// delivered in sequence order only: copies and late frames are counted and dropped.
 pub struct StreamDecoder {
     buf: [u8; MAX_WIRE],
     len: usize,
     overflow: bool,
     next_seq: Option<u16>,
+    /// (sequence number, CRC) of the last accepted frames, a ring; `recent_len` valid entries.
+    recent: [(u16, u32); RECENT_FRAMES],
+    recent_at: usize,
+    recent_len: usize,
+    /// Sequence number of the last frame dropped as far behind (a restart candidate).
+    far_behind: Option<u16>,
     /// Totals so far.
     pub counters: Counters,
 }
@@ -199,6 +217,10 @@ impl StreamDecoder {
             len: 0,
             overflow: false,
             next_seq: None,
+            recent: [(0, 0); RECENT_FRAMES],
+            recent_at: 0,
+            recent_len: 0,
+            far_behind: None,
             counters: Counters {
                 bytes: 0,
                 frames: 0,
@@ -209,7 +231,9 @@ impl StreamDecoder {
                 bad_version: 0,
                 seq_gaps: 0,
                 lost_frames: 0,
-                seq_backwards: 0,
+                duplicates: 0,
+                out_of_order: 0,
+                seq_restarts: 0,
                 last_bad_version: 0,
             },
         }
@@ -218,6 +242,55 @@ impl StreamDecoder {
     /// Forget sequence history (e.g. after a reconnect).
     pub fn reset_sequence(&mut self) {
         self.next_seq = None;
+        self.recent_len = 0;
+        self.far_behind = None;
+    }
+
+    /// Whether (seq, crc) is one of the last accepted frames.
+    fn seen(&self, seq: u16, crc: u32) -> bool {
+        self.recent[..self.recent_len].contains(&(seq, crc))
+    }
+
+    fn remember(&mut self, seq: u16, crc: u32) {
+        self.recent[self.recent_at] = (seq, crc);
+        self.recent_at = (self.recent_at + 1) % RECENT_FRAMES;
+        self.recent_len = (self.recent_len + 1).min(RECENT_FRAMES);
+    }
+
+    /// Sequence bookkeeping of an intact frame: whether to deliver it.
+    fn admit(&mut self, msg_type: u8, seq: u16, crc: u32) -> bool {
+        if self.seen(seq, crc) {
+            self.counters.duplicates += 1;
+            return false;
+        }
+        let far = core::mem::take(&mut self.far_behind);
+        if let Some(expect) = self.next_seq
+            && seq != expect
+            && msg_type != HELLO_TYPE
+        {
+            let ahead = seq.wrapping_sub(expect);
+            if ahead < 0x8000 {
+                self.counters.seq_gaps += 1;
+                self.counters.lost_frames += u64::from(ahead);
+            } else if far == Some(seq.wrapping_sub(1)) {
+                // two successive frames far behind: the sender restarted its numbers
+                self.counters.seq_restarts += 1;
+                self.recent_len = 0;
+            } else {
+                self.counters.out_of_order += 1;
+                if expect.wrapping_sub(seq) as usize > RECENT_FRAMES {
+                    self.far_behind = Some(seq);
+                }
+                return false;
+            }
+        }
+        if msg_type == HELLO_TYPE {
+            self.recent_len = 0;
+        }
+        self.counters.frames += 1;
+        self.next_seq = Some(seq.wrapping_add(1));
+        self.remember(seq, crc);
+        true
     }
 
     /// Feed bytes; `on_frame` is called for each intact frame, in order.
@@ -270,23 +343,25 @@ impl StreamDecoder {
         };
         match parse_decoded(&self.buf[..n]) {
             Ok(f) => {
-                let c = &mut self.counters;
-                c.frames += 1;
-                let seq = f.header.seq;
-                if let Some(expect) = self.next_seq
-                    && seq != expect
-                    && f.header.msg_type != HELLO_TYPE
-                {
-                    let ahead = seq.wrapping_sub(expect);
-                    if ahead < 0x8000 {
-                        c.seq_gaps += 1;
-                        c.lost_frames += u64::from(ahead);
-                    } else {
-                        c.seq_backwards += 1;
-                    }
+                let crc = u32::from_le_bytes([
+                    self.buf[n - 4],
+                    self.buf[n - 3],
+                    self.buf[n - 2],
+                    self.buf[n - 1],
+                ]);
+                let (msg_type, seq) = (f.header.msg_type, f.header.seq);
+                if !self.admit(msg_type, seq, crc) {
+                    return None;
                 }
-                self.next_seq = Some(seq.wrapping_add(1));
-                Some(f)
+                let body_end = n - CRC_LEN;
+                Some(RawFrame {
+                    header: Header {
+                        version: VERSION,
+                        msg_type,
+                        seq,
+                    },
+                    body: &self.buf[HEADER_LEN..body_end],
+                })
             }
             Err(e) => {
                 let c = &mut self.counters;

@@ -99,7 +99,13 @@ fn decode_all(chunks: &[&[u8]]) -> (Vec<(u8, u16, Vec<u8>)>, Counters) {
 fn stream_split_at_every_byte_boundary_gives_the_same_frames() {
     let s = vector_stream();
     let (whole, counters) = decode_all(&[&s]);
-    assert_eq!(whole.len(), 16);
+    // every vector is an intact frame; those whose sequence number lies behind the one before
+    // are dropped as out of order (the vectors' numbers are not one sequence)
+    assert_eq!(
+        whole.len() as u64 + counters.out_of_order + counters.duplicates,
+        s.iter().filter(|&&b| b == 0).count() as u64 - 1
+    );
+    assert!(whole.len() >= 10);
     assert_eq!(
         counters.cobs_errors + counters.runts,
         1,
@@ -148,18 +154,23 @@ fn oversized_runs_are_skipped_and_memory_stays_one_frame() {
     assert!(std::mem::size_of::<StreamDecoder>() < 2 * MAX_WIRE);
 }
 
-#[test]
-fn sequence_gaps_are_counted_and_hello_restarts_them() {
-    let mut d = StreamDecoder::new();
+fn ping(seq: u16, nonce: u32) -> Vec<u8> {
     let mut wire = [0u8; MAX_WIRE];
-    for seq in [0u16, 1, 2, 5, 6, 65535, 0] {
-        let n = encode_message(&Message::Ping(1), seq, &mut wire).unwrap();
-        d.push(&wire[..n], |_| {});
+    let n = encode_message(&Message::Ping(nonce), seq, &mut wire).unwrap();
+    wire[..n].to_vec()
+}
+
+/// Frames through a fresh decoder: the sequence numbers delivered, and the counters.
+fn deliver(frames: &[Vec<u8>]) -> (Vec<u16>, Counters) {
+    let mut d = StreamDecoder::new();
+    let mut got = Vec::new();
+    for f in frames {
+        d.push(f, |f| got.push(f.header.seq));
     }
-    // 2 → 5 loses 3, 4; 6 → 65535 jumps back (out of order); 65535 → 0 wraps fine
-    assert_eq!(d.counters.seq_gaps, 1);
-    assert_eq!(d.counters.lost_frames, 2);
-    assert_eq!(d.counters.seq_backwards, 1);
+    (got, d.counters)
+}
+
+fn hello_frame(seq: u16) -> Vec<u8> {
     let hello = Message::Hello(Hello {
         protocol_version: 1,
         tick_num_hz: 1,
@@ -169,9 +180,102 @@ fn sequence_gaps_are_counted_and_hello_restarts_them() {
         firmware: "x",
         channels: Channels::List(&[]),
     });
-    let n = encode_message(&hello, 40, &mut wire).unwrap();
-    d.push(&wire[..n], |_| {});
+    let mut wire = [0u8; MAX_WIRE];
+    let n = encode_message(&hello, seq, &mut wire).unwrap();
+    wire[..n].to_vec()
+}
+
+#[test]
+fn sequence_gaps_are_counted_and_hello_restarts_them() {
+    let mut frames: Vec<Vec<u8>> = [0u16, 1, 2, 5, 6, 7, 65535]
+        .iter()
+        .map(|&s| ping(s, u32::from(s)))
+        .collect();
+    frames.push(ping(0, 99)); // number 0 again, other content: late, not a copy
+    let (got, c) = deliver(&frames);
+    // 2 → 5 loses 3 and 4; 65535 and 0 lie behind 8: late, dropped, counted, the expectation kept
+    assert_eq!(got, [0, 1, 2, 5, 6, 7]);
+    assert_eq!(c.seq_gaps, 1);
+    assert_eq!(c.lost_frames, 2);
+    assert_eq!(c.out_of_order, 2);
+    assert_eq!(c.duplicates, 0);
+    let mut d = StreamDecoder::new();
+    for f in &frames {
+        d.push(f, |_| {});
+    }
+    d.push(&hello_frame(40), |_| {});
+    d.push(&ping(41, 0), |_| {});
     assert_eq!(d.counters.seq_gaps, 1, "HELLO is a restart, not a gap");
+    assert_eq!(d.counters.frames, 8);
+}
+
+/// A sequence number seen again with the same content is a copy: dropped, counted, and the
+/// frames after it are neither lost nor late.
+#[test]
+fn duplicated_frames_are_dropped_once_counted() {
+    let f: Vec<Vec<u8>> = (0..10u16).map(|s| ping(s, 7)).collect();
+    let stream = vec![
+        f[0].clone(),
+        f[1].clone(),
+        f[1].clone(), // the last frame again
+        f[2].clone(),
+        f[3].clone(),
+        f[1].clone(), // an older one again
+        f[4].clone(),
+        f[4].clone(),
+        f[4].clone(),
+        f[5].clone(),
+    ];
+    let (got, c) = deliver(&stream);
+    assert_eq!(got, [0, 1, 2, 3, 4, 5]);
+    assert_eq!(c.duplicates, 4);
+    assert_eq!(c.frames, 6);
+    assert_eq!((c.lost_frames, c.seq_gaps, c.out_of_order), (0, 0, 0));
+    // a copy of the HELLO is no second restart
+    let (got, c) = deliver(&[hello_frame(0), hello_frame(0), ping(1, 0)]);
+    assert_eq!(got, [0, 1]);
+    assert_eq!(c.duplicates, 1);
+}
+
+/// One frame out of place costs what it costs and no more: a swapped pair is one lost (at the
+/// jump) and one late frame; a stale frame from far back moves nothing.
+#[test]
+fn one_out_of_order_frame_is_not_dozens_lost() {
+    let f: Vec<Vec<u8>> = (0..200u16).map(|s| ping(s, u32::from(s))).collect();
+    // 0..=100, then 50 (stale), then 101..=120
+    let mut stream: Vec<Vec<u8>> = f[..=100].to_vec();
+    stream.push(ping(50, 0xBAD)); // same number, other content: not a copy of frame 50
+    stream.extend_from_slice(&f[101..=120]);
+    let (got, c) = deliver(&stream);
+    assert_eq!(got.len(), 121);
+    assert_eq!(c.out_of_order, 1);
+    assert_eq!(c.lost_frames, 0);
+    assert_eq!(c.seq_restarts, 0);
+    // 0..=9, 11, 10, 12..=20: 10 is late (already counted lost at 9 → 11)
+    let mut stream: Vec<Vec<u8>> = f[..=9].to_vec();
+    stream.push(f[11].clone());
+    stream.push(f[10].clone());
+    stream.extend_from_slice(&f[12..=20]);
+    let (got, c) = deliver(&stream);
+    assert_eq!(got.len(), 20);
+    assert!(!got.contains(&10));
+    assert_eq!((c.lost_frames, c.out_of_order, c.seq_gaps), (1, 1, 1));
+}
+
+/// A sender that restarts its numbers without a HELLO (the HELLO lost): after two successive
+/// frames far behind, tracking follows the new numbers.
+#[test]
+fn a_restart_without_hello_is_followed() {
+    let mut stream: Vec<Vec<u8>> = (1000..1100u16).map(|s| ping(s, 1)).collect();
+    stream.extend((0..50u16).map(|s| ping(s, 2)));
+    let (got, c) = deliver(&stream);
+    assert_eq!(c.seq_restarts, 1);
+    assert_eq!(
+        c.out_of_order, 1,
+        "the first frame of the restart is dropped"
+    );
+    assert_eq!(got.len(), 100 + 49);
+    assert_eq!(c.lost_frames, 0);
 }
 
 /// One million frames; about a fifth damaged by a bit flip, a dropped byte or an inserted byte.

@@ -199,10 +199,66 @@ fn examples(deltas: &'static [u8]) -> Vec<(&'static str, &'static str, u16, Mess
             3,
             Message::Ping(0x1234_5678),
         ),
+        (
+            "edges-top-of-range",
+            "two edges whose last tick is 2^64 - 1, the largest tick there is (accepted)",
+            10,
+            Message::Edges(Edges {
+                channel: 0,
+                first_rising: false,
+                flags: 0,
+                count: 2,
+                first_tick: u64::MAX - 10,
+                deltas: &[10],
+            }),
+        ),
     ]
 }
 
 const EDGE_DELTAS: &[u8] = &[0xfa, 0x01, 0xfa, 0x01, 0xac, 0x02];
+
+/// Frames with a valid CRC whose bodies a receiver must refuse: (name, description, type, seq,
+/// body, reason as written after `reject`).
+fn rejected() -> Vec<(&'static str, &'static str, u8, u16, Vec<u8>, &'static str)> {
+    let edges = |count: u16, first_tick: u64, deltas: &[u8]| {
+        let mut b = vec![0u8, 1, 0];
+        b.extend_from_slice(&count.to_le_bytes());
+        b.extend_from_slice(&first_tick.to_le_bytes());
+        b.extend_from_slice(deltas);
+        b
+    };
+    let mut analog = vec![3u8, 0];
+    analog.extend_from_slice(&2u16.to_le_bytes());
+    analog.extend_from_slice(&(u64::MAX - 999).to_le_bytes());
+    analog.extend_from_slice(&1000u32.to_le_bytes());
+    analog.extend_from_slice(&[0xc4, 0x09, 0xba, 0x09]);
+    vec![
+        (
+            "edges-tick-overflow",
+            "refused: first tick 2^64 - 11, then +10 +1: the third tick would wrap past 2^64 - 1",
+            types::EDGES,
+            11,
+            edges(3, u64::MAX - 10, &[10, 1]),
+            "tick-overflow",
+        ),
+        (
+            "lines-tick-overflow",
+            "refused: first tick 2^64 - 200, then +200 (a two-byte delta): wraps to 0",
+            types::LINES,
+            12,
+            edges(2, u64::MAX - 199, &[0xc8, 0x01]),
+            "tick-overflow",
+        ),
+        (
+            "analog-tick-overflow",
+            "refused: two samples from tick 2^64 - 1000 every 1000 ticks: the second would wrap",
+            types::ANALOG,
+            13,
+            analog,
+            "tick-overflow",
+        ),
+    ]
+}
 
 fn render() -> String {
     let mut out = String::from(
@@ -211,7 +267,8 @@ fn render() -> String {
          #   name   vector name          desc  what it is\n\
          #   type   message type (hex)   seq   sequence number (hex, 4 digits)\n\
          #   body   message body (hex)   frame decoded frame: header, body, CRC-32 (hex)\n\
-         #   wire   bytes on the wire: COBS(frame) then 00 (hex)\n",
+         #   wire   bytes on the wire: COBS(frame) then 00 (hex)\n\
+         #   reject (refused vectors only) why a receiver refuses the body; the frame is intact\n",
     );
     for (name, desc, seq, m) in examples(EDGE_DELTAS) {
         let mut body = [0u8; MAX_BODY];
@@ -232,6 +289,22 @@ fn render() -> String {
             hex(&wire[..w])
         );
     }
+    for (name, desc, msg_type, seq, body, reason) in rejected() {
+        let mut wire = [0u8; MAX_WIRE];
+        let w = encode_frame(msg_type, seq, &body, &mut wire).unwrap();
+        let mut frame = vec![VERSION, msg_type];
+        frame.extend_from_slice(&seq.to_le_bytes());
+        frame.extend_from_slice(&body);
+        let crc = crc32(&frame);
+        frame.extend_from_slice(&crc.to_le_bytes());
+        let _ = write!(
+            out,
+            "\nname {name}\ndesc {desc}\ntype {msg_type:02x}\nseq {seq:04x}\nbody {}\nframe {}\nwire {}\nreject {reason}\n",
+            hex(&body),
+            hex(&frame),
+            hex(&wire[..w])
+        );
+    }
     out
 }
 
@@ -246,6 +319,8 @@ struct Vector {
     body: Vec<u8>,
     frame: Vec<u8>,
     wire: Vec<u8>,
+    /// Why a receiver refuses the body (None: it decodes).
+    reject: Option<String>,
 }
 
 fn parse(text: &str) -> Vec<Vector> {
@@ -265,6 +340,7 @@ fn parse(text: &str) -> Vec<Vector> {
             body: unhex(&get("body").unwrap_or_default()),
             frame: unhex(&get("frame").unwrap()),
             wire: unhex(&get("wire").unwrap()),
+            reject: get("reject"),
         });
     }
     out
@@ -297,6 +373,16 @@ fn every_vector_decodes_and_re_encodes_to_the_same_bytes() {
         assert_eq!(f.header.msg_type, v.msg_type, "{}", v.name);
         assert_eq!(f.body, &v.body[..], "{}", v.name);
         assert_eq!(&v.frame[4..v.frame.len() - 4], &v.body[..], "{}", v.name);
+        if let Some(reason) = &v.reject {
+            assert_eq!(reason, "tick-overflow", "{}", v.name);
+            assert_eq!(
+                Message::decode(&f),
+                Err(DecodeError::TickOverflow),
+                "{}",
+                v.name
+            );
+            continue;
+        }
         let m = Message::decode(&f).unwrap_or_else(|e| panic!("{}: {e:?}", v.name));
         let mut out = [0u8; MAX_WIRE];
         let n = encode_message(&m, v.seq, &mut out).unwrap();

@@ -33,8 +33,9 @@ def main(path):
         assert frame[0] == 1 and frame[1] == int(kv["type"], 16), kv["name"]
         assert int.from_bytes(frame[2:4], "little") == int(kv["seq"], 16), kv["name"]
         assert frame[4:-4].hex() == kv.get("body", ""), kv["name"]
+        body = frame[4:-4]
+        last_tick = None  # the batch's or window's last tick, which must stay below 2^64
         if frame[1] in (0x02, 0x05):  # EDGES / LINES: count, then count-1 minimal LEB128 deltas
-            body = frame[4:-4]
             count = int.from_bytes(body[3:5], "little")
             rest, deltas = body[13:], []
             while rest:
@@ -51,6 +52,16 @@ def main(path):
                 deltas.append(value)
                 rest = rest[i:]
             assert len(deltas) == count - 1, kv["name"]
+            last_tick = int.from_bytes(body[5:13], "little") + sum(deltas)
+        elif frame[1] == 0x04:  # ANALOG: count samples every interval_ticks from first_tick
+            count = int.from_bytes(body[2:4], "little")
+            first, step = int.from_bytes(body[4:12], "little"), int.from_bytes(body[12:16], "little")
+            last_tick = first + max(count - 1, 0) * step
+        elif frame[1] == 0x03:  # COUNT: the window ends gate_ticks after start_tick
+            last_tick = int.from_bytes(body[2:10], "little") + int.from_bytes(body[10:14], "little")
+        wraps = last_tick is not None and last_tick >= 1 << 64
+        # a vector marked "reject tick-overflow" must wrap, and no other may
+        assert wraps == (kv.get("reject") == "tick-overflow"), (kv["name"], last_tick)
         n += 1
     # the paper's encoding examples, as reproduced in the project's reference table
     for enc, dec in [("010100", "00"), ("01010100", "0000"), ("0102110100", "001100"),

@@ -98,7 +98,7 @@ pub(super) fn read_edges(body: &[u8]) -> Result<Edges<'_>, DecodeError> {
     }
     let first_tick = r.u64()?;
     let deltas = r.buf;
-    validate::deltas(deltas, count)?;
+    validate::deltas(deltas, count, first_tick)?;
     Ok(Edges {
         channel,
         first_rising: first == 1,

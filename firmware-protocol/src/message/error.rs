@@ -15,6 +15,9 @@ pub enum DecodeError {
     BadDelta,
     /// A text field is not UTF-8.
     BadText,
+    /// A tick of the batch or window would lie past 2^64 − 1 (the first tick plus the deltas,
+    /// the sample intervals or the gate wraps): the message is refused as a whole.
+    TickOverflow,
 }
 
 /// Why a body could not be encoded.

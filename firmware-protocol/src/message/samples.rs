@@ -3,6 +3,7 @@
 
 use super::codes::methods;
 use super::error::{BodyError, DecodeError};
+use super::validate;
 use super::wire::{Reader, Writer};
 
 /// A count window.
@@ -41,6 +42,8 @@ impl CountWindow {
         if c.samples_high > c.samples {
             return Err(DecodeError::BadField("samples_high above samples"));
         }
+        // the window's end is a tick too
+        validate::ticks_fit(c.start_tick, 2, u64::from(c.gate_ticks))?;
         Ok(c)
     }
 
@@ -93,6 +96,7 @@ impl<'a> Analog<'a> {
             return Err(DecodeError::BadField("sample interval"));
         }
         let raw = r.take(count * 2)?;
+        validate::ticks_fit(first_tick, count as u64, u64::from(interval_ticks))?;
         Ok(Analog {
             channel,
             flags,

@@ -4,6 +4,16 @@
 use super::codes::{MAX_CHANNELS, MAX_DELTA_BYTES};
 use super::error::DecodeError;
 
+/// The last of `count` ticks spaced `step` apart from `first` is at most 2^64 − 1.
+pub(super) fn ticks_fit(first: u64, count: u64, step: u64) -> Result<(), DecodeError> {
+    count
+        .saturating_sub(1)
+        .checked_mul(step)
+        .and_then(|span| first.checked_add(span))
+        .map(|_| ())
+        .ok_or(DecodeError::TickOverflow)
+}
+
 /// A tick rate is a positive numerator over a positive denominator.
 pub(super) fn tick_rate(num_hz: u64, den: u32) -> Result<(), &'static str> {
     if num_hz == 0 || den == 0 {
@@ -28,8 +38,9 @@ pub(super) fn scale_den(den: u32) -> Result<(), &'static str> {
     Ok(())
 }
 
-/// Checks `count − 1` deltas: each minimal LEB128, at most 9 bytes, non-zero, nothing after.
-pub(super) fn deltas(bytes: &[u8], count: u16) -> Result<(), DecodeError> {
+/// Checks `count − 1` deltas: each minimal LEB128, at most 9 bytes, non-zero, nothing after,
+/// and the last tick (`first_tick` plus every delta) at most 2^64 − 1.
+pub(super) fn deltas(bytes: &[u8], count: u16, first_tick: u64) -> Result<(), DecodeError> {
     // the usual case first: count − 1 single-byte deltas, each 1…127 (a branch-free pass)
     if bytes.len() + 1 == usize::from(count)
         && bytes
@@ -37,14 +48,19 @@ pub(super) fn deltas(bytes: &[u8], count: u16) -> Result<(), DecodeError> {
             .fold(0u8, |bad, &b| bad | u8::from(b.wrapping_sub(1) >= 0x7F))
             == 0
     {
-        return Ok(());
+        // the span is below 127 × count: only a first tick that close to the top needs the sum
+        if first_tick <= u64::MAX - 127 * u64::from(count) {
+            return Ok(());
+        }
+        return deltas_each(bytes, count, first_tick);
     }
-    deltas_each(bytes, count)
+    deltas_each(bytes, count, first_tick)
 }
 
-/// [`deltas`] one delta at a time (any lengths).
-fn deltas_each(bytes: &[u8], count: u16) -> Result<(), DecodeError> {
+/// [`deltas`] one delta at a time (any lengths), the ticks added with a check.
+fn deltas_each(bytes: &[u8], count: u16, first_tick: u64) -> Result<(), DecodeError> {
     let mut rest = bytes;
+    let mut tick = first_tick;
     for _ in 1..count {
         let before = rest.len();
         let (d, r) = unsigned_varint::decode::u64(rest).map_err(|e| match e {
@@ -54,6 +70,7 @@ fn deltas_each(bytes: &[u8], count: u16) -> Result<(), DecodeError> {
         if d == 0 || before - r.len() > MAX_DELTA_BYTES {
             return Err(DecodeError::BadDelta);
         }
+        tick = tick.checked_add(d).ok_or(DecodeError::TickOverflow)?;
         rest = r;
     }
     if rest.is_empty() {
@@ -83,13 +100,45 @@ mod tests {
                 *b = pick[((x >> (i * 3 % 29)) & 7) as usize];
             }
             for count in [len as u16, len as u16 + 1, len as u16 + 2] {
-                assert_eq!(
-                    deltas(&bytes[..len], count).is_ok(),
-                    deltas_each(&bytes[..len], count).is_ok(),
-                    "{:?} count {count}",
-                    &bytes[..len]
-                );
+                for first in [0, u64::MAX - 2000, u64::MAX - 130, u64::MAX - 1] {
+                    assert_eq!(
+                        deltas(&bytes[..len], count, first),
+                        deltas_each(&bytes[..len], count, first),
+                        "{:?} count {count} first {first}",
+                        &bytes[..len]
+                    );
+                }
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tick_tests {
+    use super::*;
+
+    /// Deltas that reach exactly 2^64 − 1 pass; one tick more is refused, in the one-byte
+    /// path and in the multi-byte path.
+    #[test]
+    fn the_last_tick_may_be_the_top_of_the_range_and_no_further() {
+        let top = u64::MAX;
+        assert_eq!(deltas(&[5, 5], 3, top - 10), Ok(()));
+        assert_eq!(deltas(&[5, 6], 3, top - 10), Err(DecodeError::TickOverflow));
+        assert_eq!(deltas(&[0x80, 0x01], 2, top - 128), Ok(()));
+        assert_eq!(
+            deltas(&[0x80, 0x01], 2, top - 127),
+            Err(DecodeError::TickOverflow)
+        );
+        // nine-byte deltas (the largest, < 2^63) add up past the top
+        let big = [0xFF, 0xFF, 0xFF, 0xFF, 0xFF, 0xFF, 0xFF, 0xFF, 0x7F];
+        let mut two = [0u8; 18];
+        two[..9].copy_from_slice(&big);
+        two[9..].copy_from_slice(&big);
+        assert_eq!(deltas(&two, 3, 0), Ok(()));
+        assert_eq!(deltas(&two, 3, 2), Err(DecodeError::TickOverflow));
+        assert_eq!(ticks_fit(top - 10, 3, 5), Ok(()));
+        assert_eq!(ticks_fit(top - 10, 3, 6), Err(DecodeError::TickOverflow));
+        assert_eq!(ticks_fit(top, 0, u64::MAX), Ok(()));
+        assert_eq!(ticks_fit(0, u64::MAX, 2), Err(DecodeError::TickOverflow));
     }
 }
