@@ -1,10 +1,12 @@
 //! The recording file (`.smrec`, specified in docs/RECORDING.md): a checksummed header, then
 //! append-only checksummed chunks of raw probe bytes (as received, with host time), marks and
-//! link events. A reader recovers every complete chunk of a file cut off at any byte.
+//! link events. A reader recovers every intact chunk of a file cut off or damaged anywhere.
 
 use std::io::{self, Read, Write};
 
 use serde::{Deserialize, Serialize};
+
+use super::span_crc::SpanCrc;
 
 /// First bytes of every recording.
 pub const MAGIC: [u8; 8] = *b"SMREC\r\n\x1a";
@@ -259,16 +261,31 @@ pub fn parse_header(path: &str, bytes: &[u8]) -> Result<Parsed, RecordingError> 
     })
 }
 
+/// Damaged places listed one by one; further ones are counted (see [`ChunkReader::take_damage`]).
+pub const MAX_DAMAGE_LISTED: usize = 100;
+
 /// Chunk reader over any `Read` (a file, a byte slice): yields the good chunks in order,
-/// records damage, and resynchronises at the next sync marker after a bad or cut-off chunk.
+/// records damage, and resynchronises at the next sync marker whose chunk checks out after a
+/// bad chunk, a chunk whose length runs past the end of the file, or damaged bytes. Contiguous
+/// damage is one entry; time is linear in the file's length and memory bounded by the caps,
+/// whatever the file holds (fake sync markers included).
 pub struct ChunkReader<R: Read> {
     inner: R,
     buf: Vec<u8>,
     pos: usize,
     offset: u64,
     eof: bool,
-    /// Damage found so far.
+    spans: SpanCrc,
+    /// The damaged stretch being crossed: its file offset and what was wrong first.
+    bad: Option<(u64, String)>,
+    /// Whether a chunk in that stretch claimed to run past the end of the file.
+    bad_runs_past_end: bool,
+    /// Damage found so far (at most [`MAX_DAMAGE_LISTED`] entries).
     pub damage: Vec<Damage>,
+    /// Damaged places found after the list was full, and their bytes.
+    pub unlisted: (u64, u64),
+    /// File offset of the first unlisted place.
+    unlisted_at: u64,
 }
 
 impl<R: Read> ChunkReader<R> {
@@ -280,18 +297,70 @@ impl<R: Read> ChunkReader<R> {
             pos: 0,
             offset,
             eof: false,
+            spans: SpanCrc::default(),
+            bad: None,
+            bad_runs_past_end: false,
             damage: Vec::new(),
+            unlisted: (0, 0),
+            unlisted_at: 0,
         }
     }
 
-    /// The file ends inside the chunk at `at`: note it and skip the rest.
-    fn cut_off(&mut self, at: u64, avail: usize) {
-        self.damage.push(Damage {
-            offset: at,
-            what: "file ends inside a chunk (cut off)".into(),
-            skipped: avail as u64,
-        });
-        self.pos = self.buf.len();
+    /// The damage found, listed places first, then (when there were more than
+    /// [`MAX_DAMAGE_LISTED`]) one entry counting the rest; the reader's list is emptied.
+    pub fn take_damage(&mut self) -> Vec<Damage> {
+        let mut d = std::mem::take(&mut self.damage);
+        let (n, bytes) = std::mem::take(&mut self.unlisted);
+        if n > 0 {
+            d.push(Damage {
+                offset: self.unlisted_at,
+                what: format!("{n} more damaged places, not listed"),
+                skipped: bytes,
+            });
+        }
+        d
+    }
+
+    /// Bytes of memory the reader's buffer holds (bounded by the caps, whatever the file says).
+    pub fn buffer_capacity(&self) -> usize {
+        self.buf.capacity()
+    }
+
+    fn record(&mut self, d: Damage) {
+        if self.damage.len() < MAX_DAMAGE_LISTED {
+            self.damage.push(d);
+        } else {
+            if self.unlisted.0 == 0 {
+                self.unlisted_at = d.offset;
+            }
+            self.unlisted.0 += 1;
+            self.unlisted.1 += d.skipped;
+        }
+    }
+
+    /// Something is wrong at `at`: open a damaged stretch there (unless one is open), move on.
+    fn bad_at(&mut self, at: u64, what: impl FnOnce() -> String, skip: usize) {
+        if self.bad.is_none() {
+            self.bad = Some((at, what()));
+        }
+        self.pos += skip;
+    }
+
+    /// The damaged stretch ends at `end` (a good chunk or the end of the file): note it.
+    fn close_bad(&mut self, end: u64, at_eof: bool) {
+        if let Some((from, what)) = self.bad.take() {
+            let what = if at_eof && self.bad_runs_past_end {
+                "file ends inside a chunk (cut off)".to_string()
+            } else {
+                what
+            };
+            self.record(Damage {
+                offset: from,
+                what,
+                skipped: end - from,
+            });
+        }
+        self.bad_runs_past_end = false;
     }
 
     fn fill(&mut self, need: usize) -> io::Result<()> {
@@ -300,10 +369,24 @@ impl<R: Read> ChunkReader<R> {
                 self.buf.drain(..self.pos);
                 self.offset += self.pos as u64;
                 self.pos = 0;
+                self.spans.clear();
             }
             let old = self.buf.len();
-            self.buf.resize(old + (1 << 20).max(need), 0);
-            let n = self.inner.read(&mut self.buf[old..])?;
+            let missing = need - (old - self.pos);
+            self.buf.resize(old + missing.max(1 << 20), 0);
+            let n = loop {
+                match self.inner.read(&mut self.buf[old..]) {
+                    Err(e) if e.kind() == io::ErrorKind::Interrupted => continue,
+                    r => break r,
+                }
+            };
+            let n = match n {
+                Ok(n) => n,
+                Err(e) => {
+                    self.buf.truncate(old);
+                    return Err(e);
+                }
+            };
             self.buf.truncate(old + n);
             if n == 0 {
                 self.eof = true;
@@ -317,66 +400,70 @@ impl<R: Read> ChunkReader<R> {
         loop {
             self.fill(CHUNK_HEAD + 4)?;
             let avail = self.buf.len() - self.pos;
+            let at = self.offset + self.pos as u64;
             if avail == 0 {
+                self.close_bad(at, true);
                 return Ok(None);
             }
-            let at = self.offset + self.pos as u64;
             let rest = &self.buf[self.pos..];
-            if avail < CHUNK_HEAD + 4 || rest[..4] != SYNC {
-                if avail < CHUNK_HEAD + 4 && self.eof {
-                    self.cut_off(at, avail);
-                    return Ok(None);
+            if avail < CHUNK_HEAD + 4 && self.eof {
+                // too short for a chunk: the end of one cut off, or damaged bytes
+                if rest.starts_with(&SYNC[..avail.min(4)]) {
+                    self.bad_runs_past_end = true;
                 }
-                // resynchronise
+                self.bad_at(at, || "file ends inside a chunk (cut off)".into(), avail);
+                continue;
+            }
+            if rest[..4] != SYNC {
                 let skip = rest[1..]
                     .windows(4)
                     .position(|w| w == SYNC)
                     .map_or(avail.saturating_sub(3).max(1), |i| i + 1);
-                self.damage.push(Damage {
-                    offset: at,
-                    what: "no chunk here (damaged bytes)".into(),
-                    skipped: skip as u64,
-                });
-                self.pos += skip;
+                self.bad_at(at, || "no chunk here (damaged bytes)".into(), skip);
                 continue;
             }
             let len = u32::from_le_bytes([rest[6], rest[7], rest[8], rest[9]]);
+            let kind = match rest[4] {
+                1 => ChunkKind::Data,
+                2 => ChunkKind::Mark,
+                3 => ChunkKind::Link,
+                k => {
+                    self.bad_at(at, || format!("unknown chunk kind {k}"), 1);
+                    continue;
+                }
+            };
             if len > MAX_PAYLOAD {
-                self.damage.push(Damage {
-                    offset: at,
-                    what: format!("chunk length {len} exceeds the cap"),
-                    skipped: 1,
-                });
-                self.pos += 1;
+                self.bad_at(at, || format!("chunk length {len} exceeds the cap"), 1);
                 continue;
             }
             let total = CHUNK_HEAD + len as usize + 4;
             self.fill(total)?;
             let avail = self.buf.len() - self.pos;
             if avail < total {
-                self.cut_off(at, avail);
-                return Ok(None);
-            }
-            let rest = &self.buf[self.pos..self.pos + total];
-            let want = u32::from_le_bytes(rest[total - 4..].try_into().expect("4 bytes"));
-            let kind = match rest[4] {
-                1 => Some(ChunkKind::Data),
-                2 => Some(ChunkKind::Mark),
-                3 => Some(ChunkKind::Link),
-                _ => None,
-            };
-            if crc(&rest[4..total - 4]) != want || kind.is_none() {
-                self.damage.push(Damage {
-                    offset: at,
-                    what: "chunk checksum mismatch".into(),
-                    skipped: 1,
-                });
-                self.pos += 1;
+                // the length runs past the end: a cut, unless a good chunk follows
+                self.bad_runs_past_end = true;
+                self.bad_at(
+                    at,
+                    || format!("chunk length {len} runs past the end of the file"),
+                    1,
+                );
                 continue;
             }
+            let p = self.pos;
+            let want = u32::from_le_bytes(
+                self.buf[p + total - 4..p + total]
+                    .try_into()
+                    .expect("4 bytes"),
+            );
+            if self.spans.crc(&self.buf, p + 4, p + total - 4) != want {
+                self.bad_at(at, || "chunk checksum mismatch".into(), 1);
+                continue;
+            }
+            self.close_bad(at, false);
+            let rest = &self.buf[p..p + total];
             let host_ns = u64::from_le_bytes(rest[10..18].try_into().expect("8 bytes"));
             let chunk = Chunk {
-                kind: kind.expect("checked"),
+                kind,
                 host_ns,
                 payload: rest[CHUNK_HEAD..total - 4].to_vec(),
                 offset: at,

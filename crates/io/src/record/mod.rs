@@ -3,6 +3,7 @@
 pub mod format;
 pub mod note;
 pub mod replay;
+mod span_crc;
 pub mod writer;
 
 pub use format::{EmbeddedDesign, Header, RecordingError};

@@ -188,7 +188,7 @@ impl Recording {
             }
             progress(c.offset + c.payload.len() as u64);
         }
-        s.damage = std::mem::take(&mut self.reader.damage);
+        s.damage = self.reader.take_damage();
         Ok(s)
     }
 }
