@@ -24,7 +24,10 @@ impl Rng {
 
 /// A file of 80 chunks (data of the virtual probe in pieces of many sizes, marks, link
 /// events): its bytes, its chunks (kind, payload) and their spans in the file.
-fn sample() -> (Vec<u8>, Vec<(ChunkKind, Vec<u8>)>, Vec<(usize, usize)>) {
+/// A file's bytes, its chunks (kind, payload) and their spans.
+type Sample = (Vec<u8>, Vec<(ChunkKind, Vec<u8>)>, Vec<(usize, usize)>);
+
+fn sample() -> Sample {
     let mut p = SimProbe::new(BenchModel::scenario("sagging").unwrap(), vec![]);
     p.start();
     let mut file = encode_header(&Header {
@@ -120,7 +123,7 @@ fn fake_header(len: u32) -> Vec<u8> {
 fn damage_at_random_places_recovers_every_intact_chunk() {
     let (file, chunks, spans) = sample();
     let head = spans[0].0;
-    let mut rng = Rng(0x5eed_0f_da_3a9e);
+    let mut rng = Rng(0x5eed_0fda_3a9e);
     let (mut places, mut intact_total, mut damaged_total) = (0usize, 0usize, 0usize);
     for trial in 0..300 {
         let k = 1 + rng.below(8) as usize;
