@@ -63,12 +63,21 @@ fn every_situation_has_one_code_for_every_command() {
     let sweep = s(&root().join("recordings/larkspur-sweep.smrec"));
     let no_dir = s(&dir.join("no-such-dir").join("out"));
     let out = |n: &str| s(&dir.join(n));
+    std::fs::write(dir.join("precious"), b"keep me").unwrap();
     #[rustfmt::skip]
     let table: Vec<(&str, Vec<String>, i32)> = vec![
         // a port with no device: a mistyped argument
         ("missing port", vec!["listen".into(), missing_port.clone(), "--duration".into(), "5s".into()], 2),
         ("missing port", vec!["record".into(), missing_port.clone(), "-o".into(), out("p.smrec")], 2),
         ("missing port", vec!["watch".into(), missing_port.clone()], 2),
+        // a path that is not a serial device: refused at once, never retried
+        ("not serial", vec!["listen".into(), "/dev/null".into(), "--duration".into(), "30s".into()], 2),
+        ("not serial", vec!["record".into(), "/dev/null".into(), "-o".into(), out("n.smrec")], 2),
+        ("not serial", vec!["record".into(), s(&dir), "-o".into(), out("n.smrec")], 2),
+        ("not serial", vec!["record".into(), not_a_recording.clone(), "-o".into(), out("n.smrec")], 2),
+        ("not serial", vec!["listen".into(), not_a_recording.clone(), "--duration".into(), "30s".into()], 2),
+        // --link over something a virtual probe did not make
+        ("link exists", vec!["sim".into(), "--pty".into(), "--link".into(), out("precious")], 2),
         // an input file that is not there
         ("missing file", vec!["report".into(), missing_file.clone()], 2),
         ("missing file", vec!["export".into(), missing_file.clone(), "--csv".into(), out("x.csv")], 2),
@@ -127,6 +136,18 @@ fn every_situation_has_one_code_for_every_command() {
         !dir.join("p.smrec").exists(),
         "record on a missing port leaves no file"
     );
+    assert!(
+        !dir.join("n.smrec").exists(),
+        "record on something that is not a port leaves no file"
+    );
+    assert_eq!(std::fs::read(dir.join("precious")).unwrap(), b"keep me");
+    let (_, err) = code(&[
+        "record".into(),
+        "/dev/null".into(),
+        "-o".into(),
+        out("n.smrec"),
+    ]);
+    assert!(err.contains("not a serial device"), "{err}");
     let _ = std::fs::remove_dir_all(&dir);
     assert!(wrong.is_empty(), "\n{}", wrong.join("\n"));
 }

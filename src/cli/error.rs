@@ -89,7 +89,7 @@ impl From<LinkError> for CliError {
     fn from(e: LinkError) -> CliError {
         match e {
             // a path with no device is a mistyped argument
-            LinkError::NotFound { .. } => CliError::input(e),
+            LinkError::NotFound { .. } | LinkError::NotSerial { .. } => CliError::input(e),
             _ => CliError::runtime(e),
         }
     }

@@ -59,6 +59,12 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
         return to_file(&a, &mut probe);
     }
     let mut server = PtyServer::open(a.link.as_deref()).map_err(|e| {
+        if e.kind() == std::io::ErrorKind::AlreadyExists {
+            return CliError::input(miette!(
+                help = "choose another --link path, or move that file away first",
+                "--link: {e}"
+            ));
+        }
         CliError::runtime(miette!(
             help = "pseudo-terminals need /dev/ptmx (Linux, macOS)",
             "cannot create a pseudo-terminal: {e}"

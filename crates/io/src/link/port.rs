@@ -49,16 +49,48 @@ fn ports_hint() -> String {
 pub(super) type Port = Box<dyn serialport::SerialPort>;
 
 /// Refuse a port path where there is no device (a mistyped path, not a probe being plugged in):
-/// the error lists the ports there are.
+/// the error lists the ports there are. A path that is no character device (a regular file, a
+/// folder, a pipe) is refused as not a serial device; nothing is opened here.
 pub fn check_present(path: &Path) -> Result<(), LinkError> {
-    if path.exists() {
-        Ok(())
-    } else {
-        Err(LinkError::NotFound {
+    use std::os::unix::fs::FileTypeExt;
+    let Ok(meta) = std::fs::metadata(path) else {
+        return Err(LinkError::NotFound {
             path: path.display().to_string(),
             hint: ports_hint(),
-        })
-    }
+        });
+    };
+    let t = meta.file_type();
+    let what = if t.is_char_device() {
+        return Ok(());
+    } else if t.is_dir() {
+        "a folder"
+    } else if t.is_file() {
+        "a regular file"
+    } else if t.is_fifo() {
+        "a named pipe"
+    } else if t.is_socket() {
+        "a socket"
+    } else {
+        "a block device"
+    };
+    Err(LinkError::NotSerial {
+        path: path.display().to_string(),
+        what: what.into(),
+    })
+}
+
+/// Whether the character device at `path` is a terminal (serial ports and pseudo-terminals
+/// are; /dev/null is not). Opened without becoming the controlling terminal and without
+/// waiting; asked only after the serial port failed to open, so a probe's board is not reset
+/// by a second open.
+fn is_terminal(path: &Path) -> bool {
+    use std::io::IsTerminal;
+    use std::os::unix::fs::OpenOptionsExt;
+    std::fs::OpenOptions::new()
+        .read(true)
+        .custom_flags(libc::O_NOCTTY | libc::O_NONBLOCK)
+        .open(path)
+        .is_ok_and(|f| f.is_terminal())
 }
 
 pub(super) fn open_port(cfg: &LinkConfig) -> Result<Port, LinkError> {
@@ -66,8 +98,21 @@ pub(super) fn open_port(cfg: &LinkConfig) -> Result<Port, LinkError> {
     let path = cfg.path.display().to_string();
     let port = serialport::new(path.clone(), cfg.baud)
         .timeout(Duration::from_millis(20))
-        .open()
+        .open_native()
         .map_err(|e| match e.kind {
+            kind if !matches!(
+                kind,
+                serialport::ErrorKind::NoDevice
+                    | serialport::ErrorKind::Io(io::ErrorKind::PermissionDenied)
+                    | serialport::ErrorKind::Io(io::ErrorKind::NotFound)
+            ) && cfg.path.exists()
+                && !is_terminal(&cfg.path) =>
+            {
+                LinkError::NotSerial {
+                    path: path.clone(),
+                    what: "a character device that is not a terminal".into(),
+                }
+            }
             serialport::ErrorKind::NoDevice => LinkError::NotFound {
                 path: path.clone(),
                 hint: ports_hint(),
@@ -84,7 +129,18 @@ pub(super) fn open_port(cfg: &LinkConfig) -> Result<Port, LinkError> {
                 reason: e.description,
             },
         })?;
-    let mut port = port;
+    // a character device that opens but is no terminal (/dev/null, /dev/zero) is no port
+    {
+        use std::os::fd::AsRawFd;
+        // SAFETY: isatty only inspects the descriptor, which `port` keeps open
+        if unsafe { libc::isatty(port.as_raw_fd()) } != 1 {
+            return Err(LinkError::NotSerial {
+                path,
+                what: "a character device that is not a terminal".into(),
+            });
+        }
+    }
+    let mut port: Port = Box::new(port);
     // pseudo-terminals refuse modem-control calls ("not a typewriter"): that is fine
     let _ = port.write_data_terminal_ready(true);
     Ok(port)

@@ -23,7 +23,8 @@ pub(super) fn run(cfg: LinkConfig, tx: mpsc::Sender<LinkEvent>, stop: Arc<Atomic
         let failure = match open_port(&cfg) {
             // a device that was never there is a mistyped path, not a probe being plugged in
             Err(e) => {
-                let retryable = !matches!(e, LinkError::NotFound { .. });
+                let retryable =
+                    !matches!(e, LinkError::NotFound { .. } | LinkError::NotSerial { .. });
                 (e, retryable)
             }
             Ok(port) => {
@@ -72,7 +73,9 @@ pub(super) fn run(cfg: LinkConfig, tx: mpsc::Sender<LinkEvent>, stop: Arc<Atomic
             && (retryable || was_connected)
             && !matches!(
                 err,
-                LinkError::Permission { .. } | LinkError::Version { .. }
+                LinkError::Permission { .. }
+                    | LinkError::Version { .. }
+                    | LinkError::NotSerial { .. }
             );
         if !keep_trying {
             let _ = tx.blocking_send(LinkEvent::Failed(err));

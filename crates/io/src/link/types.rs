@@ -55,6 +55,20 @@ pub enum LinkError {
         /// The ports there are.
         hint: String,
     },
+    /// The path names something that is not a serial device (a file, a folder, /dev/null).
+    #[error("{path} is not a serial device: it is {what}")]
+    #[diagnostic(
+        code(slackmeter::link::not_serial),
+        help(
+            "give the probe's port, e.g. /dev/ttyUSB0 or /dev/ttyACM0 (`slackmeter ports` lists them), or the link a virtual probe made (`slackmeter sim --pty --link PATH`); to read a recording use `slackmeter report FILE`"
+        )
+    )]
+    NotSerial {
+        /// Path given.
+        path: String,
+        /// What it is instead.
+        what: String,
+    },
     /// The OS refused access.
     #[error("permission denied opening {path}")]
     #[diagnostic(

@@ -58,9 +58,44 @@ fn cvt(r: libc::c_int) -> io::Result<libc::c_int> {
     }
 }
 
+/// Whether `path` is a symlink to a pseudo-terminal's device node (what a virtual probe's
+/// `--link` makes; a stale one from a server that ended may be replaced).
+fn is_pty_link(path: &Path) -> bool {
+    std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink())
+        && std::fs::read_link(path).is_ok_and(|t| t.starts_with("/dev/pts/"))
+}
+
+/// A link path may be (re)pointed when nothing is there or a pseudo-terminal link is: anything
+/// else (a file, a folder, another symlink) is refused with an `AlreadyExists` error.
+pub fn check_link_path(link: &Path) -> io::Result<()> {
+    match std::fs::symlink_metadata(link) {
+        Err(e) if e.kind() == io::ErrorKind::NotFound => Ok(()),
+        Err(e) => Err(e),
+        Ok(_) if is_pty_link(link) => Ok(()),
+        Ok(m) => Err(io::Error::new(
+            io::ErrorKind::AlreadyExists,
+            format!(
+                "{} exists and is {}, not a pseudo-terminal link a virtual probe made: it is left as it is",
+                link.display(),
+                if m.is_dir() {
+                    "a folder"
+                } else if m.file_type().is_symlink() {
+                    "a symlink to something else"
+                } else {
+                    "a file"
+                }
+            ),
+        )),
+    }
+}
+
 impl PtyServer {
-    /// Open a pty pair; `link` is a path to (re)point at the device node.
+    /// Open a pty pair; `link` is a path to (re)point at the device node (refused when
+    /// something other than a pseudo-terminal link is there: see [`check_link_path`]).
     pub fn open(link: Option<&Path>) -> io::Result<PtyServer> {
+        if let Some(l) = link {
+            check_link_path(l)?;
+        }
         // SAFETY: plain libc calls on a descriptor we own; errors are checked.
         unsafe {
             let fd = cvt(libc::posix_openpt(libc::O_RDWR | libc::O_NOCTTY))?;
@@ -89,9 +124,17 @@ impl PtyServer {
                 link: link.map(Path::to_path_buf),
             };
             if let Some(l) = &server.link {
-                let tmp = l.with_extension("tmp-link");
-                let _ = std::fs::remove_file(&tmp);
+                // a new symlink beside it, named for this process (creating it fails rather
+                // than replace anything), then renamed over the path checked above
+                let name = l.file_name().unwrap_or_default().to_string_lossy();
+                let tmp = l.with_file_name(format!(".{name}.{}.tmp-link", std::process::id()));
+                if is_pty_link(&tmp) {
+                    let _ = std::fs::remove_file(&tmp);
+                }
                 std::os::unix::fs::symlink(&server.device_path, &tmp)?;
+                check_link_path(l).inspect_err(|_| {
+                    let _ = std::fs::remove_file(&tmp);
+                })?;
                 std::fs::rename(&tmp, l)?;
             }
             Ok(server)
