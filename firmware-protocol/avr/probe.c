@@ -46,14 +46,21 @@
 /* Buffers shared with interrupts are plain memory: reload them after every hand-over. */
 #define BARRIER() __asm__ __volatile__("" ::: "memory")
 
+/* a stamp batch of a slow or stopped clock is sent when its first edge is this old (100 ms),
+ * whatever the count-window gate */
+#define EB_AGE_TICKS 1600000UL
+
 #define FLAG_LOST 1
 #define FLAG_BURST 2
 
 /* ---------------------------------------------------------------- timebase */
 
-static volatile uint32_t t1_high; /* Timer1 overflows */
+static volatile uint32_t t1_high; /* Timer1 overflows, low 32 bits */
+static volatile uint16_t t1_top;  /* and the 16 bits above them: ticks carry to 64 bits */
 
-ISR(TIMER1_OVF_vect) { t1_high++; }
+ISR(TIMER1_OVF_vect) {
+    if (++t1_high == 0) t1_top++;
+}
 
 
 /* 64-bit tick from a 16-bit Timer1 value read with interrupts off. */
@@ -68,8 +75,8 @@ static uint64_t extend(uint16_t low) {
     } u; /* assembled in place: a 64-bit shift costs a hundred cycles on this core */
     u.w.low = low;
     u.w.high = t1_high;
-    u.w.top = 0;
-    if ((TIFR1 & _BV(TOV1)) && low < 0x8000 && ++u.w.high == 0) u.w.top = 1;
+    u.w.top = t1_top;
+    if ((TIFR1 & _BV(TOV1)) && low < 0x8000 && ++u.w.high == 0) u.w.top++;
     return u.t;
 }
 
@@ -159,7 +166,8 @@ static uint64_t make64(uint32_t hi, uint32_t lo) {
  * which loses Timer1 overflows while TCCR1B is rewritten (FIRMWARE.md). */
 static uint16_t cap_advance(uint16_t icr) {
     uint32_t h = t1_high;
-    if ((TIFR1 & _BV(TOV1)) && icr < 0x8000) h++;
+    uint16_t top = t1_top;
+    if ((TIFR1 & _BV(TOV1)) && icr < 0x8000 && ++h == 0) top++;
     uint16_t d = (uint16_t)(icr - cap_icr);
     bool near = d != 0 && (h == cap_high || (h == cap_high + 1 && icr < cap_icr));
     if (near) {
@@ -168,7 +176,7 @@ static uint16_t cap_advance(uint16_t icr) {
         cap_lo = lo;
     } else {
         cap_lo = (h << 16) | icr;
-        cap_hi = h >> 16;
+        cap_hi = ((uint32_t)top << 16) | (h >> 16);
         d = 0;
     }
     cap_icr = icr;
@@ -322,9 +330,14 @@ static void adc_store(uint8_t ch, uint16_t v, uint64_t t) {
     }
 }
 
-/* Interruptible, like the sampler above. */
-ISR(TIMER1_COMPB_vect, ISR_NOBLOCK) {
+/* Interruptible, like the sampler above, but only after its 16-bit write: OCR1B is written
+ * through the high-byte TEMP register that every 16-bit Timer1 access shares (data sheet,
+ * "Accessing 16-bit Registers"); a capture or line interrupt reading ICR1 or TCNT1 between
+ * the two byte writes would put its own high byte into OCR1B and move the slot by up to
+ * 65 536 ticks (4 ms). So the handler starts blocking and enables interrupts after it. */
+ISR(TIMER1_COMPB_vect) {
     OCR1B += adc_step;
+    sei();
     uint64_t slot = adc_due;
     adc_due += adc_step;
     if (adc_ch >= 0) {
@@ -351,8 +364,18 @@ ISR(TIMER1_COMPB_vect, ISR_NOBLOCK) {
     ADCSRA |= _BV(ADSC);
 }
 
+/* The rail interval, checked when set against the rails on then, kept valid when rails are
+ * switched on or off later: each slot fits a conversion (MIN_SLOT) and 16 bits. */
+static void rail_interval_fit(void) {
+    uint8_t n = rails_on();
+    if (!n) return;
+    if (rail_interval < (uint32_t)n * MIN_SLOT) rail_interval = (uint32_t)n * MIN_SLOT;
+    if (rail_interval > (uint32_t)n * 65535UL) rail_interval = (uint32_t)n * 65535UL;
+}
+
 static void rails_restart(void) {
     /* interrupts off */
+    rail_interval_fit();
     uint8_t n = rails_on();
     TIMSK1 &= ~_BV(OCIE1B);
     adc_ch = -1;
@@ -878,7 +901,7 @@ int main(void) {
         cli();
         /* a batch of a slow or stopped clock does not wait for ever */
         ebuf_t *b = &eb[eb_fill];
-        if (b->n > 0 && !eb_ready[eb_fill] && extend(TCNT1) - b->first > gate_ticks) eb_close();
+        if (b->n > 0 && !eb_ready[eb_fill] && extend(TCNT1) - b->first > EB_AGE_TICKS) eb_close();
         sei();
         for (uint8_t i = 0; i < RAILS; i++)
             for (uint8_t k = 0; k < 2; k++)
