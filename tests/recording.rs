@@ -183,6 +183,12 @@ fn a_killed_recorder_leaves_a_readable_file() {
             .stderr(Stdio::null())
             .spawn()
             .unwrap();
+        // the clock starts when the recorder has opened its file (process start-up and the
+        // handshake take their own time on a loaded machine)
+        let until = Instant::now() + Duration::from_secs(20);
+        while !out.exists() && Instant::now() < until {
+            std::thread::sleep(Duration::from_millis(10));
+        }
         std::thread::sleep(Duration::from_millis(ms));
         rec.kill().unwrap(); // SIGKILL: no chance to flush
         rec.wait().unwrap();

@@ -251,6 +251,12 @@ impl StreamDecoder {
         self.recent[..self.recent_len].contains(&(seq, crc))
     }
 
+    /// (seq, crc) of the last accepted frame.
+    fn last(&self) -> Option<(u16, u32)> {
+        (self.recent_len > 0)
+            .then(|| self.recent[(self.recent_at + RECENT_FRAMES - 1) % RECENT_FRAMES])
+    }
+
     fn remember(&mut self, seq: u16, crc: u32) {
         self.recent[self.recent_at] = (seq, crc);
         self.recent_at = (self.recent_at + 1) % RECENT_FRAMES;
@@ -259,7 +265,14 @@ impl StreamDecoder {
 
     /// Sequence bookkeeping of an intact frame: whether to deliver it.
     fn admit(&mut self, msg_type: u8, seq: u16, crc: u32) -> bool {
-        if self.seen(seq, crc) {
+        // a HELLO restarts the sender's numbering, so an identical one may come again in
+        // answer to the next DESCRIBE: only a copy right behind its original is a duplicate
+        let copy = if msg_type == HELLO_TYPE {
+            self.last() == Some((seq, crc))
+        } else {
+            self.seen(seq, crc)
+        };
+        if copy {
             self.counters.duplicates += 1;
             return false;
         }

@@ -219,7 +219,9 @@ const EDGE_DELTAS: &[u8] = &[0xfa, 0x01, 0xfa, 0x01, 0xac, 0x02];
 
 /// Frames with a valid CRC whose bodies a receiver must refuse: (name, description, type, seq,
 /// body, reason as written after `reject`).
-fn rejected() -> Vec<(&'static str, &'static str, u8, u16, Vec<u8>, &'static str)> {
+type Rejected = (&'static str, &'static str, u8, u16, Vec<u8>, &'static str);
+
+fn rejected() -> Vec<Rejected> {
     let edges = |count: u16, first_tick: u64, deltas: &[u8]| {
         let mut b = vec![0u8, 1, 0];
         b.extend_from_slice(&count.to_le_bytes());
