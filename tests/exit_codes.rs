@@ -64,6 +64,8 @@ fn every_situation_has_one_code_for_every_command() {
     let no_dir = s(&dir.join("no-such-dir").join("out"));
     let out = |n: &str| s(&dir.join(n));
     std::fs::write(dir.join("precious"), b"keep me").unwrap();
+    let copy = out("copy.smrec");
+    std::fs::copy(&steady, &copy).unwrap();
     #[rustfmt::skip]
     let table: Vec<(&str, Vec<String>, i32)> = vec![
         // a port with no device: a mistyped argument
@@ -94,6 +96,11 @@ fn every_situation_has_one_code_for_every_command() {
         ("bad design", vec!["failures".into(), sweep.clone(), "--design".into(), bad_design.clone()], 2),
         ("bad design", vec!["sim".into(), "--fault-on-typ".into(), "--design".into(), bad_design.clone(), "--out".into(), out("s.bin")], 2),
         ("bad design", vec!["record".into(), "--sim".into(), "--design".into(), bad_design.clone(), "-o".into(), out("d.smrec")], 2),
+        // an output that is an input, or a file that is there already
+        ("output is input", vec!["export".into(), copy.clone(), "--csv".into(), copy.clone()], 2),
+        ("output is input", vec!["export".into(), copy.clone(), "--vcd".into(), copy.clone(), "--replace".into()], 2),
+        ("output exists", vec!["export".into(), copy.clone(), "--csv".into(), out("precious")], 2),
+        ("output exists", vec!["sim".into(), "--out".into(), out("precious"), "--duration".into(), "10ms".into()], 2),
         // a file that is not a recording
         ("bad recording", vec!["report".into(), not_a_recording.clone()], 2),
         ("bad recording", vec!["export".into(), not_a_recording.clone(), "--vcd".into(), out("x.vcd")], 2),
@@ -141,6 +148,11 @@ fn every_situation_has_one_code_for_every_command() {
         "record on something that is not a port leaves no file"
     );
     assert_eq!(std::fs::read(dir.join("precious")).unwrap(), b"keep me");
+    assert_eq!(
+        std::fs::read(&copy).unwrap(),
+        std::fs::read(&steady).unwrap(),
+        "the recording is not written over"
+    );
     let (_, err) = code(&[
         "record".into(),
         "/dev/null".into(),

@@ -1,12 +1,11 @@
 //! `slackmeter export`: a recording's signals for a waveform viewer (VCD) or a spreadsheet (CSV).
 
-use std::fs::File;
-use std::io::BufWriter;
 use std::path::{Path, PathBuf};
 
 use miette::miette;
 
 use super::error::{CliError, CliResult, Outcome};
+use super::output;
 use crate::export;
 use crate::record::Recording;
 
@@ -21,12 +20,9 @@ pub struct ExportArgs {
     /// Write a CSV here (time_s, channel, label, kind, value).
     #[arg(long, value_name = "OUT")]
     pub csv: Option<PathBuf>,
-}
-
-fn create(p: &Path) -> CliResult<BufWriter<File>> {
-    File::create(p)
-        .map(BufWriter::new)
-        .map_err(|e| CliError::runtime(miette!("cannot create {}: {e}", p.display())))
+    /// Write over output files that exist (never over the recording itself).
+    #[arg(long)]
+    pub replace: bool,
 }
 
 /// `slackmeter export`.
@@ -37,6 +33,16 @@ pub fn run(a: ExportArgs) -> CliResult<Outcome> {
             "nothing to export: give --vcd and/or --csv"
         )));
     }
+    if let (Some(v), Some(c)) = (&a.vcd, &a.csv)
+        && v == c
+    {
+        return Err(CliError::input(miette!(
+            "--vcd and --csv name the same file {}: give each its own",
+            v.display()
+        )));
+    }
+    let inputs = [a.file.as_path()];
+    let create = |p: &Path| output::create(p, &inputs, a.replace).map(std::io::BufWriter::new);
     let mut rec = Recording::open(&a.file)?;
     let s = export::collect(&mut rec)?;
     if s.signals.is_empty() {

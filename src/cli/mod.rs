@@ -12,6 +12,7 @@ pub mod failures;
 pub mod listen;
 pub mod live;
 pub mod model;
+pub mod output;
 pub mod parts;
 pub mod ports;
 pub mod record;

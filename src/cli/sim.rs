@@ -33,6 +33,9 @@ pub struct SimArgs {
     /// Write the frames straight to a file (as fast as possible).
     #[arg(long, value_name = "FILE")]
     pub out: Option<PathBuf>,
+    /// With --out: write over a file that exists.
+    #[arg(long, requires = "out")]
+    pub replace: bool,
     /// Write the frames to standard output.
     #[arg(long)]
     pub stdout: bool,
@@ -123,8 +126,7 @@ fn to_file(a: &SimArgs, probe: &mut SimProbe) -> CliResult<Outcome> {
     let mut sink: Box<dyn Write> = match &a.out {
         Some(p) => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,
-            std::fs::File::create(p)
-                .map_err(|e| CliError::runtime(miette!("cannot create {}: {e}", p.display())))?,
+            super::output::create(p, &[], a.replace)?,
         )),
         None => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,

@@ -146,6 +146,12 @@ impl PtyServer {
         self.link.as_deref().unwrap_or(&self.device_path)
     }
 
+    /// The controlling side (non-blocking; EIO while no host holds the device open), for a
+    /// server other than the virtual probe, e.g. a proxy that damages a link on purpose.
+    pub fn master(&mut self) -> &mut File {
+        &mut self.master
+    }
+
     /// The device node itself (/dev/pts/N).
     pub fn device_path(&self) -> &Path {
         &self.device_path
