@@ -269,6 +269,68 @@ impl BenchModel {
             pos(s.to_hz, "sweep end")?;
             pos(s.over_s, "--over")?;
         }
+        if !(self.drift_ppm.is_finite() && self.drift_ppm.abs() <= MAX_DRIFT_PPM) {
+            return Err(format!(
+                "--drift-ppm must lie within ±{MAX_DRIFT_PPM} ppm (a 10 % swing), got {}",
+                self.drift_ppm
+            ));
+        }
+        pos(self.drift_period_s, "drift period")?;
+        if !(self.stall_periods.is_finite() && (1.0..=1e6).contains(&self.stall_periods)) {
+            return Err(format!(
+                "--stall-periods must lie between 1 and 1 000 000 periods, got {}",
+                self.stall_periods
+            ));
+        }
+        if !(self.analog_rate_hz <= MAX_ANALOG_RATE_HZ) {
+            return Err(format!(
+                "the analog sample rate must be at most {MAX_ANALOG_RATE_HZ} Hz per rail, got {}",
+                self.analog_rate_hz
+            ));
+        }
+        // the fastest clock the session reaches, at its drift's peak, must keep each phase at
+        // least one tick long: a shorter phase is not representable at this tick
+        let fastest_hz = self
+            .sweep
+            .map_or(self.freq_hz, |s| s.from_hz.max(s.to_hz).max(self.freq_hz))
+            * (1.0 + self.drift_ppm.abs() * 1e-6);
+        let shortest_phase_ns = 1e9 / fastest_hz * self.duty.min(1.0 - self.duty);
+        if shortest_phase_ns < self.tick_ns {
+            let limit_hz = 1e9 * self.duty.min(1.0 - self.duty)
+                / self.tick_ns
+                / (1.0 + self.drift_ppm.abs() * 1e-6);
+            return Err(format!(
+                "a {:.4} MHz clock at duty {} has phases of {shortest_phase_ns:.2} ns, shorter than \
+                 its tick of {} ns: the virtual probe cannot represent it; stay at or below \
+                 {:.4} MHz, or give a finer --tick",
+                fastest_hz / 1e6,
+                self.duty,
+                self.tick_ns,
+                limit_hz / 1e6
+            ));
+        }
+        if let Some(r) = self.reset_interval_s {
+            pos(r, "--reset-every")?;
+        }
+        if let Some(n) = self.burst_edges {
+            if n < 2 {
+                return Err(format!(
+                    "--bursts needs at least 2 edges per burst, got {n}"
+                ));
+            }
+            pos(self.burst_every_s, "the burst interval")?;
+        }
+        if self.glitch_rate_hz > 0.0
+            && !(self.glitch_width_ns.is_finite()
+                && self.glitch_width_ns > 0.0
+                && self.glitch_width_ns < shortest_phase_ns)
+        {
+            return Err(format!(
+                "--glitch-width must be positive and shorter than the clock's shortest phase \
+                 ({shortest_phase_ns:.2} ns), got {}",
+                self.glitch_width_ns
+            ));
+        }
         if self.rails.len() > 8 {
             return Err("at most 8 rails".into());
         }
@@ -288,7 +350,71 @@ impl BenchModel {
     }
 }
 
+/// Largest frequency drift the virtual probe models (±10 %).
+pub const MAX_DRIFT_PPM: f64 = 100_000.0;
+
+/// Highest analog sample rate per rail the virtual probe models.
+pub const MAX_ANALOG_RATE_HZ: f64 = 1e6;
+
 /// Full scale of the virtual probe's ADC (12 bits at 2 mV per count).
 pub const ADC_FULL_SCALE_MV: f64 = 8190.0;
 /// µV per ADC count of the virtual probe.
 pub const ADC_UV_PER_COUNT: i32 = 2000;
+
+#[cfg(test)]
+mod validate_tests {
+    use super::*;
+
+    fn steady() -> BenchModel {
+        BenchModel::scenario("steady").unwrap()
+    }
+
+    /// Parameters that would make the virtual probe grow without bound, run backwards or emit
+    /// a clock its tick cannot show are refused, naming the flag.
+    #[test]
+    fn impossible_sessions_are_refused_with_the_flag() {
+        let cases: Vec<(Box<dyn Fn(&mut BenchModel)>, &str)> = vec![
+            (Box::new(|m| m.drift_ppm = 1e12), "--drift-ppm"),
+            (Box::new(|m| m.drift_ppm = f64::NAN), "--drift-ppm"),
+            (Box::new(|m| m.stall_periods = -5.0), "--stall-periods"),
+            (Box::new(|m| m.stall_periods = 1e9), "--stall-periods"),
+            (Box::new(|m| m.analog_rate_hz = 1e9), "analog sample rate"),
+            // 100 MHz at 50 % duty: 5 ns phases against an 8 ns tick
+            (Box::new(|m| m.freq_hz = 100e6), "cannot represent"),
+            (
+                Box::new(|m| {
+                    m.sweep = Some(Sweep {
+                        from_hz: 1e6,
+                        to_hz: 900e6,
+                        over_s: 1.0,
+                    })
+                }),
+                "cannot represent",
+            ),
+            (
+                Box::new(|m| {
+                    m.glitch_rate_hz = 5.0;
+                    m.glitch_width_ns = 1e6;
+                }),
+                "--glitch-width",
+            ),
+            (
+                Box::new(|m| m.reset_interval_s = Some(0.0)),
+                "--reset-every",
+            ),
+        ];
+        for (set, flag) in cases {
+            let mut m = steady();
+            set(&mut m);
+            let e = m.validate().expect_err(flag);
+            assert!(e.contains(flag), "{e}");
+        }
+        assert!(steady().validate().is_ok());
+        // the limit itself: phases of exactly one tick are representable
+        let mut m = steady();
+        m.duty = 0.5;
+        m.drift_ppm = 0.0;
+        m.freq_hz = 1e9 / (2.0 * m.tick_ns);
+        assert!(m.validate().is_ok(), "{:?}", m.validate());
+    }
+}
