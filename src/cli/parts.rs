@@ -4,7 +4,7 @@ use miette::miette;
 
 use super::args::LibraryArgs;
 use super::error::{CliError, CliResult, Outcome};
-use crate::budget::library::{ArcKind, Status};
+use crate::budget::library::ArcKind;
 
 /// Options of `parts`.
 #[derive(clap::Args, Debug)]
@@ -73,10 +73,7 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
                 k => format!("{}({})", a.name, format!("{k:?}").to_lowercase()),
             })
             .collect();
-        let status = match p.status {
-            Status::Seen => "seen",
-            Status::FromMemory => "from memory",
-        };
+        let status = p.status.words();
         println!(
             "{:<15} {:<7} {:<12} {} — {} — {}",
             p.type_name,
