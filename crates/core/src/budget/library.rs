@@ -13,6 +13,7 @@ pub(super) mod fit;
 mod load;
 pub(super) mod model;
 mod raw;
+pub mod sheet;
 
 pub use model::{
     ActiveEdge, ArcKind, Bound, Column, DeratingKind, ErrStats, Family, Library, Part, Series,

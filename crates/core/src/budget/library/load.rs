@@ -147,7 +147,8 @@ fn build_part(lib: &Library, src: &Source, p: RawPart) -> Res<Part> {
     let fam = &lib.families[family];
     let temp_min_c = p.temp_min_c.unwrap_or(fam.temp_min_c);
     let temp_max_c = p.temp_max_c.unwrap_or(fam.temp_max_c);
-    if !(temp_min_c < temp_max_c) {
+    // NaN fails too
+    if temp_min_c.partial_cmp(&temp_max_c) != Some(std::cmp::Ordering::Less) {
         return Err(src.fail(
             p.type_name.span(),
             "the part's temperature range must satisfy temp_min_c < temp_max_c",

@@ -2,7 +2,7 @@
 //! corner, by the guaranteed rule and by the estimate) and early (min corner) values, with the
 //! derating notes they raise; and the clocked parts' own limits (pulse widths, f_max).
 
-use std::collections::BTreeSet;
+use std::collections::{BTreeSet, HashMap};
 
 use super::types::{LimitKind, OperatingPoint};
 use crate::budget::derate::{self, Conditions, Corner, Notes};
@@ -43,6 +43,9 @@ pub(super) struct Evaluator<'a> {
     /// The union of the estimate error ranges of the values used, % (low, high).
     pub err_range: Option<(f64, f64)>,
     section_vcc: Vec<f64>,
+    /// Each (instance, arc, corner) evaluated once: an instance's conditions are fixed, and
+    /// designs use the same part arc on many signals.
+    cache: HashMap<(usize, usize, Corner), derate::Value>,
 }
 
 /// Note bits that are said once for the whole budget rather than per arc.
@@ -63,6 +66,7 @@ impl<'a> Evaluator<'a> {
             all_notes: Notes::default(),
             err_range: None,
             section_vcc,
+            cache: HashMap::new(),
         }
     }
 
@@ -78,6 +82,9 @@ impl<'a> Evaluator<'a> {
 
     /// One library arc of an instance at a corner, its notes recorded.
     fn part_value(&mut self, instance: usize, arc: usize, corner: Corner) -> derate::Value {
+        if let Some(v) = self.cache.get(&(instance, arc, corner)) {
+            return *v;
+        }
         let c = self.conditions(instance);
         let part = self.design.instances[instance].part;
         let v = derate::eval(self.lib, part, arc, corner, &c);
@@ -92,6 +99,7 @@ impl<'a> Evaluator<'a> {
                 None => (lo, hi),
             });
         }
+        self.cache.insert((instance, arc, corner), v);
         v
     }
 
@@ -205,15 +213,14 @@ impl<'a> Evaluator<'a> {
                             )
                         } else {
                             format!(
-                                "{} {} {} {} {b:.0} ns",
+                                "{} {} {} minimum {} {b:.0} ns",
                                 inst.reference,
                                 part.type_name,
                                 a.name,
-                                match (a.kind, s) {
-                                    (ArcKind::PulseWidth, 0) => "low-phase width",
-                                    (ArcKind::PulseWidth, _) => "high-phase width",
-                                    (ArcKind::PulseHigh, _) => "HIGH width",
-                                    _ => "LOW width",
+                                match a.kind {
+                                    ArcKind::PulseWidth => "pulse width",
+                                    ArcKind::PulseHigh => "HIGH time",
+                                    _ => "LOW time",
                                 }
                             )
                         };

@@ -6,9 +6,9 @@ use std::collections::BTreeSet;
 
 use super::evaluate::Evaluator;
 use super::types::{ClockInput, ModelNote, OperatingPoint};
-use crate::budget::derate::Notes;
+use crate::budget::derate::{self, Conditions, Corner, Notes};
 use crate::budget::design::model::Design;
-use crate::budget::library::model::{DeratingKind, Library};
+use crate::budget::library::model::{ArcKind, DeratingKind, Library};
 use crate::units;
 
 /// What the warnings found: in spec, guaranteed, the sentences, and the parts responsible.
@@ -73,13 +73,17 @@ pub(super) fn warnings(
             f.guaranteed = false;
             blame(&mut f, who.clone());
             if seen.insert((inst.reference.clone(), 3, 0)) {
-                f.warnings.push(format!(
-                    "NOT GUARANTEED: {who} at {:.3} V: its data sheet has no column at or below this supply; its values are extrapolated from the lowest column ({})",
-                    c.vcc_v,
-                    a.worst.first().map_or_else(
-                        || "see its variants".to_string(),
-                        |col| format!("{} V", col.series.vcc_v[0])
+                let whose = if part.is_generic() {
+                    format!(
+                        "the data sheet of {} has",
+                        uncovered_variants(lib, inst.part, arc, &c).join(", ")
                     )
+                } else {
+                    "its data sheet has".to_string()
+                };
+                f.warnings.push(format!(
+                    "NOT GUARANTEED: {who} at {:.3} V: {whose} no column at or below this supply; the values are extrapolated from the lowest column",
+                    c.vcc_v
                 ));
             }
         }
@@ -94,7 +98,10 @@ pub(super) fn warnings(
                 a.name, c.temp_c
             ));
         }
-        if notes.has(Notes::TYP_FROM_MAX) && seen.insert((part.type_name.clone(), 5, arc)) {
+        if notes.has(Notes::TYP_FROM_MAX)
+            && a.kind == ArcKind::Delay
+            && seen.insert((part.type_name.clone(), 5, arc))
+        {
             f.warnings.push(format!(
                 "{} {}: no typical value in the data sheet; the guaranteed value is used",
                 part.type_name, a.name
@@ -125,6 +132,16 @@ pub(super) fn warnings(
         );
     }
     f
+}
+
+/// The variants of a generic part whose arc no column covers at these conditions.
+fn uncovered_variants(lib: &Library, part: usize, arc: usize, c: &Conditions) -> Vec<String> {
+    let a = &lib.parts[part].arcs[arc];
+    a.variants
+        .iter()
+        .filter(|&&(p, i)| derate::eval(lib, p, i, Corner::Max, c).notes.not_covered())
+        .map(|&(p, _)| lib.parts[p].type_name.clone())
+        .collect()
 }
 
 /// A note when the clock asked for is far from anything the design could mean: much slower or

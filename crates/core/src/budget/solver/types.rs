@@ -208,7 +208,7 @@ impl PhaseLimit {
     pub fn words(&self) -> String {
         match self.binds {
             LimitKind::Path => "the slowest path".to_string(),
-            LimitKind::PulseWidth => format!("{} (minimum pulse width)", self.part),
+            LimitKind::PulseWidth => self.part.clone(),
             LimitKind::PartFmax => format!("{} (part f_max)", self.part),
             LimitKind::None => "nothing".to_string(),
         }
