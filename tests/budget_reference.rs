@@ -649,6 +649,59 @@ setup = "0 ns"
 }
 
 #[test]
+fn the_ls273s_pulse_width_binds_before_its_fmax() {
+    // Fairchild DM74LS273, recommended operating conditions (0…70 °C): setup 15 ns, hold 5 ns,
+    // CP pulse width HIGH or LOW 20 ns, MR recovery 15 ns. Motorola SN54/74LS273 (FAST and LS
+    // TTL data), AC characteristics at 25 °C: f_max 30 MHz, CP→Q 27 ns max. The generic 74LS273
+    // holds both vendors' arcs: at 50 % duty the 20 ns phases allow 25 MHz, below the 30 MHz.
+    let lib = Library::builtin();
+    for (arc, kind, want) in [
+        ("D->CLK", ArcKind::Setup, 15.0),
+        ("D->CLK", ArcKind::Hold, 5.0),
+        ("CLK", ArcKind::PulseWidth, 20.0),
+        ("CLR->CLK", ArcKind::Setup, 15.0),
+    ] {
+        assert_eq!(
+            max_at(&lib, "74LS273/fairchild", arc, kind, 5.0, 70.0),
+            want
+        );
+        assert_eq!(max_at(&lib, "74LS273", arc, kind, 5.0, 25.0), want);
+    }
+    assert_eq!(
+        max_at(&lib, "74LS273", "CLK->Q", ArcKind::Delay, 5.0, 25.0),
+        27.0
+    );
+    let d = design(
+        &lib,
+        r#"
+[design]
+name = "register alone"
+[[part]]
+ref = "U1"
+type = "74LS273"
+[[launch]]
+edge = "rise"
+part = "U1"
+arc = "CLK->Q"
+to = "q"
+[[capture]]
+signal = "q"
+edge = "rise"
+setup = "0 ns"
+"#,
+    );
+    let b = solve(&d, &lib, &op(5.0, 25.0), None, None);
+    assert_eq!(b.limits.low.binds, LimitKind::PulseWidth);
+    assert_eq!(b.limits.high.binds, LimitKind::PulseWidth);
+    assert!(
+        (b.period_required_ns - 1000.0 / 30.0).abs() < 1e-9,
+        "{}",
+        b.period_required_ns
+    );
+    assert!((b.fmax_50_hz - 25e6).abs() < 1e-3, "{}", b.fmax_50_hz);
+}
+
+#[test]
 fn hold_checks_without_minimum_delays() {
     let lib = Library::builtin();
     let d = design(&lib, &CHAIN.replace("EDGE", "rise"));
