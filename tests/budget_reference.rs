@@ -649,6 +649,36 @@ setup = "0 ns"
 }
 
 #[test]
+fn added_decoder_and_xor_rows_match_their_tables() {
+    let lib = Library::builtin();
+    let max = |p: &str, a: &str, v: f64, t: f64| max_at(&lib, p, a, ArcKind::Delay, v, t);
+    // TI SN74HCT139 SCLS066D, switching characteristics (CL 50 pF): tpd A or B→Y and G→Y max
+    // 34 / 30 ns at 4.5 / 5.5 V, 25 °C; SN74HCT139 (−40…85 °C) 43 / 40 ns
+    for arc in ["A->Y", "E->Y"] {
+        assert_eq!(max("74HCT139/ti-sn", arc, 4.5, 25.0), 34.0);
+        assert_eq!(max("74HCT139/ti-sn", arc, 5.5, 25.0), 30.0);
+        assert_eq!(max("74HCT139/ti-sn", arc, 5.5, 85.0), 40.0);
+        // −40 °C is covered by the −40…85 °C column, never by the 25 °C one
+        assert_eq!(max("74HCT139/ti-sn", arc, 4.5, -40.0), 43.0);
+        // between the columns the 4.5 V one holds
+        assert_eq!(max("74HCT139", arc, 5.0, 25.0), 34.0);
+    }
+    // Renesas HD74LS86 Rev. 2.00, switching characteristics (5 V, 25 °C, CL 15 pF, RL 2 kΩ):
+    // the slowest row is tPLH with the other input high, typ 20, max 30 ns
+    assert_eq!(max("74LS86/renesas", "A->Y", 5.0, 25.0), 30.0);
+    let typ = value(
+        &lib,
+        "74LS86",
+        "A->Y",
+        ArcKind::Delay,
+        Corner::Typ,
+        5.0,
+        25.0,
+    );
+    assert_eq!(typ.ns, Some(20.0));
+}
+
+#[test]
 fn the_ls273s_pulse_width_binds_before_its_fmax() {
     // Fairchild DM74LS273, recommended operating conditions (0…70 °C): setup 15 ns, hold 5 ns,
     // CP pulse width HIGH or LOW 20 ns, MR recovery 15 ns. Motorola SN54/74LS273 (FAST and LS
