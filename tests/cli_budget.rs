@@ -185,6 +185,15 @@ fn parts_name_prints_every_column_with_its_source() {
     assert_eq!(code, 0);
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v["variants"].as_array().unwrap().len(), 3);
+    // a generic of a commercial and an industrial grade claims neither grade (regression)
+    let (code, out, _) = slackmeter(&["parts", "AT27C256R-45"]);
+    assert_eq!(code, 0);
+    let first = out.lines().next().unwrap_or("");
+    assert!(first.contains("45 ns grade"), "{first}");
+    assert!(
+        !first.contains("commercial") && !first.contains("industrial"),
+        "{first}"
+    );
     let (code, _, err) = slackmeter(&["parts", "74HC9999"]);
     assert_eq!(code, 2);
     assert!(err.contains("no part"), "{err}");

@@ -491,15 +491,15 @@ fn without_supply(w: &str) -> String {
 /// One part's arcs with every data-sheet column, its source and status.
 pub fn render_part(sheet: &PartSheet) -> String {
     let mut out = String::new();
+    let clocked = if sheet.clocked {
+        format!(", clocked on its {} edge", sheet.clock_edge)
+    } else {
+        String::new()
+    };
     let _ = writeln!(
         out,
-        "{} — {} ({}), rated {}…{} °C, clocked on its {} edge",
-        sheet.type_name,
-        sheet.function,
-        sheet.family,
-        sheet.temp_min_c,
-        sheet.temp_max_c,
-        sheet.clock_edge
+        "{} — {} ({}), rated {}…{} °C{clocked}",
+        sheet.type_name, sheet.function, sheet.family, sheet.temp_min_c, sheet.temp_max_c
     );
     let _ = writeln!(out, "source: {} ({})", sheet.source, sheet.status);
     if !sheet.variants.is_empty() {

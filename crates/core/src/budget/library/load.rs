@@ -507,6 +507,26 @@ fn synthesize_generics(
     Ok(())
 }
 
+/// What the variants of a generic part have in common: the comma-separated words of their
+/// functions that all share from the start ("32K×8 OTP EPROM, 45 ns grade" of a commercial and
+/// an industrial grade), so a generic never claims one variant's grade.
+fn common_function(ps: &[&Part]) -> String {
+    let first: Vec<&str> = ps[0].function.split(", ").collect();
+    let shared = ps[1..].iter().fold(first.len(), |n, p| {
+        p.function
+            .split(", ")
+            .zip(&first)
+            .take(n)
+            .take_while(|(a, b)| a == *b)
+            .count()
+    });
+    if shared == 0 {
+        ps[0].function.clone()
+    } else {
+        first[..shared].join(", ")
+    }
+}
+
 /// The generic part standing for the worst of `variants`.
 fn generic_part(lib: &Library, base: &str, variants: &[usize]) -> Part {
     let mut arcs: Vec<TimingArc> = Vec::new();
@@ -552,7 +572,7 @@ fn generic_part(lib: &Library, base: &str, variants: &[usize]) -> Part {
     Part {
         type_name: base.to_string(),
         family: ps[0].family,
-        function: ps[0].function.clone(),
+        function: common_function(&ps),
         source: format!("worst of the library's variants {}", names.join(", ")),
         status: ps
             .iter()

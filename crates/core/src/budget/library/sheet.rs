@@ -25,6 +25,9 @@ pub struct PartSheet {
     pub temp_max_c: f64,
     /// "rising" or "falling".
     pub clock_edge: String,
+    /// Whether the part captures anything on that edge (it has setup, hold, pulse-width or
+    /// f_max arcs); gates and read-only memories do not.
+    pub clocked: bool,
     /// For a generic part: the vendor variants it is the worst of.
     pub variants: Vec<String>,
     /// Its arcs.
@@ -145,6 +148,7 @@ pub fn sheet(lib: &Library, index: usize) -> PartSheet {
             ActiveEdge::Fall => "falling",
         }
         .to_string(),
+        clocked: p.arcs.iter().any(|a| a.kind != ArcKind::Delay),
         variants: p
             .variants
             .iter()
