@@ -526,6 +526,35 @@ fn the_574_pulse_width_clamps_the_best_duty() {
 }
 
 #[test]
+fn a_clocked_part_without_a_pulse_width_is_named() {
+    // Regression: TI SN74HCT574 (SCLS177H) rows in the library give no tW; a register pair of
+    // them bounds no phase by a pulse width, and the budget says so instead of staying silent.
+    let lib = Library::builtin();
+    let d = design(
+        &lib,
+        &CHAIN
+            .replace("EDGE", "fall")
+            .replace("74HC574/ti-cd", "74HCT574/ti-sn"),
+    );
+    let b = solve(&d, &lib, &op(5.0, 25.0), None, None);
+    assert_eq!(b.limits.low.binds, LimitKind::None);
+    assert!(
+        b.warnings
+            .iter()
+            .any(|w| w.starts_with("74HCT574/ti-sn: the library gives no minimum CLK pulse width")),
+        "{:?}",
+        b.warnings
+    );
+    let d = design(&lib, &CHAIN.replace("EDGE", "fall"));
+    let b = solve(&d, &lib, &op(5.0, 25.0), None, None);
+    assert!(
+        !b.warnings
+            .iter()
+            .any(|w| w.contains("no minimum CLK pulse width"))
+    );
+}
+
+#[test]
 fn clock_plan_of_the_worked_example_through_the_solver() {
     // Invented worked example, docs/REFERENCES.md §11: L = 500 ns, H = 125 ns → d* = 0.20,
     // T_min = 625 ns (1.6 MHz); at 50 % duty T_min = 1000 ns (1.0 MHz).

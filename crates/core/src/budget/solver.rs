@@ -75,6 +75,11 @@ pub fn solve(
     plan.endpoint_slack(&mut endpoints);
     let holds = plan.hold_checks(arr.holds);
     let mut found = notes::warnings(design, lib, &ev, op);
+    for (ty, pin) in &ev.no_pulse_width {
+        found.warnings.push(format!(
+            "{ty}: the library gives no minimum {pin} pulse width, so nothing bounds the clock's phases by it (see its data sheet's tW)"
+        ));
+    }
     let fmax_best_duty_hz = 1e9 / plan.min_period_best_ns;
     if let Some(c) = &clock
         && let Some(w) = notes::plausibility(c, fmax_best_duty_hz)

@@ -46,6 +46,9 @@ pub(super) struct Evaluator<'a> {
     /// Each (instance, arc, corner) evaluated once: an instance's conditions are fixed, and
     /// designs use the same part arc on many signals.
     cache: HashMap<(usize, usize, Corner), derate::Value>,
+    /// Clocked part types (with the clock pin) whose library rows give no minimum clock pulse
+    /// width: nothing bounds the phases by them, and the report says so.
+    pub no_pulse_width: BTreeSet<(String, String)>,
 }
 
 /// Note bits that are said once for the whole budget rather than per arc.
@@ -67,6 +70,7 @@ impl<'a> Evaluator<'a> {
             err_range: None,
             section_vcc,
             cache: HashMap::new(),
+            no_pulse_width: BTreeSet::new(),
         }
     }
 
@@ -181,6 +185,14 @@ impl<'a> Evaluator<'a> {
             let part = &self.lib.parts[inst.part];
             // the part's own HIGH is the master's HIGH unless an inverter sits between them
             let inverted = (edge == Edge::Rise) != (part.clock_edge == ActiveEdge::Rise);
+            if !part
+                .arcs
+                .iter()
+                .any(|a| a.name == ck.pin && a.kind.is_clock_limit() && a.kind != ArcKind::Fmax)
+            {
+                self.no_pulse_width
+                    .insert((part.type_name.clone(), ck.pin.clone()));
+            }
             for (ai, a) in part.arcs.iter().enumerate() {
                 if a.name != ck.pin {
                     continue;
