@@ -362,6 +362,11 @@ fn corrected_library_values_match_their_tables() {
     assert_eq!(max("74HC161/onsemi", "CLK->Q", 4.5, 25.0), 22.0);
     // generic 74HC08: TI CD74HC08 18 ns, onsemi MC74HC08A 15 ns, TI SN74HC08 20 ns (secondary)
     assert_eq!(max("74HC08", "A->Y", 5.0, 25.0), 20.0);
+    // generic 74HC04: NXP 74HC04-Q100 Rev. 2 17 ns, TI SN74HC04 19 ns (4.5 V, 25 °C, secondary);
+    // generic 74HC32: TI SN74HC32 20 ns (secondary) over the NXP row (from memory)
+    assert_eq!(max("74HC04/nxp", "A->Y", 4.5, 25.0), 17.0);
+    assert_eq!(max("74HC04", "A->Y", 4.5, 25.0), 19.0);
+    assert_eq!(max("74HC32", "A->Y", 4.5, 25.0), 20.0);
     // TI SCHS183E: CD74HC574 typical CP→Q 15 ns at 5 V, 15 pF (the library gives it at 50 pF
     // on the guaranteed row's shape, so only its value at 5 V, 15 pF is the table's)
     let p = lib.part_index("74HC574/ti-cd").unwrap();
