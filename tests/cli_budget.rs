@@ -166,6 +166,14 @@ fn negative_temperatures_and_implausible_clocks() {
     assert!(code == 0 || code == 3, "{err}");
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v["temp_c"], -40.0);
+    // `report --temp -40` takes the negative value too
+    let rec = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/recordings/larkspur-steady.smrec"
+    );
+    let (code, out, err) = slackmeter(&["report", rec, "--temp", "-40", "--json"]);
+    assert!(code == 0 || code == 3, "{err}");
+    assert!(out.contains("\"margin\""), "{out}");
     let (_, out, _) = slackmeter(&["budget", "--freq", "1.8mHz"]);
     assert!(out.contains("did you mean 1.800 MHz"), "{out}");
 }
