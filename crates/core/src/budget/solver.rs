@@ -119,6 +119,7 @@ pub fn solve(
         in_spec: found.in_spec,
         guaranteed: found.guaranteed,
         out_of_spec_parts: found.out_of_spec_parts,
+        not_guaranteed_parts: found.not_guaranteed_parts,
         warnings: found.warnings,
         models: notes::models(design, lib),
     }
@@ -174,6 +175,7 @@ pub fn sweep_vcc_with_clock(
                     b.limits.period.binds,
                 ],
                 out_of_spec_parts: b.out_of_spec_parts,
+                not_guaranteed_parts: b.not_guaranteed_parts,
                 clock_meets: b.clock.as_ref().map(|c| c.meets),
                 warnings: b.warnings,
             }

@@ -117,18 +117,19 @@ pub fn render(b: &Budget, design_file: &str) -> String {
     if !b.guaranteed {
         let _ = writeln!(
             out,
-            "\n!! NOT GUARANTEED: no data-sheet column covers some parts' conditions (see warnings); their values are extrapolated"
+            "\n!! NOT GUARANTEED: no data-sheet column covers the conditions of {} (see warnings); their values are extrapolated",
+            if b.not_guaranteed_parts.is_empty() {
+                "some parts".to_string()
+            } else {
+                b.not_guaranteed_parts.join(", ")
+            }
         );
     }
-    if !b.in_spec {
+    if !b.out_of_spec_parts.is_empty() {
         let _ = writeln!(
             out,
-            "\n!! OUT OF SPECIFICATION: {} outside its data sheet's range or columns (see warnings)",
-            if b.out_of_spec_parts.is_empty() {
-                "some part runs".to_string()
-            } else {
-                b.out_of_spec_parts.join(", ") + ":"
-            }
+            "\n!! OUT OF SPECIFICATION: {}: outside their data sheets' supply or temperature ranges (see warnings)",
+            b.out_of_spec_parts.join(", ")
         );
     }
     let e = &b.estimate;
@@ -417,11 +418,11 @@ pub fn render_sweep(design: &str, points: &[SweepPoint]) -> String {
         if p.clock_meets == Some(false) {
             flags += "  CLOCK FAILS";
         }
-        if !p.in_spec {
-            flags += "  OUT OF SPEC";
-            if !p.out_of_spec_parts.is_empty() {
-                flags += &format!(" ({})", p.out_of_spec_parts.join(", "));
-            }
+        if !p.out_of_spec_parts.is_empty() {
+            flags += &format!("  OUT OF SPEC ({})", p.out_of_spec_parts.join(", "));
+        }
+        if !p.not_guaranteed_parts.is_empty() {
+            flags += &format!("  NOT GUARANTEED ({})", p.not_guaranteed_parts.join(", "));
         }
         let b: String = p.binds.iter().map(|k| bind_letter(*k)).collect();
         marks |= !b.is_empty();

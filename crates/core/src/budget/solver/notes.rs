@@ -19,8 +19,10 @@ pub(super) struct Findings {
     pub guaranteed: bool,
     /// One sentence each.
     pub warnings: Vec<String>,
-    /// "U3 74HC283" for each part outside its ranges or columns.
+    /// "U3 74HC283" for each part outside its data sheet's supply or temperature range.
     pub out_of_spec_parts: Vec<String>,
+    /// "U3 74HC283" for each part with a value no data-sheet column covers.
+    pub not_guaranteed_parts: Vec<String>,
 }
 
 /// The warnings: the design's own first, then one sentence per condition and part (or arc),
@@ -36,11 +38,12 @@ pub(super) fn warnings(
         guaranteed: true,
         warnings: design.warnings.clone(),
         out_of_spec_parts: Vec::new(),
+        not_guaranteed_parts: Vec::new(),
     };
     let mut seen = BTreeSet::new();
-    let blame = |f: &mut Findings, who: String| {
-        if !f.out_of_spec_parts.contains(&who) {
-            f.out_of_spec_parts.push(who);
+    let blame = |list: &mut Vec<String>, who: String| {
+        if !list.contains(&who) {
+            list.push(who);
         }
     };
     for &(key, bits) in &ev.notes {
@@ -54,7 +57,7 @@ pub(super) fn warnings(
         let a = &part.arcs[arc];
         if notes.out_of_spec() {
             f.in_spec = false;
-            blame(&mut f, who.clone());
+            blame(&mut f.out_of_spec_parts, who.clone());
         }
         if notes.has(Notes::VCC_OUT_OF_SPEC) && seen.insert((inst.reference.clone(), 1, 0)) {
             f.warnings.push(format!(
@@ -71,7 +74,7 @@ pub(super) fn warnings(
         if notes.has(Notes::VCC_NOT_COVERED) {
             f.in_spec = false;
             f.guaranteed = false;
-            blame(&mut f, who.clone());
+            blame(&mut f.not_guaranteed_parts, who.clone());
             if seen.insert((inst.reference.clone(), 3, 0)) {
                 let whose = if part.is_generic() {
                     format!(
@@ -90,7 +93,7 @@ pub(super) fn warnings(
         if notes.has(Notes::TEMP_NOT_COVERED) {
             f.in_spec = false;
             f.guaranteed = false;
-            blame(&mut f, who.clone());
+            blame(&mut f.not_guaranteed_parts, who.clone());
         }
         if notes.has(Notes::TEMP_NOT_COVERED) && seen.insert((part.type_name.clone(), 4, arc)) {
             f.warnings.push(format!(

@@ -377,9 +377,12 @@ pub struct Budget {
     pub in_spec: bool,
     /// True when every value is covered by a data-sheet column (the budget is a guarantee).
     pub guaranteed: bool,
-    /// The parts (reference and type) outside their data sheets' ranges or columns.
+    /// The parts (reference and type) outside their data sheets' supply or temperature ranges.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub out_of_spec_parts: Vec<String>,
+    /// The parts (reference and type) with a value no data-sheet column covers.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub not_guaranteed_parts: Vec<String>,
     /// Out-of-spec conditions and other caveats, one sentence each.
     pub warnings: Vec<String>,
     /// Voltage models used.
@@ -413,9 +416,12 @@ pub struct SweepPoint {
     pub estimate_fmax_best_duty_hz: f64,
     /// What sets L, H and P here.
     pub binds: [LimitKind; 3],
-    /// The parts (reference and type) outside their data sheets or their columns here.
+    /// The parts (reference and type) outside their data sheets' ranges here.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub out_of_spec_parts: Vec<String>,
+    /// The parts (reference and type) with a value no data-sheet column covers here.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub not_guaranteed_parts: Vec<String>,
     /// Whether the clock asked for fits at this supply (absent without a clock).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub clock_meets: Option<bool>,
