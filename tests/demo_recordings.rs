@@ -110,8 +110,11 @@ fn plots_are_written_as_svg() {
         .arg(&dir)
         .output()
         .unwrap();
-    assert!(
-        out.status.success(),
+    // exit 3: the far rail sags below the 4.5 V data-sheet column, so the margin is broken
+    // (the plots are written all the same)
+    assert_eq!(
+        out.status.code(),
+        Some(3),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
@@ -190,14 +193,19 @@ fn sweep_report_finds_the_failure_and_exits_with_the_margin_code() {
 fn budget_takes_supply_and_clock_from_a_recording() {
     let path = demo("larkspur-sagging.smrec");
     let out = run(&["budget", "--json", "--recording", &path]);
-    assert!(
-        out.status.success(),
+    // below the 4.5 V column the ALU's parts are guaranteed only by their 2.0 V columns: the
+    // 2 MHz clock's 250 ns low phase is too short (exit 3)
+    assert_eq!(
+        out.status.code(),
+        Some(3),
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
     let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let far = d["section_vcc_v"]["far"].as_f64().unwrap();
-    assert!(far < 4.55, "the far section at its sagging rail: {far}");
+    assert!(far < 4.5, "the far section at its sagging rail: {far}");
+    assert!(d["low_required_ns"].as_f64().unwrap() > 250.0);
+    assert!(d["estimate"]["low_required_ns"].as_f64().unwrap() < 250.0);
     assert!((d["clock_hz"].as_f64().unwrap() - 2.0e6).abs() < 100.0);
 }
 

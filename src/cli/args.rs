@@ -362,7 +362,7 @@ pub struct SimModelArgs {
     #[arg(long)]
     pub fault_on_typ: bool,
     /// Temperature for --fault-on-typ.
-    #[arg(long, value_parser = temp, default_value = "25")]
+    #[arg(long, value_parser = temp, default_value = "25", allow_hyphen_values = true)]
     pub temp: f64,
     /// Seed of every random stream.
     #[arg(long)]

@@ -35,8 +35,8 @@ pub struct BudgetArgs {
     /// Supply of one board section, NAME=VOLTAGE (repeatable), e.g. far=4.62V.
     #[arg(long = "section-vcc", value_name = "NAME=V", value_parser = args::section_vcc)]
     pub section_vcc: Vec<(String, f64)>,
-    /// Ambient temperature, e.g. 85 or "85 °C".
-    #[arg(long, value_parser = args::temp)]
+    /// Ambient temperature, e.g. 85, -40 or "85 °C".
+    #[arg(long, value_parser = args::temp, allow_hyphen_values = true)]
     pub temp: Option<f64>,
     /// Which data-sheet values the late (setup) analysis uses.
     #[arg(long, value_enum)]
@@ -133,8 +133,26 @@ pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
         measured_clock = from_recording(&an.snapshot, &design, a.vcc.is_some(), &mut op);
     }
 
+    let clock = match (a.freq, measured_clock) {
+        (None, Some(m)) => Some(ClockInput {
+            duty: a.duty.unwrap_or(m.duty),
+            ..m
+        }),
+        _ => a.freq.or(design.clock.freq_hz).map(|f| ClockInput {
+            freq_hz: f,
+            duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
+        }),
+    };
     if let Some((from, to)) = a.sweep_vcc {
-        let pts = budget::sweep_vcc(&design, &lib, &op, from, to, a.points as usize);
+        let pts = budget::solver::sweep_vcc_with_clock(
+            &design,
+            &lib,
+            &op,
+            from,
+            to,
+            a.points as usize,
+            clock,
+        );
         if a.json {
             let doc = serde_json::json!({
                 "design": design.name,
@@ -149,16 +167,6 @@ pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
         return Ok(Outcome::Done);
     }
 
-    let clock = match (a.freq, measured_clock) {
-        (None, Some(m)) => Some(ClockInput {
-            duty: a.duty.unwrap_or(m.duty),
-            ..m
-        }),
-        _ => a.freq.or(design.clock.freq_hz).map(|f| ClockInput {
-            freq_hz: f,
-            duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
-        }),
-    };
     let b = budget::solve(&design, &lib, &op, clock, a.duty);
     if a.json {
         println!("{}", serde_json::to_string_pretty(&b)?);

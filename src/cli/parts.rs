@@ -4,11 +4,13 @@ use miette::miette;
 
 use super::args::LibraryArgs;
 use super::error::{CliError, CliResult, Outcome};
-use crate::budget::library::{ArcKind, Status};
+use crate::budget::library::ArcKind;
 
 /// Options of `parts`.
 #[derive(clap::Args, Debug)]
 pub struct PartsArgs {
+    /// One part to show with every data-sheet column and its source, e.g. 74HC161/onsemi.
+    pub name: Option<String>,
     /// Only parts of this family (e.g. 74HC).
     #[arg(long)]
     pub family: Option<String>,
@@ -23,6 +25,26 @@ pub struct PartsArgs {
 /// `slackmeter parts`.
 pub fn run(a: PartsArgs) -> CliResult<Outcome> {
     let lib = a.library.load()?;
+    if let Some(name) = &a.name {
+        let Some(i) = lib.part_index(name) else {
+            let similar = lib.similar_parts(name);
+            return Err(CliError::input(miette!(
+                help = if similar.is_empty() {
+                    "list the library with `slackmeter parts`".to_string()
+                } else {
+                    format!("similar parts: {}", similar.join(", "))
+                },
+                "no part \"{name}\" in the library"
+            )));
+        };
+        let sheet = crate::budget::library::sheet::sheet(&lib, i);
+        if a.json {
+            println!("{}", serde_json::to_string_pretty(&sheet)?);
+        } else {
+            print!("{}", crate::report::budget::render_part(&sheet));
+        }
+        return Ok(Outcome::Done);
+    }
     let parts: Vec<_> = lib
         .parts
         .iter()
@@ -73,10 +95,7 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
                 k => format!("{}({})", a.name, format!("{k:?}").to_lowercase()),
             })
             .collect();
-        let status = match p.status {
-            Status::Seen => "seen",
-            Status::FromMemory => "from memory",
-        };
+        let status = p.status.words();
         println!(
             "{:<15} {:<7} {:<12} {} — {} — {}",
             p.type_name,

@@ -45,8 +45,8 @@ pub struct ReportArgs {
     /// Margin required over the worst-case budget, e.g. 20% (common practice, no source).
     #[arg(long, value_parser = args::fraction, default_value = "20%")]
     pub guard_band: f64,
-    /// Temperature to derate at (the design's otherwise).
-    #[arg(long, value_parser = args::temp)]
+    /// Temperature to derate at (the design's otherwise), e.g. 85, -40 or "85 °C".
+    #[arg(long, value_parser = args::temp, allow_hyphen_values = true)]
     pub temp: Option<f64>,
 }
 

@@ -19,7 +19,8 @@ mod timing;
 
 use load::{Loader, Res};
 pub use model::{
-    Capture, ClockPlan, Delay, Design, Edge, GraphArc, Instance, Launch, Operating, Section,
+    Capture, ClockPlan, Clocked, Delay, Design, Edge, GraphArc, Instance, Launch, Operating,
+    Section,
 };
 
 /// The demo design (the invented Larkspur-8 machine), embedded so every command has a default.
@@ -57,6 +58,7 @@ impl Design {
         let mut launches = ld.launches(&raw.launch)?;
         let (mut arcs, arc_spans) = ld.arcs(&raw.arc)?;
         let mut captures = ld.captures(&raw.capture)?;
+        let clocked = clocked_parts(&ld, &raw)?;
         ld.apply_overrides(&raw.overrides, &mut launches, &mut arcs, &mut captures)?;
         if launches.is_empty() || captures.is_empty() {
             return Err(nothing_to_time(&ld));
@@ -78,6 +80,7 @@ impl Design {
             order: graph.order,
             fanout: graph.fanout,
             warnings: Vec::new(),
+            clocked,
         };
         design.warnings = graph::unreached_captures(&design);
         if design.warnings.len() == design.captures.len() {
@@ -85,6 +88,40 @@ impl Design {
         }
         Ok(design)
     }
+}
+
+/// Every part a launch or a part-checked capture names, with its master edge and the pin the
+/// clock enters by ("CLK" of "CLK->Q", "WE" of "D->WE"), once each.
+fn clocked_parts(ld: &Loader, raw: &raw::RawDesign) -> Res<Vec<Clocked>> {
+    let mut out: Vec<Clocked> = Vec::new();
+    let pin_of = |arc: &str, first: bool| {
+        let mut it = arc.split("->");
+        let (a, b) = (it.next().unwrap_or(arc), it.next().unwrap_or(arc));
+        (if first { a } else { b }).trim().to_string()
+    };
+    let named = raw
+        .launch
+        .iter()
+        .map(|l| (&l.part, l.edge, pin_of(l.arc.get_ref(), true)))
+        .chain(
+            raw.capture
+                .iter()
+                .filter_map(|c| match (&c.part, &c.check) {
+                    (Some(p), Some(ch)) => Some((p, c.edge, pin_of(ch.get_ref(), false))),
+                    _ => None,
+                }),
+        );
+    for (part, edge, pin) in named {
+        let c = Clocked {
+            instance: ld.instance(part)?,
+            edge,
+            pin,
+        };
+        if !out.contains(&c) {
+            out.push(c);
+        }
+    }
+    Ok(out)
 }
 
 /// The error for a design without a launch or without a capture.

@@ -13,9 +13,11 @@ pub(super) mod fit;
 mod load;
 pub(super) mod model;
 mod raw;
+pub mod sheet;
 
 pub use model::{
-    ArcKind, Column, DeratingKind, Family, Library, Part, Series, Shape, Status, TimingArc,
+    ActiveEdge, ArcKind, Bound, Column, DeratingKind, ErrStats, Family, Library, Part, Series,
+    Shape, Status, TimingArc,
 };
 
 /// The embedded data files, by the name shown in diagnostics.
@@ -27,6 +29,7 @@ pub const BUILTIN_FILES: &[(&str, &str)] = &[
     ("builtin:74hc.toml", include_str!("library/74hc.toml")),
     ("builtin:74hct.toml", include_str!("library/74hct.toml")),
     ("builtin:74ls.toml", include_str!("library/74ls.toml")),
+    ("builtin:74ac.toml", include_str!("library/74ac.toml")),
     ("builtin:memory.toml", include_str!("library/memory.toml")),
     ("builtin:timer.toml", include_str!("library/timer.toml")),
 ];

@@ -33,6 +33,7 @@ impl Loader<'_> {
             vcc_v,
             temp_c,
             corner: o.and_then(|o| o.corner).unwrap_or(Corner::Max),
+            common_clock_credit: o.and_then(|o| o.common_clock_credit).unwrap_or(false),
         })
     }
 

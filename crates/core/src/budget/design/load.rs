@@ -178,6 +178,7 @@ impl<'a> Loader<'a> {
             instance,
             arc,
             scale: 1.0,
+            min_ns: None,
         })
     }
 

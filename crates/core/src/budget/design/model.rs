@@ -38,6 +38,9 @@ pub enum Delay {
         arc: usize,
         /// Multiplier from an override (1.0 normally).
         scale: f64,
+        /// A guaranteed minimum given by an override, in place of the data sheet's (which
+        /// rarely has one); the maximum stays the derated library value.
+        min_ns: Option<f64>,
     },
     /// A fixed delay (wiring, RC, or an override), not derated.
     Fixed {
@@ -126,6 +129,8 @@ pub struct Operating {
     pub temp_c: f64,
     /// Corner for late (setup) analysis.
     pub corner: Corner,
+    /// Credit the clock path shared by a launch and its capture (same edge type only).
+    pub common_clock_credit: bool,
 }
 
 /// The clock the builder plans to run, if the design names one.
@@ -168,6 +173,21 @@ pub struct Design {
     pub fanout: Vec<Vec<usize>>,
     /// Problems that do not stop the analysis (e.g. unreachable captures).
     pub warnings: Vec<String>,
+    /// Part instances clocked by the master clock (a launch's or a capture's part), once each:
+    /// their pulse widths and f_max limit the clock.
+    pub clocked: Vec<Clocked>,
+}
+
+/// A part instance clocked by the master clock, and how.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Clocked {
+    /// Index into [`Design::instances`].
+    pub instance: usize,
+    /// The master edge that clocks it.
+    pub edge: Edge,
+    /// The part's pin the clock enters by ("CLK", "WE", "LE"): its pulse-width and f_max arcs
+    /// carry this name.
+    pub pin: String,
 }
 
 impl Design {
@@ -178,14 +198,18 @@ impl Design {
                 instance,
                 arc,
                 scale,
+                min_ns,
             } => {
                 let inst = &self.instances[*instance];
                 let part = &lib.parts[inst.part];
-                let s = if (*scale - 1.0).abs() > 1e-12 {
+                let mut s = if (*scale - 1.0).abs() > 1e-12 {
                     format!(" ×{scale}")
                 } else {
                     String::new()
                 };
+                if let Some(m) = min_ns {
+                    s += &format!(" (min {m} ns by override)");
+                }
                 format!(
                     "{} {} {}{s}",
                     inst.reference, part.type_name, part.arcs[*arc].name

@@ -44,8 +44,18 @@ impl Loader<'_> {
         Ok(())
     }
 
-    /// What an override puts in place of the arc: fixed values or the arc scaled, not both.
+    /// What an override puts in place of the arc: fixed values, or the library arc scaled
+    /// and/or given a guaranteed minimum (its maximum still derated).
     fn replacement(&self, o: &RawOverride, instance: usize, arc: usize) -> Res<Delay> {
+        let kind = self.lib.parts[self.instances[instance].part].arcs[arc].kind;
+        if kind.is_clock_limit() {
+            return Err(self.err(
+                o.arc.span(),
+                "overrides change delays, setup and hold times; pulse widths and f_max are not overridden",
+                "here",
+                Some("give the part's own limits in a --parts folder instead".into()),
+            ));
+        }
         match (&o.max, &o.scale) {
             (Some(max), None) => Ok(Delay::Fixed {
                 max_ns: self.time(max)?,
@@ -53,12 +63,26 @@ impl Loader<'_> {
                 typ_ns: self.time_opt(&o.typ)?,
                 label: format!("override of {} {}", o.part.get_ref(), o.arc.get_ref()),
             }),
-            (None, Some(scale)) => {
-                let s = *scale.get_ref();
-                if !(s.is_finite() && s > 0.0) {
+            (None, scale) if scale.is_some() || o.min.is_some() => {
+                let s = match scale {
+                    Some(scale) => {
+                        let s = *scale.get_ref();
+                        if !(s.is_finite() && s > 0.0) {
+                            return Err(self.err(
+                                scale.span(),
+                                "scale must be a positive number",
+                                "here",
+                                None,
+                            ));
+                        }
+                        s
+                    }
+                    None => 1.0,
+                };
+                if let Some(t) = &o.typ {
                     return Err(self.err(
-                        scale.span(),
-                        "scale must be a positive number",
+                        t.span(),
+                        "typ takes fixed values (with max); with scale or min alone the library's typical is kept",
                         "here",
                         None,
                     ));
@@ -67,6 +91,7 @@ impl Loader<'_> {
                     instance,
                     arc,
                     scale: s,
+                    min_ns: self.time_opt(&o.min)?,
                 })
             }
             (Some(max), Some(_)) => Err(self.err(
@@ -75,11 +100,14 @@ impl Loader<'_> {
                 "both given",
                 None,
             )),
-            (None, None) => Err(self.err(
+            _ => Err(self.err(
                 o.part.span(),
                 "override changes nothing",
                 "this override",
-                Some("add max = \"12 ns\" (with optional min/typ) or scale = 1.2".into()),
+                Some(
+                    "add max = \"12 ns\" (with optional min/typ), scale = 1.2, or min = \"2 ns\" alone to keep the derated maximum"
+                        .into(),
+                ),
             )),
         }
     }

@@ -41,6 +41,7 @@ pub(super) struct RawOperating {
     pub vcc: Option<Spanned<String>>,
     pub temp: Option<Spanned<toml::Value>>,
     pub corner: Option<Corner>,
+    pub common_clock_credit: Option<bool>,
 }
 
 #[derive(Deserialize)]

@@ -146,6 +146,7 @@ impl Loader<'_> {
                     instance,
                     arc,
                     scale: 1.0,
+                    min_ns: None,
                 };
                 Ok((Some(at(s)), h.map(at)))
             }

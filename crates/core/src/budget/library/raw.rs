@@ -5,7 +5,7 @@ use std::collections::BTreeMap;
 use serde::Deserialize;
 use toml::Spanned;
 
-use super::model::{ArcKind, DeratingKind, Status};
+use super::model::{ActiveEdge, ArcKind, DeratingKind, Status};
 
 /// One library file: families and parts.
 #[derive(Deserialize)]
@@ -30,9 +30,21 @@ pub(super) struct RawFamily {
     pub temp_max_c: f64,
     pub derating: DeratingKind,
     pub shape_from: Option<Spanned<String>>,
+    /// ns per pF beyond a row's own load: one number, or one per `load_vcc_v` column; absent
+    /// when the family's data sheets give no two-load table (load is then not modelled).
+    pub load_ns_per_pf: Option<Spanned<RawSlope>>,
+    pub load_vcc_v: Option<Vec<f64>>,
     #[serde(default)]
-    pub load_ns_per_pf: f64,
+    pub load_source: String,
     pub source: String,
+}
+
+/// A load slope: one value for every supply, or one per column.
+#[derive(Deserialize)]
+#[serde(untagged)]
+pub(super) enum RawSlope {
+    One(f64),
+    PerColumn(Vec<f64>),
 }
 
 /// A `[[part]]` entry.
@@ -47,11 +59,15 @@ pub(super) struct RawPart {
     pub status: Status,
     pub load_pf: f64,
     pub vcc_v: Spanned<Vec<f64>>,
+    pub temp_min_c: Option<f64>,
+    pub temp_max_c: Option<f64>,
+    pub clock_edge: Option<ActiveEdge>,
     #[serde(default)]
     pub arc: Vec<RawArc>,
 }
 
-/// Rows keyed by temperature column ("25", "85", "125").
+/// Rows keyed by temperature column: "25" (at 25 °C), "85" (from the part's lowest rated
+/// temperature to 85 °C), or an explicit range "-55..25".
 pub(super) type RawColumns = BTreeMap<String, Spanned<Vec<f64>>>;
 
 /// A `[[part.arc]]` entry.
@@ -70,4 +86,11 @@ pub(super) struct RawArc {
     pub max_ns: Option<Spanned<RawColumns>>,
     pub limit_ns: Option<Spanned<RawColumns>>,
     pub min_ns: Option<Spanned<RawColumns>>,
+    /// Supply columns of `min_ns` when they differ (a minimum given for "3.3 V ± 0.3 V" holds
+    /// up to 3.6 V).
+    pub min_vcc_v: Option<Spanned<Vec<f64>>>,
+    /// Guaranteed (minimum) f_max of an `fmax` arc, MHz.
+    pub limit_mhz: Option<Spanned<RawColumns>>,
+    /// Typical f_max of an `fmax` arc, MHz.
+    pub typ_mhz: Option<Spanned<Vec<f64>>>,
 }

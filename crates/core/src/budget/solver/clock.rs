@@ -1,8 +1,11 @@
-//! The clock plan from the phase requirements L, H, P: d* = H/(L+H),
-//! T_min(d) = max(L/(1−d), H/d, P), f_max; and how a given clock meets each endpoint.
+//! The clock plan from the phase requirements L, H, P (each the larger of its slowest path and
+//! the clocked parts' pulse width or f_max): d* = H/(L+H), T_min(d) = max(L/(1−d), H/d, P),
+//! f_max; and how a given clock meets each endpoint and hold check.
 
 use super::propagate::PendingHold;
-use super::types::{ClockInput, ClockSlack, DutyPoint, Endpoint, HoldCheck, HoldStatus, Phase};
+use super::types::{
+    ClockInput, ClockSlack, DutyPoint, Endpoint, HoldCheck, HoldStatus, Phase, PhaseLimits,
+};
 
 /// T_min(d) = max(L/(1−d), H/d, P).
 pub fn min_period_ns(low_ns: f64, high_ns: f64, period_ns: f64, duty: f64) -> f64 {
@@ -20,6 +23,17 @@ fn best_duty(low_ns: f64, high_ns: f64) -> f64 {
 
 /// Slack of each phase of a clock against L, H, P.
 fn clock_slack(low_ns: f64, high_ns: f64, period_ns: f64, clock: ClockInput) -> ClockSlack {
+    clock_slack_of(low_ns, high_ns, period_ns, clock, None)
+}
+
+/// Slack of each phase, saying for each short phase which limit it is short of.
+fn clock_slack_of(
+    low_ns: f64,
+    high_ns: f64,
+    period_ns: f64,
+    clock: ClockInput,
+    limits: Option<&PhaseLimits>,
+) -> ClockSlack {
     let t = 1e9 / clock.freq_hz;
     let hi = t * clock.duty;
     let lo = t - hi;
@@ -38,6 +52,17 @@ fn clock_slack(low_ns: f64, high_ns: f64, period_ns: f64, clock: ClockInput) -> 
         high_slack_pct: pct(hs, high_ns),
         period_slack_pct: pct(ps, period_ns),
         meets: ls >= 0.0 && hs >= 0.0 && ps >= 0.0,
+        short_of: limits.map_or_else(Vec::new, |l| {
+            [
+                (ls, "low", &l.low),
+                (hs, "high", &l.high),
+                (ps, "period", &l.period),
+            ]
+            .into_iter()
+            .filter(|(slack, _, _)| *slack < 0.0)
+            .map(|(_, name, lim)| format!("{name}: {}", lim.words()))
+            .collect()
+        }),
     }
 }
 
@@ -54,6 +79,18 @@ pub(super) struct Plan {
 }
 
 impl Plan {
+    /// The plan of the guaranteed budget, its clock slack naming the limit of a short phase.
+    pub fn of_limits(limits: &PhaseLimits, clock: Option<ClockInput>, duty: Option<f64>) -> Plan {
+        let (l, h, p) = (
+            limits.low.required_ns(),
+            limits.high.required_ns(),
+            limits.period.required_ns(),
+        );
+        let mut plan = Plan::new(l, h, p, None, duty);
+        plan.clock = clock.map(|c| clock_slack_of(l, h, p, c, Some(limits)));
+        plan
+    }
+
     pub fn new(l: f64, h: f64, p: f64, clock: Option<ClockInput>, duty: Option<f64>) -> Plan {
         let best = best_duty(l, h);
         Plan {
@@ -90,31 +127,44 @@ impl Plan {
         }
     }
 
-    /// Hold verdicts: a path launched on one edge and captured on the other has the opposite
-    /// phase as credit when the clock is known.
+    /// Hold verdicts. A path launched on one edge and captured on the other has the opposite
+    /// phase as credit: with a clock it is counted; without one the check says how long that
+    /// phase must be. Unknown minima count as 0 ns, so a check that passes with them passes.
     pub fn hold_checks(&self, holds: Vec<PendingHold>) -> Vec<HoldCheck> {
         holds
             .into_iter()
             .map(|h| {
-                let credit = match (h.phase, &self.clock) {
-                    (Phase::High, Some(c)) => c.clock_low_ns,
-                    (Phase::Low, Some(c)) => c.clock_high_ns,
+                let credit_phase = match h.phase {
+                    Phase::High => Some(Phase::Low),
+                    Phase::Low => Some(Phase::High),
+                    Phase::Period => None,
+                };
+                let base = h.early_ns - h.clock_late_ns - h.hold_ns + h.credit_ns;
+                let credit = match (credit_phase, &self.clock) {
+                    (Some(Phase::Low), Some(c)) => c.clock_low_ns,
+                    (Some(Phase::High), Some(c)) => c.clock_high_ns,
                     _ => 0.0,
                 };
-                let slack = h.early_ns + credit - h.clock_late_ns - h.hold_ns;
+                let slack = base + credit;
+                let (status, passes_if) = if slack >= 0.0 {
+                    (HoldStatus::Pass, None)
+                } else if credit_phase.is_some() && self.clock.is_none() {
+                    (HoldStatus::PassesIf, Some(-base))
+                } else if !h.known {
+                    (HoldStatus::UnknownMin, None)
+                } else {
+                    (HoldStatus::Fail, None)
+                };
                 HoldCheck {
                     capture: h.capture,
                     phase: h.phase,
                     early_arrival_ns: h.early_ns,
                     hold_ns: h.hold_ns,
                     slack_ns: slack,
-                    status: if !h.known {
-                        HoldStatus::UnknownMin
-                    } else if slack >= 0.0 {
-                        HoldStatus::Pass
-                    } else {
-                        HoldStatus::Fail
-                    },
+                    status,
+                    passes_if_phase_ns: passes_if,
+                    credit_phase,
+                    common_clock_credit_ns: h.credit_ns,
                 }
             })
             .collect()

@@ -7,6 +7,7 @@ use serde::Serialize;
 
 use crate::budget::derate::Corner;
 use crate::budget::design::model::{Design, Edge};
+use crate::budget::library::model::ErrStats;
 
 /// The phase a path must settle within.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Hash, PartialOrd, Ord)]
@@ -75,7 +76,11 @@ pub struct Step {
     pub delay_ns: f64,
     /// Time after the launching edge when the step ends.
     pub at_ns: f64,
-    /// Model error of this value in % (None: not derated or fixed).
+    /// The model's estimate of this step (absent when it equals the delay: on a data-sheet
+    /// column, a fixed delay, or a family not derated).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub estimate_ns: Option<f64>,
+    /// The estimate's worst error in % found by leaving data-sheet columns out (None: exact).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub model_err_pct: Option<f64>,
 }
@@ -133,6 +138,9 @@ pub enum HoldStatus {
     /// Some minimum delay on the earliest path is not in the data sheet: counted as 0 ns, so
     /// the slack is a lower bound and the check is not passed silently.
     UnknownMin,
+    /// A half-cycle path without a clock: it passes when the opposite phase lasts at least
+    /// `passes_if_phase_ns` (unknown minima counted as 0 ns, so the condition is safe).
+    PassesIf,
 }
 
 /// Hold check at one capture for paths from one edge type.
@@ -146,10 +154,100 @@ pub struct HoldCheck {
     pub early_arrival_ns: f64,
     /// Hold time required.
     pub hold_ns: f64,
-    /// early arrival + opposite phase (when a clock is given) − capture clock latency − hold.
+    /// early arrival + opposite phase (when a clock is given) − capture clock latency − hold
+    /// (+ common clock credit when asked for).
     pub slack_ns: f64,
     /// Verdict.
     pub status: HoldStatus,
+    /// For a half-cycle path without a clock: the shortest opposite phase with which it passes.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub passes_if_phase_ns: Option<f64>,
+    /// The phase that gives the credit ("low" for paths of the high phase, and the reverse).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub credit_phase: Option<Phase>,
+    /// Common clock path credit taken, ns (0 unless asked for).
+    pub common_clock_credit_ns: f64,
+}
+
+/// What sets a phase's requirement.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq, Eq)]
+#[serde(rename_all = "kebab-case")]
+pub enum LimitKind {
+    /// The slowest signal path.
+    Path,
+    /// A clocked part's minimum clock pulse width.
+    PulseWidth,
+    /// A clocked part's guaranteed maximum clock frequency.
+    PartFmax,
+    /// Nothing constrains the phase.
+    None,
+}
+
+/// One phase's requirement: the slowest path against the clocked parts' own limit.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct PhaseLimit {
+    /// Which one binds.
+    pub binds: LimitKind,
+    /// What the slowest path needs, ns (0 when none).
+    pub path_ns: f64,
+    /// The largest clocked-part limit on this phase, ns (pulse width, or 1/f_max for the
+    /// period; 0 when none).
+    pub part_ns: f64,
+    /// Which part and limit that is, e.g. "U23 74HC574 CLK pulse width".
+    #[serde(skip_serializing_if = "String::is_empty")]
+    pub part: String,
+}
+
+impl PhaseLimit {
+    /// The requirement: the larger of the path and the part limit.
+    pub fn required_ns(&self) -> f64 {
+        self.path_ns.max(self.part_ns)
+    }
+
+    /// The binding limit in words.
+    pub fn words(&self) -> String {
+        match self.binds {
+            LimitKind::Path => "the slowest path".to_string(),
+            LimitKind::PulseWidth => self.part.clone(),
+            LimitKind::PartFmax => format!("{} (part f_max)", self.part),
+            LimitKind::None => "nothing".to_string(),
+        }
+    }
+}
+
+/// The requirement of each phase with what sets it.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct PhaseLimits {
+    /// Low phase.
+    pub low: PhaseLimit,
+    /// High phase.
+    pub high: PhaseLimit,
+    /// Full period.
+    pub period: PhaseLimit,
+}
+
+/// The budget again with the model's estimate of every value, beside the guaranteed one.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Estimate {
+    /// L by the estimate.
+    pub low_required_ns: f64,
+    /// H by the estimate.
+    pub high_required_ns: f64,
+    /// P by the estimate.
+    pub period_required_ns: f64,
+    /// d* by the estimate.
+    pub best_duty: f64,
+    /// f_max at d* by the estimate.
+    pub fmax_best_duty_hz: f64,
+    /// f_max at 50 % duty by the estimate.
+    pub fmax_50_hz: f64,
+    /// The estimate's error range in % (most optimistic, most pessimistic) over every value
+    /// that lies off the data-sheet columns, from leaving columns out; None when all lie on one.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub error_low_pct: Option<f64>,
+    /// See `error_low_pct`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub error_high_pct: Option<f64>,
 }
 
 /// The clock a budget is held against.
@@ -188,6 +286,10 @@ pub struct ClockSlack {
     pub period_slack_pct: Option<f64>,
     /// Whether every phase has slack ≥ 0.
     pub meets: bool,
+    /// For each short phase, what it is short of, e.g. "low phase: U23 74HC574 CLK (minimum
+    /// pulse width)".
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub short_of: Vec<String>,
 }
 
 /// f_max at a chosen duty.
@@ -214,6 +316,15 @@ pub struct ModelNote {
     /// Largest error of the fit at a data-sheet column, %.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub fit_max_pct: Option<f64>,
+    /// The estimate between two columns, each column left out in turn.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub estimate_between: Option<ErrStats>,
+    /// The estimate above a row's highest column, found the same way.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub estimate_above: Option<ErrStats>,
+    /// The estimate below a row's lowest column (used only where nothing is guaranteed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub estimate_below: Option<ErrStats>,
 }
 
 /// Everything the budget says about a design at one operating point.
@@ -235,6 +346,8 @@ pub struct Budget {
     pub high_required_ns: f64,
     /// P: the period must last at least this long.
     pub period_required_ns: f64,
+    /// What sets L, H and P: the slowest path, a part's pulse width or its f_max.
+    pub limits: PhaseLimits,
     /// d* = H/(L+H): the duty that allows the shortest period.
     pub best_duty: f64,
     /// T_min at d*.
@@ -257,8 +370,19 @@ pub struct Budget {
     pub endpoints: Vec<Endpoint>,
     /// Every hold check.
     pub holds: Vec<HoldCheck>,
-    /// False when any part runs outside its data sheet's supply or temperature range.
+    /// The same budget by the model's estimate (not guaranteed).
+    pub estimate: Estimate,
+    /// False when any part runs outside its data sheet's supply or temperature range, or where
+    /// no data-sheet column covers its conditions.
     pub in_spec: bool,
+    /// True when every value is covered by a data-sheet column (the budget is a guarantee).
+    pub guaranteed: bool,
+    /// The parts (reference and type) outside their data sheets' supply or temperature ranges.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub out_of_spec_parts: Vec<String>,
+    /// The parts (reference and type) with a value no data-sheet column covers.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub not_guaranteed_parts: Vec<String>,
     /// Out-of-spec conditions and other caveats, one sentence each.
     pub warnings: Vec<String>,
     /// Voltage models used.
@@ -284,4 +408,24 @@ pub struct SweepPoint {
     pub fmax_best_duty_hz: f64,
     /// Whether every part is inside its data sheet at this supply.
     pub in_spec: bool,
+    /// Whether every value at this supply is covered by a data-sheet column.
+    pub guaranteed: bool,
+    /// f_max at 50 % duty by the estimate.
+    pub estimate_fmax_50_hz: f64,
+    /// f_max at d* by the estimate.
+    pub estimate_fmax_best_duty_hz: f64,
+    /// What sets L, H and P here.
+    pub binds: [LimitKind; 3],
+    /// The parts (reference and type) outside their data sheets' ranges here.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub out_of_spec_parts: Vec<String>,
+    /// The parts (reference and type) with a value no data-sheet column covers here.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub not_guaranteed_parts: Vec<String>,
+    /// Whether the clock asked for fits at this supply (absent without a clock).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub clock_meets: Option<bool>,
+    /// The budget's warnings at this supply (a renderer prints each once for the whole sweep).
+    #[serde(skip)]
+    pub warnings: Vec<String>,
 }
