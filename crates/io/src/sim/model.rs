@@ -282,7 +282,7 @@ impl BenchModel {
                 self.stall_periods
             ));
         }
-        if !(self.analog_rate_hz <= MAX_ANALOG_RATE_HZ) {
+        if self.analog_rate_hz.is_nan() || self.analog_rate_hz > MAX_ANALOG_RATE_HZ {
             return Err(format!(
                 "the analog sample rate must be at most {MAX_ANALOG_RATE_HZ} Hz per rail, got {}",
                 self.analog_rate_hz
@@ -373,7 +373,8 @@ mod validate_tests {
     /// a clock its tick cannot show are refused, naming the flag.
     #[test]
     fn impossible_sessions_are_refused_with_the_flag() {
-        let cases: Vec<(Box<dyn Fn(&mut BenchModel)>, &str)> = vec![
+        type Case = (Box<dyn Fn(&mut BenchModel)>, &'static str);
+        let cases: Vec<Case> = vec![
             (Box::new(|m| m.drift_ppm = 1e12), "--drift-ppm"),
             (Box::new(|m| m.drift_ppm = f64::NAN), "--drift-ppm"),
             (Box::new(|m| m.stall_periods = -5.0), "--stall-periods"),
