@@ -16,6 +16,7 @@ mod lines;
 mod observe;
 mod onset;
 mod rails;
+mod series;
 mod snapshot;
 mod stats;
 
@@ -26,5 +27,6 @@ pub use ingest::{BreakCause, Count, Event, Sample};
 pub use lines::{LineEvent, LineSnapshot};
 pub use observe::{NoObserver, Observer};
 pub use rails::{RailConfig, RailSnapshot, Sag};
+pub use series::{INTERVAL_S, MAX_POINTS, Series, SeriesPoint};
 pub use snapshot::{FaultOnset, Snapshot, Trust, Window};
 pub use stats::DevHistogram;

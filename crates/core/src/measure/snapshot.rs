@@ -6,6 +6,7 @@ use serde::Serialize;
 use super::clock::{ClockSnapshot, Glitch, Stall};
 use super::lines::LineSnapshot;
 use super::rails::{RailSnapshot, Sag};
+use super::series::Series;
 use crate::probe::{LineRole, ProbeDesc};
 
 /// The machine failed: the fault line rose. Figures at that moment.
@@ -108,6 +109,8 @@ pub struct Snapshot {
     pub sag_events: Vec<(String, Sag)>,
     /// Failures seen (fault line rising), oldest first.
     pub fault_onsets: Vec<FaultOnset>,
+    /// The window's time-resolved figures, interval by interval.
+    pub series: Series,
     /// Trust counters.
     pub trust: Trust,
 }

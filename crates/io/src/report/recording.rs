@@ -43,6 +43,8 @@ pub struct ReportDoc<'a> {
     pub glitch_events: &'a [slackmeter_core::measure::Glitch],
     /// Sags (most recent).
     pub sag_events: &'a [(String, slackmeter_core::measure::Sag)],
+    /// The session interval by interval.
+    pub series: &'a slackmeter_core::measure::Series,
 }
 
 /// Build the JSON document.
@@ -69,6 +71,7 @@ pub fn doc<'a>(
         damage: &sum.damage,
         glitch_events: &snap.glitch_events,
         sag_events: &snap.sag_events,
+        series: &snap.series,
     }
 }
 
