@@ -141,7 +141,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  high time     mean {}, WORST {} (± {}, cycle {}, at {})",
+        "  high time     mean {}, worst high {} (± {}, cycle {}, at {})",
         opt_ns(c.high_mean_ns),
         opt_ns(c.high_min_ns),
         ns(c.resolution_ns),
@@ -150,7 +150,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  low time      mean {}, WORST {} (± {}, cycle {}, at {})",
+        "  low time      mean {}, worst low {} (± {}, cycle {}, at {})",
         opt_ns(c.low_mean_ns),
         opt_ns(c.low_min_ns),
         ns(c.resolution_ns),
@@ -222,31 +222,27 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     }
 }
 
-/// The full analysis as text (Markdown when `markdown`).
+/// The full analysis as text, with the window analysed in words (`window`).
 pub fn render(
     file: &str,
     header: &Header,
     snap: &Snapshot,
     sum: &ReplaySummary,
-    markdown: bool,
+    window: &str,
 ) -> String {
     let mut out = String::new();
-    let h1 = if markdown { "# " } else { "" };
-    let h2 = if markdown { "\n## " } else { "\n" };
-    let _ = writeln!(out, "{h1}Recording {file}");
+    let _ = writeln!(out, "Recording {file}");
     let _ = writeln!(
         out,
         "source {}, {:.1} s, written by {} on {}",
         header.source, sum.duration_s, header.tool, header.host
     );
+    let _ = writeln!(out, "window analysed: {window}");
     for n in &header.notes {
         let _ = writeln!(out, "note: {n}");
     }
     if let Some(p) = &snap.probe {
         let _ = writeln!(out, "probe {}, tick {}", p.firmware, ns(p.tick_ns));
-    }
-    if markdown {
-        out.push_str("\n```text\n");
     }
     for c in &snap.clocks {
         let _ = writeln!(out);
@@ -332,9 +328,5 @@ pub fn render(
             );
         }
     }
-    if markdown {
-        out.push_str("```\n");
-    }
-    let _ = h2;
     out
 }
