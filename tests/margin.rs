@@ -74,12 +74,12 @@ fn hand_computed_slack() {
     );
     assert!(
         m.verdict_text
-            .contains("beyond the worst-case budget, inside the typical one")
+            .starts_with("Beyond the worst-case budget, inside the typical one")
     );
     // 2.5 MHz at 30 %: low 280 ns, beyond both
     let m = at_5v(snapshot_of(400, 120, 200));
     assert_eq!(m.verdict, Verdict::BeyondTypical);
-    assert!(m.verdict_text.starts_with("no margin left"));
+    assert!(m.verdict_text.starts_with("No margin left"));
 }
 
 #[test]

@@ -30,11 +30,11 @@ pub struct ReportArgs {
     pub markdown: bool,
     /// Analyse from this time into the recording (host time since it started), e.g. 5s or
     /// 500ms; a plain number is seconds.
-    #[arg(long, value_name = "TIME", value_parser = args::seconds_into)]
+    #[arg(long, value_name = "TIME", value_parser = args::seconds_into, allow_hyphen_values = true)]
     pub from: Option<f64>,
     /// Analyse up to this time into the recording (host time since it started), e.g. 12.5s;
     /// a plain number is seconds.
-    #[arg(long, value_name = "TIME", value_parser = args::seconds_into)]
+    #[arg(long, value_name = "TIME", value_parser = args::seconds_into, allow_hyphen_values = true)]
     pub to: Option<f64>,
     /// Also write SVG plots into this folder (histograms, TIE, rails over time).
     #[arg(long, value_name = "DIR")]
@@ -59,9 +59,8 @@ pub struct ReportArgs {
 /// The window asked for, checked against the recording: refused when reversed or outside it.
 fn check_window(a: &ReportArgs, sum: &ReplaySummary, file: &str) -> CliResult<String> {
     let end = sum.duration_s;
-    let refuse = |what: String, help: String| {
-        Err(CliError::input(miette!(help = help, "{file}: {what}")))
-    };
+    let refuse =
+        |what: String, help: String| Err(CliError::input(miette!(help = help, "{file}: {what}")));
     if let Some(from) = a.from
         && (sum.from_at_s.is_none() || from >= end)
     {
@@ -208,7 +207,10 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         writeln!(out).map_err(stdout)?;
     } else if a.markdown {
         let mut text = report::markdown::render(&file, header, snap, sum, &window);
-        text.push_str(&report::series::render_markdown(&snap.series, margin.as_ref()));
+        text.push_str(&report::series::render_markdown(
+            &snap.series,
+            margin.as_ref(),
+        ));
         if let Some((m, d)) = judged {
             text.push_str(&report::margin::render_markdown(m, &d.name));
         }

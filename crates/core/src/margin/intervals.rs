@@ -2,75 +2,12 @@
 //! at that interval's rail minima; which interval a moving clock is judged at; the highest
 //! frequency that ran clean.
 
-use serde::Serialize;
-
 use crate::budget::{Corner, Design};
 use crate::measure::{Series, SeriesPoint, Snapshot};
 
-use super::MarginConfig;
 use super::judge::Measured;
 use super::supply::{Budgets, supply};
-
-/// Why an interval is not clean.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Trouble {
-    /// Glitches on the clock in it.
-    Glitches,
-    /// The clock stopped in it.
-    Stall,
-    /// The fault line rose in it.
-    FaultLine,
-    /// A rail was below its rated minimum in it.
-    RailBelowMinimum,
-    /// It lies after the first failure.
-    AfterFailure,
-}
-
-/// One interval's slack against the worst-case budget.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct IntervalSlack {
-    /// Start, s of probe time.
-    pub from_s: f64,
-    /// End, s.
-    pub to_s: f64,
-    /// Middle of its observed cycles, s.
-    pub at_s: f64,
-    /// Frequency, Hz.
-    pub frequency_hz: f64,
-    /// Its uncertainty (k = 2.5), Hz.
-    pub frequency_uncertainty_hz: f64,
-    /// Duty.
-    pub duty: f64,
-    /// Lowest rail in it, V (the supply the budget was derated at).
-    pub vcc_v: f64,
-    /// Worst low time − required, ns.
-    pub low_slack_ns: f64,
-    /// Worst high time − required, ns.
-    pub high_slack_ns: f64,
-    /// Worst period (bound: worst high + worst low) − required, ns.
-    pub period_slack_ns: f64,
-    /// The smallest slack in % of its requirement.
-    pub worst_slack_pct: Option<f64>,
-    /// The smallest slack's phase.
-    pub worst_phase: &'static str,
-    /// Bound on each slack (± one tick), ns.
-    pub uncertainty_ns: f64,
-    /// What keeps it from being clean (empty: clean).
-    pub trouble: Vec<Trouble>,
-}
-
-impl IntervalSlack {
-    /// No problem in it.
-    pub fn clean(&self) -> bool {
-        self.trouble.is_empty()
-    }
-
-    /// Every phase's slack is positive as measured.
-    pub fn positive(&self) -> bool {
-        self.low_slack_ns > 0.0 && self.high_slack_ns > 0.0 && self.period_slack_ns > 0.0
-    }
-}
+use super::types::{Basis, HighestClean, IntervalSlack, MarginConfig, Trouble};
 
 /// The measured phases of a series point (None without clock figures).
 pub(super) fn measured(p: &SeriesPoint, tick_ns: f64) -> Option<Measured> {
@@ -144,7 +81,11 @@ pub(super) fn intervals(
             let slack = [
                 ("low", m.low_ns - b.low_required_ns, b.low_required_ns),
                 ("high", m.high_ns - b.high_required_ns, b.high_required_ns),
-                ("period", m.period_ns - b.period_required_ns, b.period_required_ns),
+                (
+                    "period",
+                    m.period_ns - b.period_required_ns,
+                    b.period_required_ns,
+                ),
             ];
             let worst = slack
                 .iter()
@@ -189,31 +130,11 @@ pub(super) fn intervals(
         .collect()
 }
 
-/// Which stretch of the session a margin judges.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Basis {
-    /// The whole window (a steady clock, or no time-resolved figures).
-    Session,
-    /// The last clean interval before the first failure (a moving clock that failed).
-    LastCleanBeforeFailure,
-    /// The interval with the least slack (a moving clock that did not fail).
-    LeastSlack,
-}
-
-/// The stretch judged.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct Judged {
-    /// Why this stretch.
-    pub basis: Basis,
-    /// Its start, s of probe time.
-    pub from_s: f64,
-    /// Its end, s.
-    pub to_s: f64,
-}
-
 /// The interval a moving clock is judged at (index into `iv`).
-pub(super) fn judged_interval(iv: &[IntervalSlack], failure_s: Option<f64>) -> Option<(usize, Basis)> {
+pub(super) fn judged_interval(
+    iv: &[IntervalSlack],
+    failure_s: Option<f64>,
+) -> Option<(usize, Basis)> {
     match failure_s {
         Some(_) => iv
             .iter()
@@ -232,27 +153,13 @@ pub(super) fn judged_interval(iv: &[IntervalSlack], failure_s: Option<f64>) -> O
     }
 }
 
-/// The highest frequency that ran clean (no problem, every slack positive), with its
-/// uncertainty: the interval's own, and the frequency that the deciding phase's ± bound
-/// stands for (a phase time scales as 1/f, so δf/f = δt/t).
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct HighestClean {
-    /// Frequency, Hz.
-    pub frequency_hz: f64,
-    /// Its uncertainty, Hz.
-    pub uncertainty_hz: f64,
-    /// When, s of probe time.
-    pub at_s: f64,
-}
-
+/// The highest clean interval's frequency and its uncertainty (see [`HighestClean`]).
 pub(super) fn highest_clean(iv: &[IntervalSlack], series: &Series) -> Option<HighestClean> {
     let best = iv
         .iter()
         .filter(|i| i.clean() && i.positive())
         .max_by(|a, b| a.frequency_hz.total_cmp(&b.frequency_hz))?;
-    let point = series
-        .clock_points()
-        .find(|p| p.from_s == best.from_s)?;
+    let point = series.clock_points().find(|p| p.from_s == best.from_s)?;
     let phase_ns = match best.worst_phase {
         "high" => point.high_min_ns,
         "period" => point.period_min_ns,

@@ -15,133 +15,26 @@ mod judge;
 mod measured;
 mod problems;
 mod supply;
+mod types;
 mod words;
 
-use std::collections::BTreeMap;
-
-use serde::Serialize;
-
 use crate::budget::{ClockInput, Corner, Design, Library, solve};
-use crate::measure::{ClockSnapshot, FaultOnset, Snapshot};
+use crate::measure::{ClockSnapshot, Snapshot};
 
-pub use intervals::{Basis, HighestClean, IntervalSlack, Judged, Trouble};
 pub use judge::{Against, PhaseSlack, Sign, Verdict};
 pub use problems::{Problem, ProblemKind};
+pub use types::{
+    Basis, Failure, HighestClean, IntervalSlack, Judged, Margin, MarginConfig, MarginError, Trouble,
+};
 
 use judge::{Measured, against};
 use supply::{Budgets, supply};
 
-/// Settings of the margin verdict.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct MarginConfig {
-    /// Required margin over the budget, as a fraction of each phase's requirement
-    /// (default 0.20 — common practice, no source).
-    pub guard_band: f64,
-    /// Temperature to derate at (the design's when None).
-    pub temp_c: Option<f64>,
-    /// Supply to use instead of the measured rails.
-    pub vcc_v: Option<f64>,
-}
-
-impl Default for MarginConfig {
-    fn default() -> Self {
-        MarginConfig {
-            guard_band: 0.20,
-            temp_c: None,
-            vcc_v: None,
-        }
-    }
-}
-
-/// The measured failure point and the margin to it.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct Failure {
-    /// The onset as measured.
-    pub onset: FaultOnset,
-    /// Headroom of the operating clock to the onset: f_onset / f_operating − 1.
-    pub headroom: Option<f64>,
-}
-
-/// The margin of a measured clock against a design's budget.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct Margin {
-    /// Supply the budget was derated at (the lowest measured rail unless given), V.
-    pub vcc_used_v: f64,
-    /// Where that supply came from.
-    pub vcc_source: String,
-    /// Per-section supply used, V.
-    pub section_vcc_v: BTreeMap<String, f64>,
-    /// Temperature used.
-    pub temp_c: f64,
-    /// The operating clock judged, Hz (the same as `operating_hz`).
-    pub clock_hz: f64,
-    /// The operating clock judged: the last clean interval before a failure, the interval
-    /// with the least slack, or the steady clock, Hz.
-    pub operating_hz: f64,
-    /// Its uncertainty (k = 2.5), Hz.
-    pub operating_uncertainty_hz: Option<f64>,
-    /// Duty of the stretch judged.
-    pub duty: f64,
-    /// Which stretch was judged.
-    pub judged: Judged,
-    /// The clock's frequency moved by more than its uncertainty allows: whole-window
-    /// frequency, jitter and TIE describe the spread, not one clock.
-    pub moving: bool,
-    /// Against the guaranteed (max corner) budget.
-    pub worst_case: Against,
-    /// Against the typical budget.
-    pub typical: Against,
-    /// Low-phase slack against the worst-case budget, ns.
-    pub low_slack_ns: f64,
-    /// High-phase slack against the worst-case budget, ns.
-    pub high_slack_ns: f64,
-    /// Period slack against the worst-case budget, ns.
-    pub period_slack_ns: f64,
-    /// The verdict.
-    pub verdict: Verdict,
-    /// What the slack alone says (never `failed`).
-    pub slack_verdict: Verdict,
-    /// The verdict in words: one paragraph with its numbers, the problems and the guard band.
-    pub verdict_text: String,
-    /// What else the measurement showed.
-    pub problems: Vec<Problem>,
-    /// Guard band asked for.
-    pub guard_band: f64,
-    /// Every worst-case phase clears the guard band beyond its bound.
-    pub guard_band_met: bool,
-    /// The highest frequency of any interval with no problem and every slack positive, Hz.
-    pub highest_clean_hz: Option<f64>,
-    /// Its uncertainty, Hz.
-    pub highest_clean_uncertainty_hz: Option<f64>,
-    /// When it ran, s of probe time.
-    pub highest_clean_at_s: Option<f64>,
-    /// Failure onset frequency when the recording holds a failure, Hz.
-    pub fail_onset_hz: Option<f64>,
-    /// Headroom from the operating point to the failure onset (fraction).
-    pub headroom: Option<f64>,
-    /// The failure, when present.
-    pub failure: Option<Failure>,
-    /// The mean low and high times stood in for the worst cycles (a counting probe).
-    pub mean_phases: bool,
-    /// Which measured figures were used, and caveats.
-    pub notes: Vec<String>,
-    /// Each interval's slack against the worst-case budget at its own rails.
-    pub intervals: Vec<IntervalSlack>,
-}
-
-/// Why no margin can be given.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum MarginError {
-    /// The snapshot has no clock.
-    #[error("the measurement has no clock to judge")]
-    NoClock,
-    /// The clock has no period figures yet.
-    #[error("the clock has no measured cycles yet")]
-    NoCycles,
-}
-
 /// The whole window's worst phases (or the mean phases a counting probe stands in with).
-fn session_phases(c: &ClockSnapshot, notes: &mut Vec<String>) -> Result<(Measured, bool), MarginError> {
+fn session_phases(
+    c: &ClockSnapshot,
+    notes: &mut Vec<String>,
+) -> Result<(Measured, bool), MarginError> {
     // a counting probe gives the frequency only: its mean period stands in
     let period_mean = c
         .period_mean_ns
@@ -206,8 +99,7 @@ pub fn evaluate(
     // interval by interval, and which stretch is judged
     let failure_s = intervals::failure_s(snap);
     let iv = intervals::intervals(snap, design, cfg, &mut budgets, failure_s);
-    let moving =
-        measured::moving(c).unwrap_or_else(|| intervals::series_moves(&snap.series));
+    let moving = measured::moving(c).unwrap_or_else(|| intervals::series_moves(&snap.series));
     let picked = if moving {
         intervals::judged_interval(&iv, failure_s)
     } else {

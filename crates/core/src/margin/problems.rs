@@ -141,7 +141,10 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
             Some(o.at_s),
             match rises.len() {
                 1 => format!("the fault line rose at {:.3} s", o.at_s),
-                n => format!("the fault line rose {n} times, the first at {:.3} s", o.at_s),
+                n => format!(
+                    "the fault line rose {n} times, the first at {:.3} s",
+                    o.at_s
+                ),
             },
         ));
     }
@@ -162,7 +165,8 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
             continue;
         }
         let idx = snap.series.rail_index(&r.name).unwrap_or(i);
-        let below = |p: &crate::measure::SeriesPoint| p.rail_below_s.get(idx).is_some_and(|b| *b > 0.0);
+        let below =
+            |p: &crate::measure::SeriesPoint| p.rail_below_s.get(idx).is_some_and(|b| *b > 0.0);
         // stretches: runs of intervals below the minimum
         let stretches = pts
             .iter()
@@ -177,7 +181,8 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
             format!(
                 ", lowest {:.3} V{}",
                 m / 1000.0,
-                r.min_at_s.map_or(String::new(), |t| format!(" at {t:.3} s"))
+                r.min_at_s
+                    .map_or(String::new(), |t| format!(" at {t:.3} s"))
             )
         });
         out.push(Problem {

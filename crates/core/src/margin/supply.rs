@@ -5,7 +5,7 @@ use std::collections::HashMap;
 
 use crate::budget::{Budget, Corner, Design, Library, OperatingPoint, solve};
 
-use super::MarginConfig;
+use super::types::MarginConfig;
 
 /// An operating point from measured rail minima, and where it came from.
 pub(super) struct Supply {

@@ -5,7 +5,8 @@
 use crate::measure::ClockSnapshot;
 use crate::units::{hz, ns};
 
-use super::{Against, Basis, Margin, Sign, Verdict};
+use super::judge::{Against, Sign, Verdict};
+use super::types::{Basis, Margin};
 
 /// A slack as the margin table prints it.
 fn signed_ns(v: f64) -> String {
@@ -169,10 +170,7 @@ pub(super) fn paragraph(m: &Margin, c: &ClockSnapshot) -> String {
     });
     out.push(where_sentence(m, c));
     if m.verdict == Verdict::Failed {
-        out.push(format!(
-            "The slack alone says {}.",
-            m.slack_verdict.words()
-        ));
+        out.push(format!("The slack alone says {}.", m.slack_verdict.words()));
     }
     out.push(slack_sentence(m));
     out.push(guard_sentence(m));
@@ -185,7 +183,9 @@ pub(super) fn paragraph(m: &Margin, c: &ClockSnapshot) -> String {
     if !others.is_empty() {
         out.push(format!("Also: {}.", others.join("; ")));
     } else if failures.is_empty() {
-        out.push("No glitch, stall, fault, stopped heartbeat or rail below its minimum was seen.".into());
+        out.push(
+            "No glitch, stall, fault, stopped heartbeat or rail below its minimum was seen.".into(),
+        );
     }
     if m.moving || m.judged.basis != Basis::Session {
         out.push(match (m.highest_clean_hz, m.highest_clean_uncertainty_hz) {

@@ -59,7 +59,9 @@ fn head(m: &Margin) -> [&'static str; 6] {
 pub fn judged_words(m: &Margin) -> String {
     let at = format!("{:.3}–{:.3} s", m.judged.from_s, m.judged.to_s);
     match m.judged.basis {
-        Basis::Session if m.moving => format!("the whole window {at} (a moving clock without intervals of its own)"),
+        Basis::Session if m.moving => {
+            format!("the whole window {at} (a moving clock without intervals of its own)")
+        }
         Basis::Session => format!("the whole window {at} (a steady clock)"),
         Basis::LastCleanBeforeFailure => {
             format!("the last clean interval before the failure, {at} (a moving clock)")
@@ -104,7 +106,11 @@ fn facts(m: &Margin) -> Vec<String> {
         v.push(format!(
             "problem ({}{}): {}",
             p.kind.name(),
-            if p.kind.is_failure() { ", a failure" } else { "" },
+            if p.kind.is_failure() {
+                ", a failure"
+            } else {
+                ""
+            },
             p.detail
         ));
     }
@@ -144,7 +150,12 @@ pub fn render(m: &Margin, design: &str) -> String {
     for f in facts(m) {
         let _ = writeln!(out, "  {f}");
     }
-    let _ = writeln!(out, "\n  VERDICT ({}): {}", m.verdict.name(), m.verdict_text);
+    let _ = writeln!(
+        out,
+        "\n  VERDICT ({}): {}",
+        m.verdict.name(),
+        m.verdict_text
+    );
     out
 }
 
@@ -152,7 +163,12 @@ pub fn render(m: &Margin, design: &str) -> String {
 pub fn render_markdown(m: &Margin, design: &str) -> String {
     let mut out = String::new();
     let _ = writeln!(out, "\n## Margin against {design}\n");
-    let _ = writeln!(out, "**Verdict: `{}`.** {}\n", m.verdict.name(), m.verdict_text);
+    let _ = writeln!(
+        out,
+        "**Verdict: `{}`.** {}\n",
+        m.verdict.name(),
+        m.verdict_text
+    );
     let _ = writeln!(out, "- judged on {}", judged_words(m));
     let _ = writeln!(out, "- {}", clock_line(m));
     for (s, v) in &m.section_vcc_v {

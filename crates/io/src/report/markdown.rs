@@ -262,7 +262,11 @@ pub fn render(
                 ]
             })
             .collect();
-        table::markdown(&mut out, &["line", "role", "edges", "rate", "level now"], &rows);
+        table::markdown(
+            &mut out,
+            &["line", "role", "edges", "rate", "level now"],
+            &rows,
+        );
     }
     let t = &snap.trust;
     let _ = writeln!(out, "\n## Trust");
@@ -274,7 +278,10 @@ pub fn render(
             vec!["lost (sequence gaps)".into(), t.lost_frames.to_string()],
             vec!["CRC errors".into(), t.crc_errors.to_string()],
             vec!["other rejects".into(), t.other_rejects.to_string()],
-            vec!["probe drops, edges".into(), t.probe_edges_dropped.to_string()],
+            vec![
+                "probe drops, edges".into(),
+                t.probe_edges_dropped.to_string(),
+            ],
             vec![
                 "probe drops, samples".into(),
                 t.probe_samples_dropped.to_string(),

@@ -85,9 +85,10 @@ fn row(points: &[SeriesPoint], slack: &[&IntervalSlack], m: Option<&Margin>) -> 
         if m.failure.as_ref().is_some_and(|f| inside(f.onset.at_s)) {
             r.notes.push("failure");
         } else if !slack.is_empty()
-            && slack
-                .iter()
-                .all(|i| i.trouble.contains(&slackmeter_core::margin::Trouble::AfterFailure))
+            && slack.iter().all(|i| {
+                i.trouble
+                    .contains(&slackmeter_core::margin::Trouble::AfterFailure)
+            })
         {
             r.notes.push("after the failure");
         }
@@ -164,7 +165,13 @@ fn cells(r: &Row, series: &Series) -> Vec<String> {
 }
 
 fn header(with_slack: bool) -> Vec<&'static str> {
-    let mut h = vec!["time", "frequency", "worst high", "worst low", "lowest rail"];
+    let mut h = vec![
+        "time",
+        "frequency",
+        "worst high",
+        "worst low",
+        "lowest rail",
+    ];
     if with_slack {
         h.extend(["low slack", "high slack", "period slack"]);
     }

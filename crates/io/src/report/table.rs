@@ -44,9 +44,16 @@ pub fn markdown(out: &mut String, head: &[&str], rows: &[Vec<String>]) {
     let _ = writeln!(
         out,
         "| {} |",
-        head.iter().map(|h| md_cell(h)).collect::<Vec<_>>().join(" | ")
+        head.iter()
+            .map(|h| md_cell(h))
+            .collect::<Vec<_>>()
+            .join(" | ")
     );
-    let _ = writeln!(out, "|{}", head.iter().map(|_| " --- |").collect::<String>());
+    let _ = writeln!(
+        out,
+        "|{}",
+        head.iter().map(|_| " --- |").collect::<String>()
+    );
     for r in rows {
         let cells: Vec<String> = r.iter().map(|c| md_cell(c)).collect();
         let _ = writeln!(out, "| {} |", cells.join(" | "));
