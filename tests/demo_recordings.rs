@@ -65,6 +65,10 @@ fn steady_run() {
     assert_eq!(d["lost_frames"], 0);
     assert_eq!(d["crc_errors"], 0);
     assert_eq!(d["recording"]["design"]["file"], "designs/larkspur-8.toml");
+    assert_eq!(
+        d["movement"]["moving"], false,
+        "a steady clock (5 ppm of drift)"
+    );
 }
 
 #[test]
@@ -98,6 +102,26 @@ fn sweep_to_failure() {
         hb["since_change_s"].as_f64().unwrap() > 1.0,
         "the heartbeat stopped"
     );
+    // a moving clock: the whole-window figures are its spread; against the moving mean its
+    // jitter is the virtual probe's 1.5 ns (within 15 %)
+    let mv = &d["movement"];
+    assert_eq!(mv["moving"], true);
+    assert!(mv["low_hz"].as_f64().unwrap() < 1.01e6 && mv["high_hz"].as_f64().unwrap() > 5.9e6);
+    let j = mv["period_jitter_detrended_ns"].as_f64().unwrap();
+    assert!((j - 1.5).abs() <= 0.15 * 1.5, "{j}");
+    assert!(
+        c["period_jitter_rms_ns"].as_f64().unwrap() > 100.0,
+        "the sweep's spread"
+    );
+    let text = String::from_utf8_lossy(&run(&["report", &demo("larkspur-sweep.smrec")]).stdout)
+        .into_owned();
+    for part in [
+        "[whole-window spread of a moving clock]",
+        "moving clock  1.000 MHz … 5.985 MHz",
+        "detrended jitter 1.49",
+    ] {
+        assert!(text.contains(part), "{part}: {text}");
+    }
 }
 
 #[test]
@@ -169,7 +193,19 @@ fn report_judges_against_the_embedded_design() {
     assert_eq!(m["worst_case"]["phases"][0]["sign"], "clears");
     assert_eq!(m["guard_band_met"], false);
     assert!(m["fail_onset_hz"].is_null());
-    assert_eq!(m["problems"].as_array().unwrap().len(), 0);
+    // the one problem: the probe timed bursts, about 1 % of the cycles (4000 edges per 100 ms
+    // of a 2 MHz clock: 2000 of 200 000 cycles)
+    let problems = m["problems"].as_array().unwrap();
+    assert_eq!(problems.len(), 1, "{problems:?}");
+    assert_eq!(problems[0]["kind"], "sampled-coverage");
+    assert!(
+        problems[0]["detail"]
+            .as_str()
+            .unwrap()
+            .contains("1.0 % of the clock's"),
+        "{}",
+        problems[0]["detail"]
+    );
     assert_eq!(m["moving"], false);
     assert_eq!(m["judged"]["basis"], "session");
     assert!((m["operating_hz"].as_f64().unwrap() - 2.0e6).abs() < 50.0);
@@ -487,4 +523,44 @@ fn failures_names_a_cut_file_and_keeps_the_whole_ones() {
     assert!(err.contains("cut off") && err.contains("left out"), "{err}");
     let rows: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(rows.as_array().unwrap().len(), 1);
+}
+
+/// The rows of recordings/README.md name the verdict each report gives, and its figures.
+#[test]
+fn readme_rows_say_what_the_reports_say() {
+    let readme = std::fs::read_to_string(demo("README.md")).unwrap();
+    for (name, figures) in [
+        (
+            "larkspur-steady.smrec",
+            &["+5.8 ns", "+64.8 ns", "+248.8 ns", "1.0 % of the clock's"][..],
+        ),
+        ("larkspur-sagging.smrec", &["17 glitches"][..]),
+        (
+            "larkspur-sweep.smrec",
+            &[
+                "1.000 MHz … 5.985 MHz",
+                "2.016 MHz",
+                "2.038 MHz",
+                "+1.1 % headroom",
+                "1.867 MHz",
+            ][..],
+        ),
+    ] {
+        let row = readme
+            .lines()
+            .find(|l| l.starts_with(&format!("| `{name}` |")))
+            .unwrap_or_else(|| panic!("a row for {name}"));
+        let said = row
+            .split("Margin")
+            .nth(1)
+            .and_then(|m| m.split('`').nth(1))
+            .unwrap_or_else(|| panic!("{name}: the row names a verdict"));
+        let d = report(name);
+        assert_eq!(d["margin"]["verdict"], said, "{name}");
+        let text = String::from_utf8_lossy(&run(&["report", &demo(name)]).stdout).into_owned();
+        for f in figures {
+            assert!(row.contains(f), "{name}: the row says {f}");
+            assert!(text.contains(f), "{name}: the report says {f}: {text}");
+        }
+    }
 }

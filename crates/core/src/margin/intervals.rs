@@ -172,27 +172,3 @@ pub(super) fn highest_clean(iv: &[IntervalSlack], series: &Series) -> Option<Hig
         at_s: best.at_s,
     })
 }
-
-/// Whether the series' frequencies spread beyond what their uncertainties allow: χ²/ν of the
-/// points about their weighted mean far above 1 (four standard deviations of χ²/ν).
-pub(super) fn series_moves(series: &Series) -> bool {
-    let pts: Vec<(f64, f64)> = series
-        .clock_points()
-        .filter_map(|p| {
-            let u = p.frequency_uncertainty_hz? / crate::measure::clock::K;
-            (u > 0.0).then_some((p.frequency_hz?, u))
-        })
-        .collect();
-    if pts.len() < 3 {
-        return false;
-    }
-    let w: f64 = pts.iter().map(|(_, u)| 1.0 / (u * u)).sum();
-    let mean = pts.iter().map(|(f, u)| f / (u * u)).sum::<f64>() / w;
-    let nu = (pts.len() - 1) as f64;
-    let chi2 = pts
-        .iter()
-        .map(|(f, u)| ((f - mean) / u).powi(2))
-        .sum::<f64>()
-        / nu;
-    chi2 > 1.0 + 4.0 * (2.0 / nu).sqrt()
-}

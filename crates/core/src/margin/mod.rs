@@ -99,7 +99,7 @@ pub fn evaluate(
     // interval by interval, and which stretch is judged
     let failure_s = intervals::failure_s(snap);
     let iv = intervals::intervals(snap, design, cfg, &mut budgets, failure_s);
-    let moving = measured::moving(c).unwrap_or_else(|| intervals::series_moves(&snap.series));
+    let moving = measured::moving(c).unwrap_or_else(|| crate::measure::series_moves(&snap.series));
     let picked = if moving {
         intervals::judged_interval(&iv, failure_s)
     } else {

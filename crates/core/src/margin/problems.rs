@@ -203,7 +203,8 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
             time_s: Some(r.below_limit_s),
         });
     }
-    if let Some(share) = measured::coverage(c).filter(|s| *s < 0.999) {
+    let share = measured::coverage(c).or_else(|| measured::coverage_from_series(&snap.series, c));
+    if let Some(share) = share.filter(|s| *s < 0.99) {
         let how = measured::observation(c).map_or(String::new(), |o| format!(" ({o})"));
         out.push(Problem::new(
             ProblemKind::SampledCoverage,

@@ -116,6 +116,12 @@ pub struct Snapshot {
 }
 
 impl Snapshot {
+    /// How the first clock moved over the window, and its figures against the moving mean.
+    pub fn movement(&self) -> Option<super::spread::Movement> {
+        self.clock()
+            .map(|c| super::spread::movement(c, &self.series))
+    }
+
     /// The first clock channel's figures.
     pub fn clock(&self) -> Option<&ClockSnapshot> {
         self.clocks.first()

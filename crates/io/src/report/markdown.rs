@@ -5,7 +5,7 @@
 use std::fmt::Write;
 
 use crate::record::{Header, ReplaySummary};
-use slackmeter_core::measure::{ClockSnapshot, Snapshot};
+use slackmeter_core::measure::{ClockSnapshot, Movement, Snapshot};
 use slackmeter_core::units::{hz, ns};
 
 use super::table;
@@ -26,8 +26,35 @@ fn row(a: &str, b: String, c: String) -> Vec<String> {
     vec![a.to_string(), b, c]
 }
 
-/// One clock's figures as (figure, value, note) rows.
-fn clock_rows(c: &ClockSnapshot) -> Vec<Vec<String>> {
+/// One clock's figures as (figure, value, note) rows; a moving clock's whole-window figures
+/// are marked as a spread, and its figures against the moving mean follow them.
+fn clock_rows(c: &ClockSnapshot, movement: Option<&Movement>) -> Vec<Vec<String>> {
+    let mut r = clock_rows_of(c);
+    if let Some(m) = movement.filter(|m| m.moving) {
+        for row in &mut r {
+            let whole = ["frequency", "period jitter", "TIE"].contains(&row[0].as_str())
+                || row[0].ends_with("-cycle error");
+            if whole {
+                let note = &mut row[2];
+                *note = if note.is_empty() {
+                    super::recording::SPREAD.to_string()
+                } else {
+                    format!("{note}; {}", super::recording::SPREAD)
+                };
+            }
+        }
+        let at = r
+            .iter()
+            .position(|x| x[0] == "cycle-to-cycle")
+            .map_or(r.len(), |i| i + 1);
+        for (k, [f, v, n]) in super::recording::moving_rows(m).into_iter().enumerate() {
+            r.insert(at + k, vec![f, v, n]);
+        }
+    }
+    r
+}
+
+fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
     let q = ns(c.resolution_ns).to_string();
     let counted = if c.count_windows > 0 && c.cycles == 0 {
         format!(
@@ -191,7 +218,8 @@ pub fn render(
     if let Some(p) = &snap.probe {
         let _ = writeln!(out, "- probe {}, tick {}", p.firmware, ns(p.tick_ns));
     }
-    for c in &snap.clocks {
+    let movement = snap.movement();
+    for (i, c) in snap.clocks.iter().enumerate() {
         let _ = writeln!(
             out,
             "\n## Clock {} (channel {}, {}, tick {})",
@@ -200,7 +228,12 @@ pub fn render(
             c.method,
             ns(c.resolution_ns)
         );
-        table::markdown(&mut out, &["figure", "value", "detail"], &clock_rows(c));
+        table::markdown(
+            &mut out,
+            &["figure", "value", "detail"],
+            // the series follows the first clock
+            &clock_rows(c, movement.as_ref().filter(|_| i == 0)),
+        );
     }
     if !snap.rails.is_empty() {
         let _ = writeln!(out, "\n## Rails");
