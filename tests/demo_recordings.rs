@@ -146,6 +146,13 @@ fn plots_are_written_as_svg() {
         ("low_time_histogram.svg", "Low time histogram"),
         ("tie.svg", "Time interval error"),
         ("rail_VCC_FAR.svg", "Rail VCC_FAR over time"),
+        ("frequency_over_time.svg", "Clock frequency over time"),
+        (
+            "slack_over_time.svg",
+            "Slack against the worst-case budget over time",
+        ),
+        ("rail_minima_over_time.svg", "Rail minima over time"),
+        ("fmax_vs_supply.svg", "f_max against supply"),
     ] {
         let svg = std::fs::read_to_string(dir.join(file)).unwrap_or_else(|e| panic!("{file}: {e}"));
         assert!(
@@ -159,6 +166,78 @@ fn plots_are_written_as_svg() {
         far.contains("limit 4.50 V"),
         "the limit is labelled in words, not only by colour"
     );
+    // what each plot over time marks, in words beside the data
+    let read = |f: &str| std::fs::read_to_string(dir.join(f)).unwrap();
+    for (file, words) in [
+        (
+            "frequency_over_time.svg",
+            &["first failure (glitches)", "operating point judged"][..],
+        ),
+        (
+            "slack_over_time.svg",
+            &[
+                "zero: the budget itself",
+                "guard band 20 %",
+                "high (least per interval)",
+            ][..],
+        ),
+        (
+            "rail_minima_over_time.svg",
+            &["VCC_FAR minimum", "rated minimum 4.50 V"][..],
+        ),
+        (
+            "fmax_vs_supply.svg",
+            &[
+                "outside the rated 4.50–5.50 V",
+                "less the 20 % guard band",
+                "measured operating point ± uncertainty",
+            ][..],
+        ),
+    ] {
+        let svg = read(file);
+        for w in words {
+            assert!(svg.contains(w), "{file}: {w}");
+        }
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// The sweep's plots mark the failure onset where the fault line rose, and the f_max plot's
+/// y axis fits its curves and points instead of starting at zero.
+#[test]
+fn sweep_plots_mark_the_failure_onset() {
+    let dir = std::env::temp_dir().join(format!("slackmeter-sweep-plots-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let out = run(&[
+        "report",
+        &demo("larkspur-sweep.smrec"),
+        "--plots",
+        dir.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(3));
+    let f = std::fs::read_to_string(dir.join("frequency_over_time.svg")).unwrap();
+    assert!(
+        f.contains("failure onset (fault line) 6.260 s, 2.0384 MHz"),
+        "the onset marked"
+    );
+    assert!(f.contains("highest clean interval, 1.8668 MHz"));
+    let s = std::fs::read_to_string(dir.join("slack_over_time.svg")).unwrap();
+    assert!(s.contains("failure onset 6.260 s"));
+    let fmax = std::fs::read_to_string(dir.join("fmax_vs_supply.svg")).unwrap();
+    // axis labels of a 1.5–2.1 MHz range, not of 0–2.4 MHz
+    let labels: Vec<&str> = fmax
+        .split("</text>")
+        .filter_map(|t| t.rsplit('>').next().map(str::trim))
+        .collect();
+    assert!(
+        labels.contains(&"1.9") && labels.contains(&"2.0"),
+        "{labels:?}"
+    );
+    assert!(
+        !labels.contains(&"0.0") && !labels.contains(&"0.5"),
+        "{labels:?}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]

@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 
 use miette::miette;
 
-use super::analysis::{Analysis, analyse, budget_curves};
+use super::analysis::{Analysis, analyse, budget_curves, rated_supply};
 use super::args;
 use super::design::DesignArgs;
 use super::error::{CliError, CliResult, Outcome};
@@ -15,6 +15,7 @@ use crate::margin::{self, Margin, MarginConfig};
 use crate::measure::Window;
 use crate::record::{ReplayOptions, ReplaySummary};
 use crate::report;
+use crate::report::over_time;
 use crate::report::plots::{self, PlotCollector};
 
 /// Options of `report`.
@@ -36,7 +37,8 @@ pub struct ReportArgs {
     /// a plain number is seconds.
     #[arg(long, value_name = "TIME", value_parser = args::seconds_into, allow_hyphen_values = true)]
     pub to: Option<f64>,
-    /// Also write SVG plots into this folder (histograms, TIE, rails over time).
+    /// Also write SVG plots into this folder (histograms, TIE, rails, frequency, slack and rail
+    /// minima over time; with a design f_max against supply).
     #[arg(long, value_name = "DIR")]
     pub plots: Option<PathBuf>,
     /// The design the clock is judged against.
@@ -132,15 +134,28 @@ fn write_plots(
             })
             .collect();
         let path = dir.join("fmax_vs_supply.svg");
-        plots::fmax_vcc_svg(
-            &path,
-            &budget_curves(d, lib, m.duty, temp_c),
-            Some((m.vcc_used_v, m.clock_hz)),
-            &failure,
-        )
-        .map_err(CliError::io(path.display()))?;
+        let marks = plots::SupplyMarks {
+            operating: Some((
+                m.vcc_used_v,
+                m.operating_hz,
+                m.operating_uncertainty_hz.unwrap_or(0.0),
+            )),
+            failures: failure,
+            rated_v: rated_supply(d, lib),
+            guard_band: Some(m.guard_band),
+        };
+        plots::fmax_vcc_svg(&path, &budget_curves(d, lib, m.duty, temp_c), &marks)
+            .map_err(CliError::io(path.display()))?;
         files.push(path);
     }
+    let onset = judged
+        .and_then(|(_, m)| m.failure.as_ref().map(|f| &f.onset))
+        .or(an.snapshot.fault_onsets.first());
+    let more =
+        over_time::write(dir, &an.snapshot.series, judged.map(|j| j.1), onset).map_err(|e| {
+            CliError::runtime(miette!("cannot write plots into {}: {e}", dir.display()))
+        })?;
+    files.extend(more);
     for f in files {
         eprintln!("wrote {}", f.display());
     }

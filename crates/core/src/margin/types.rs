@@ -158,6 +158,12 @@ pub struct IntervalSlack {
     pub high_slack_ns: f64,
     /// Worst period (bound: worst high + worst low) − required, ns.
     pub period_slack_ns: f64,
+    /// What the worst-case budget at this interval's rails requires of the low phase, ns.
+    pub low_required_ns: f64,
+    /// … of the high phase, ns.
+    pub high_required_ns: f64,
+    /// … of the period, ns (0: no period requirement of its own).
+    pub period_required_ns: f64,
     /// The smallest slack in % of its requirement.
     pub worst_slack_pct: Option<f64>,
     /// The smallest slack's phase.

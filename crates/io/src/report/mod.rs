@@ -3,6 +3,7 @@
 pub mod budget;
 pub mod margin;
 pub mod markdown;
+pub mod over_time;
 pub mod plots;
 pub mod recording;
 pub mod series;
