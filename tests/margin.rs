@@ -26,6 +26,17 @@ fn snapshot_at_tick(
     high: u64,
     cycles: u64,
 ) -> slackmeter::measure::Snapshot {
+    snapshot_with_glitch(tick_hz, period, high, cycles, None)
+}
+
+/// The same clock, with a runt of `width` ticks in the low phase of cycle `at` when given.
+fn snapshot_with_glitch(
+    tick_hz: u64,
+    period: u64,
+    high: u64,
+    cycles: u64,
+    glitch: Option<(u64, u64)>,
+) -> slackmeter::measure::Snapshot {
     let chans = [Channel::edge(0, caps::TIMESTAMPS, "CLK")];
     let mut wire = [0u8; MAX_WIRE];
     let mut bytes = common::hello_wire(&chans, tick_hz, 1);
@@ -37,6 +48,12 @@ fn snapshot_at_tick(
             assert!(w.push(r));
         }
         assert!(w.push(r + high));
+        if let Some((at, width)) = glitch.filter(|g| g.0 == k) {
+            // a short high pulse in the middle of the low phase
+            let mid = r + high + (period - high) / 2;
+            assert!(w.push(mid));
+            assert!(w.push(mid + width));
+        }
     }
     assert!(w.push(100 + cycles * period));
     let nb = w.finish();
@@ -403,4 +420,94 @@ fn a_sweep_is_judged_at_the_frequency_it_really_ran() {
     // and both lie before the failure, below its onset
     let onset = mg.fail_onset_hz.unwrap();
     assert!(clean <= mg.operating_hz && mg.operating_hz < onset);
+}
+
+/// A glitch on the clock is a failure whatever the slack says: a double-clocked register
+/// breaks a discrete-logic machine by itself. The same clock without it is inside the budget.
+#[test]
+fn a_glitch_fails_the_verdict() {
+    use slackmeter::margin::ProblemKind;
+    let lib = Library::builtin();
+    let d = Design::parse(Source::new("example.toml", EXAMPLE.to_string()), &lib).unwrap();
+    let cfg = MarginConfig {
+        vcc_v: Some(5.0),
+        ..MarginConfig::default()
+    };
+    // 1 MHz at 30 % (1 ns tick), inside the worst-case budget (DESIGN.md §4 example)
+    let clean = evaluate(&snapshot_of(1000, 300, 200), &d, &lib, &cfg).unwrap();
+    assert_eq!(clean.verdict, Verdict::InsideWorstCase);
+    // a 5 ns runt in the 700 ns low phase of cycle 100
+    let s = snapshot_with_glitch(1_000_000_000, 1000, 300, 200, Some((100, 5)));
+    assert_eq!(s.clock().unwrap().glitches, 1);
+    let m = evaluate(&s, &d, &lib, &cfg).unwrap();
+    assert_eq!(m.verdict, Verdict::Failed, "{}", m.verdict_text);
+    assert_eq!(
+        m.slack_verdict,
+        Verdict::InsideWorstCase,
+        "the runt set aside"
+    );
+    let g = m
+        .problems
+        .iter()
+        .find(|p| p.kind == ProblemKind::Glitches)
+        .expect("the glitch is listed");
+    assert_eq!(g.count, 1);
+    assert!(g.kind.is_failure());
+    assert!(
+        m.verdict_text.starts_with("FAILED: 1 glitch on the clock"),
+        "{}",
+        m.verdict_text
+    );
+    assert!(Verdict::Failed.breaks_margin(false));
+}
+
+/// A rail below its rated minimum is a problem named beside the verdict (with its time below),
+/// not a failure by itself: the slack, derated at that rail, decides.
+#[test]
+fn undervoltage_is_named_with_its_time_below() {
+    use slackmeter::margin::ProblemKind;
+    let lib = Library::builtin();
+    let d = Design::demo(&lib);
+    let mut m = BenchModel::scenario("sagging").unwrap();
+    m.glitch_rate_hz = 0.0;
+    m.burst_edges = Some(2000);
+    m.burst_every_s = 0.02;
+    m.analog_rate_hz = 1000.0;
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(3.0e9);
+    p.flush_all();
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&std::mem::take(p.output()));
+    let snap = f.engine.snapshot(Window::Session);
+    let far = snap.rail("VCC_FAR").unwrap();
+    assert!(far.below_limit_s > 0.0, "the far rail sags below 4.5 V");
+    let mg = evaluate(&snap, &d, &lib, &MarginConfig::default()).unwrap();
+    assert_ne!(mg.verdict, Verdict::Failed, "{}", mg.verdict_text);
+    assert_eq!(mg.verdict, mg.slack_verdict);
+    let below: Vec<_> = mg
+        .problems
+        .iter()
+        .filter(|p| p.kind == ProblemKind::RailBelowMinimum)
+        .collect();
+    assert_eq!(below.len(), 1, "only VCC_FAR: {:?}", mg.problems);
+    assert!(!below[0].kind.is_failure());
+    assert!(
+        below[0]
+            .detail
+            .starts_with("VCC_FAR was below its rated minimum 4.50 V")
+    );
+    assert!(
+        below[0]
+            .detail
+            .contains(&format!("for {:.3} s", far.below_limit_s)),
+        "{}",
+        below[0].detail
+    );
+    assert!(
+        mg.verdict_text
+            .contains("VCC_FAR was below its rated minimum")
+    );
+    // the budget was derated at the sagging rail's minimum
+    assert!((mg.section_vcc_v["far"] - far.min_mv.unwrap() / 1000.0).abs() < 1e-9);
 }
