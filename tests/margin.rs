@@ -48,7 +48,7 @@ fn snapshot_with_glitch(
             assert!(w.push(r));
         }
         assert!(w.push(r + high));
-        if let Some((at, width)) = glitch.filter(|g| g.0 == k) {
+        if let Some((_, width)) = glitch.filter(|g| g.0 == k) {
             // a short high pulse in the middle of the low phase
             let mid = r + high + (period - high) / 2;
             assert!(w.push(mid));
