@@ -345,6 +345,17 @@ fn sweep_report_finds_the_failure_and_exits_with_the_margin_code() {
     let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let m = &d["margin"];
     assert_eq!(m["verdict"], "failed");
+    let kinds: Vec<&str> = m["problems"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|p| p["kind"].as_str())
+        .collect();
+    assert_eq!(
+        kinds,
+        ["fault-line", "heartbeat-stopped", "sampled-coverage"],
+        "the fault line, the heartbeat that stopped with it, the bursts"
+    );
     let onset = m["fail_onset_hz"].as_f64().unwrap();
     // the sim faults past the typical budget at 47 % duty: just under 2.07 MHz at these rails
     assert!((1.95e6..2.10e6).contains(&onset), "{onset}");

@@ -43,6 +43,7 @@ pub(super) fn failure_s(snap: &Snapshot) -> Option<f64> {
             first = Some(first.map_or(t, |f: f64| f.min(t)));
         }
     };
+    take(super::problems::heartbeat_silence(snap).map(|h| h.0));
     if snap.clock().is_some_and(|c| c.glitches > 0) {
         take(
             series

@@ -57,6 +57,15 @@ impl ProblemKind {
     }
 }
 
+/// The heartbeat's last change and how long it has been silent since, s, when that silence
+/// is longer than three of its half-periods. The engine gives a heartbeat onset only when the
+/// fault line did not rise; the silence is a failure of its own all the same.
+pub(super) fn heartbeat_silence(snap: &Snapshot) -> Option<(f64, f64)> {
+    let hb = snap.line(crate::probe::LineRole::Heartbeat)?;
+    let (rate, since) = (hb.rate_hz?, hb.since_change_s?);
+    (rate > 0.0 && since > 3.0 / (2.0 * rate)).then(|| (snap.probe_time_s - since, since))
+}
+
 /// One problem the measurement showed.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Problem {
@@ -158,6 +167,13 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
             1,
             Some(o.at_s),
             format!("the heartbeat stopped after {:.3} s", o.at_s),
+        ));
+    } else if let Some((last_s, since)) = heartbeat_silence(snap) {
+        out.push(Problem::new(
+            ProblemKind::HeartbeatStopped,
+            1,
+            Some(last_s),
+            format!("the heartbeat stopped after {last_s:.3} s (silent for {since:.3} s)"),
         ));
     }
     for (i, r) in snap.rails.iter().enumerate() {
