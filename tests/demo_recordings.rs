@@ -431,6 +431,14 @@ fn budget_of_a_recording_agrees_with_its_report() {
         let margin = |t: &str| t[t.find("Margin against").unwrap()..].to_string();
         assert_eq!(margin(&bt), margin(&rt), "{name}: the same words");
     }
+    // --strict alike: within resolution breaks the margin for both
+    let steady = demo("larkspur-steady.smrec");
+    for args in [
+        vec!["budget", "--recording", steady.as_str(), "--strict"],
+        vec!["report", steady.as_str(), "--strict"],
+    ] {
+        assert_eq!(run(&args).status.code(), Some(3), "{args:?}");
+    }
     // one word for one thing in every report
     for args in [
         vec!["report", "recordings/larkspur-steady.smrec"],
