@@ -63,7 +63,7 @@ impl ProblemKind {
 pub(super) fn heartbeat_silence(snap: &Snapshot) -> Option<(f64, f64)> {
     let hb = snap.line(crate::probe::LineRole::Heartbeat)?;
     let (rate, since) = (hb.rate_hz?, hb.since_change_s?);
-    (rate > 0.0 && since > 3.0 / (2.0 * rate)).then(|| (snap.probe_time_s - since, since))
+    (rate > 0.0 && since > 3.0 / (2.0 * rate)).then_some((snap.probe_time_s - since, since))
 }
 
 /// One problem the measurement showed.
