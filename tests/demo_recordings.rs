@@ -521,6 +521,15 @@ fn markdown_report_parses_into_tables() {
         rows.iter()
             .any(|r| r.first().is_some_and(|c| c == "worst high"))
     );
+    // the moving clock's rows, and its whole-window figures marked as a spread
+    let row = |name: &str| {
+        rows.iter()
+            .find(|r| r.first().is_some_and(|c| c == name))
+            .unwrap_or_else(|| panic!("a {name} row: {rows:?}"))
+    };
+    assert_eq!(row("moving clock")[1], "1.000 MHz … 5.985 MHz");
+    assert!(row("detrended jitter")[1].starts_with("1.49"));
+    assert!(row("frequency")[2].ends_with("whole-window spread of a moving clock"));
 }
 
 /// `--from/--to` take times with units (or plain seconds), refuse a reversed window or one
