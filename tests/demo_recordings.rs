@@ -540,12 +540,20 @@ fn report_window_is_checked_and_printed() {
     let out = run(&["report", &path, "--from", "5s", "--to", "10000ms"]);
     let t = String::from_utf8_lossy(&out.stdout).into_owned();
     assert!(
-        t.contains("window analysed: 5.000 s to 10.000 s of the recording's"),
+        t.contains(
+            "window analysed: 5.000 s to 10.000 s of the recording, which runs on past 10.000 s"
+        ),
         "{t}"
     );
     let d = run_json(&["report", &path, "--json", "--from", "5", "--to", "10"]);
     assert_eq!(d["window"]["from_s"], 5.0);
     assert_eq!(d["window"]["to_s"], 10.0);
+    assert!(d["window"]["recording_s"].is_null(), "not read past --to");
+    let t = String::from_utf8_lossy(&run(&["report", &path, "--from", "15s"]).stdout).into_owned();
+    assert!(
+        t.contains("window analysed: 15.000 s to 20.000 s of the recording's 20.000 s"),
+        "{t}"
+    );
     let edges = d["clock"]["edges"].as_u64().unwrap();
     let all = report("larkspur-steady.smrec")["clock"]["edges"]
         .as_u64()

@@ -92,8 +92,14 @@ fn check_window(a: &ReportArgs, sum: &ReplaySummary, file: &str) -> CliResult<St
     } else {
         end
     };
+    // a replay that stopped at --to did not read on to the recording's end
+    let length = if sum.stopped_at_to {
+        format!("the recording, which runs on past {to:.3} s")
+    } else {
+        format!("the recording's {end:.3} s")
+    };
     Ok(format!(
-        "{from:.3} s to {to:.3} s of the recording's {end:.3} s (host time since it started){}",
+        "{from:.3} s to {to:.3} s of {length} (host time since it started){}",
         if a.from.is_some() || a.to.is_some() {
             ""
         } else {
@@ -212,7 +218,8 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         v["window"] = serde_json::json!({
             "from_s": a.from.unwrap_or(0.0),
             "to_s": a.to.filter(|_| sum.stopped_at_to).unwrap_or(sum.duration_s),
-            "recording_s": sum.duration_s,
+            // unknown when the replay stopped at --to (the rest was not read)
+            "recording_s": (!sum.stopped_at_to).then_some(sum.duration_s),
             "words": window,
         });
         if let Some(m) = &margin {
