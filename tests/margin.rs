@@ -16,9 +16,30 @@ use slackmeter::sim::{BenchModel, RailModel, SimProbe};
 const EXAMPLE: &str = include_str!("designs/worked-example.toml");
 
 fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snapshot {
+    snapshot_at_tick(1_000_000_000, period, high, cycles)
+}
+
+/// A clean clock of `period` and `high` ticks, `cycles` long, from a probe of `tick_hz`.
+fn snapshot_at_tick(
+    tick_hz: u64,
+    period: u64,
+    high: u64,
+    cycles: u64,
+) -> slackmeter::measure::Snapshot {
+    snapshot_with_glitch(tick_hz, period, high, cycles, None)
+}
+
+/// The same clock, with a runt of `width` ticks in the low phase of cycle `at` when given.
+fn snapshot_with_glitch(
+    tick_hz: u64,
+    period: u64,
+    high: u64,
+    cycles: u64,
+    glitch: Option<(u64, u64)>,
+) -> slackmeter::measure::Snapshot {
     let chans = [Channel::edge(0, caps::TIMESTAMPS, "CLK")];
     let mut wire = [0u8; MAX_WIRE];
-    let mut bytes = common::hello_wire(&chans, 1_000_000_000, 1);
+    let mut bytes = common::hello_wire(&chans, tick_hz, 1);
     let mut body = [0u8; MAX_BODY];
     let mut w = EdgeWriter::new(&mut body, 0, true, 0, 100);
     for k in 0..cycles {
@@ -27,6 +48,12 @@ fn snapshot_of(period: u64, high: u64, cycles: u64) -> slackmeter::measure::Snap
             assert!(w.push(r));
         }
         assert!(w.push(r + high));
+        if let Some((_, width)) = glitch.filter(|g| g.0 == k) {
+            // a short high pulse in the middle of the low phase
+            let mid = r + high + (period - high) / 2;
+            assert!(w.push(mid));
+            assert!(w.push(mid + width));
+        }
     }
     assert!(w.push(100 + cycles * period));
     let nb = w.finish();
@@ -74,12 +101,65 @@ fn hand_computed_slack() {
     );
     assert!(
         m.verdict_text
-            .contains("beyond the worst-case budget, inside the typical one")
+            .starts_with("Beyond the worst-case budget, inside the typical one")
     );
     // 2.5 MHz at 30 %: low 280 ns, beyond both
     let m = at_5v(snapshot_of(400, 120, 200));
     assert_eq!(m.verdict, Verdict::BeyondTypical);
-    assert!(m.verdict_text.starts_with("no margin left"));
+    assert!(m.verdict_text.starts_with("No margin left"));
+}
+
+/// The ±tick rule on edge lists at an 8 ns tick (125 MHz timebase), against the worked example
+/// of DESIGN.md §4 at 5 V (worst case H = 125 ns, typical H = 100 ns, L = 500 ns): a slack is
+/// known to be positive only beyond +8 ns, negative only beyond −8 ns. A 1 ns tick would call
+/// every one of these by its measured sign.
+#[test]
+fn the_tick_bounds_the_sign_of_a_slack_at_both_signs() {
+    use slackmeter::margin::Sign;
+    let lib = Library::builtin();
+    let d = Design::parse(Source::new("example.toml", EXAMPLE.to_string()), &lib).unwrap();
+    let cfg = MarginConfig {
+        vcc_v: Some(5.0),
+        ..MarginConfig::default()
+    };
+    // 100 ticks = 800 ns period; the low time (800 − high) clears 500 ns by far in every case
+    for (high_ticks, slack_ns, sign, verdict) in [
+        // 17 × 8 = 136 ns: +11 ns, beyond the bound
+        (17, 11.0, Sign::Clears, Verdict::InsideWorstCase),
+        // 16 × 8 = 128 ns: +3 ns, positive as measured but inside ± 8 ns
+        (16, 3.0, Sign::WithinResolution, Verdict::WithinResolution),
+        // 15 × 8 = 120 ns: −5 ns, negative as measured but inside ± 8 ns
+        (15, -5.0, Sign::WithinResolution, Verdict::WithinResolution),
+        // 14 × 8 = 112 ns: −13 ns, short beyond doubt; +12 ns against the typical 100 ns
+        (
+            14,
+            -13.0,
+            Sign::Short,
+            Verdict::BeyondWorstCaseInsideTypical,
+        ),
+        // 12 × 8 = 96 ns: −29 ns; −4 ns against the typical budget is not known to be inside it
+        (12, -29.0, Sign::Short, Verdict::BeyondTypical),
+    ] {
+        let s = snapshot_at_tick(125_000_000, 100, high_ticks, 200);
+        let m = evaluate(&s, &d, &lib, &cfg).unwrap();
+        let h = &m.worst_case.phases[1];
+        assert_eq!(h.phase, "high");
+        assert!((h.slack_ns - slack_ns).abs() < 1e-9, "{}", h.slack_ns);
+        assert!((h.uncertainty_ns - 8.0).abs() < 1e-12, "± one tick");
+        assert_eq!(h.sign, sign, "high {high_ticks} ticks");
+        assert_eq!(m.verdict, verdict, "high {high_ticks} ticks");
+        assert_eq!(m.worst_case.phases[0].sign, Sign::Clears);
+        assert!(m.problems.iter().all(|p| !p.kind.is_failure()));
+        // the exit rule: within resolution breaks the margin only when strict
+        let breaks = verdict.breaks_margin(false);
+        assert_eq!(
+            breaks,
+            !matches!(
+                verdict,
+                Verdict::InsideWorstCase | Verdict::WithinResolution
+            )
+        );
+    }
 }
 
 #[test]
@@ -275,4 +355,172 @@ fn a_counting_probe_gets_a_verdict_on_mean_phases() {
     // Wilson half-width at p = 0.3, n = 100 000 is about 0.0028: about 2.8 ns on a 1 µs period
     let u = m.worst_case.phases[0].uncertainty_ns;
     assert!(u > 2.0 && u < 4.0, "{u}");
+}
+
+/// A swept clock that fails, judged interval by interval: the interval judged (the last clean
+/// one before the failure) and the highest clean interval each measure the frequency the
+/// virtual probe really ran at their time, within that interval's own uncertainty. The truth
+/// is the bench model's nominal frequency at the middle of the interval's observed cycles
+/// (the sweep is linear in frequency, so the mean period of a short stretch is that of its
+/// middle to far below the uncertainty).
+#[test]
+fn a_sweep_is_judged_at_the_frequency_it_really_ran() {
+    let lib = Library::builtin();
+    let d = Design::demo(&lib);
+    let mut m = BenchModel::scenario("sweep").unwrap();
+    m.sweep = Some(slackmeter::sim::Sweep {
+        from_hz: 1.5e6,
+        to_hz: 2.5e6,
+        over_s: 4.0,
+    });
+    m.freq_hz = 1.5e6;
+    m.fault = Some(typical_fault_limit(&d, &lib, OperatingPoint::of(&d).temp_c));
+    m.burst_edges = Some(2000);
+    m.burst_every_s = 0.02;
+    m.analog_rate_hz = 1000.0;
+    m.seed = 17;
+    let truth = m.clone();
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(4.0e9);
+    p.flush_all();
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&std::mem::take(p.output()));
+    let snap = f.engine.snapshot(Window::Session);
+    let mg = evaluate(&snap, &d, &lib, &MarginConfig::default()).unwrap();
+    assert_eq!(mg.verdict, Verdict::Failed, "{}", mg.verdict_text);
+    assert!(mg.moving);
+    assert_eq!(
+        mg.judged.basis,
+        slackmeter::margin::Basis::LastCleanBeforeFailure
+    );
+    let interval = |from_s: f64| {
+        mg.intervals
+            .iter()
+            .find(|i| i.from_s == from_s)
+            .expect("the interval is listed")
+    };
+    let true_hz = |at_s: f64| 1e9 / truth.period_at_ns(at_s);
+    // the operating point
+    let op = interval(mg.judged.from_s);
+    let err = mg.operating_hz - true_hz(op.at_s);
+    println!(
+        "operating {:.1} Hz, truth {:.1} Hz, error {err:+.1} Hz, uncertainty {:.1} Hz",
+        mg.operating_hz,
+        true_hz(op.at_s),
+        op.frequency_uncertainty_hz
+    );
+    assert!(err.abs() <= op.frequency_uncertainty_hz, "{err} Hz");
+    assert_eq!(
+        mg.operating_uncertainty_hz,
+        Some(op.frequency_uncertainty_hz)
+    );
+    // the highest clean interval
+    let at = mg.highest_clean_at_s.expect("an interval ran clean");
+    let hc = mg
+        .intervals
+        .iter()
+        .find(|i| i.at_s == at)
+        .expect("the highest clean interval is listed");
+    let clean = mg.highest_clean_hz.unwrap();
+    let err = clean - true_hz(at);
+    println!(
+        "highest clean {clean:.1} Hz, truth {:.1} Hz, error {err:+.1} Hz, uncertainty {:.1} Hz",
+        true_hz(at),
+        hc.frequency_uncertainty_hz
+    );
+    assert!(err.abs() <= hc.frequency_uncertainty_hz, "{err} Hz");
+    // and both lie before the failure, below its onset
+    let onset = mg.fail_onset_hz.unwrap();
+    assert!(clean <= mg.operating_hz && mg.operating_hz < onset);
+}
+
+/// A glitch on the clock is a failure whatever the slack says: a double-clocked register
+/// breaks a discrete-logic machine by itself. The same clock without it is inside the budget.
+#[test]
+fn a_glitch_fails_the_verdict() {
+    use slackmeter::margin::ProblemKind;
+    let lib = Library::builtin();
+    let d = Design::parse(Source::new("example.toml", EXAMPLE.to_string()), &lib).unwrap();
+    let cfg = MarginConfig {
+        vcc_v: Some(5.0),
+        ..MarginConfig::default()
+    };
+    // 1 MHz at 30 % (1 ns tick), inside the worst-case budget (DESIGN.md §4 example)
+    let clean = evaluate(&snapshot_of(1000, 300, 200), &d, &lib, &cfg).unwrap();
+    assert_eq!(clean.verdict, Verdict::InsideWorstCase);
+    // a 5 ns runt in the 700 ns low phase of cycle 100
+    let s = snapshot_with_glitch(1_000_000_000, 1000, 300, 200, Some((100, 5)));
+    assert_eq!(s.clock().unwrap().glitches, 1);
+    let m = evaluate(&s, &d, &lib, &cfg).unwrap();
+    assert_eq!(m.verdict, Verdict::Failed, "{}", m.verdict_text);
+    assert_eq!(
+        m.slack_verdict,
+        Verdict::InsideWorstCase,
+        "the runt set aside"
+    );
+    let g = m
+        .problems
+        .iter()
+        .find(|p| p.kind == ProblemKind::Glitches)
+        .expect("the glitch is listed");
+    assert_eq!(g.count, 1);
+    assert!(g.kind.is_failure());
+    assert!(
+        m.verdict_text.starts_with("FAILED: 1 glitch on the clock"),
+        "{}",
+        m.verdict_text
+    );
+    assert!(Verdict::Failed.breaks_margin(false));
+}
+
+/// A rail below its rated minimum is a problem named beside the verdict (with its time below),
+/// not a failure by itself: the slack, derated at that rail, decides.
+#[test]
+fn undervoltage_is_named_with_its_time_below() {
+    use slackmeter::margin::ProblemKind;
+    let lib = Library::builtin();
+    let d = Design::demo(&lib);
+    let mut m = BenchModel::scenario("sagging").unwrap();
+    m.glitch_rate_hz = 0.0;
+    m.burst_edges = Some(2000);
+    m.burst_every_s = 0.02;
+    m.analog_rate_hz = 1000.0;
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(3.0e9);
+    p.flush_all();
+    let mut f = Feed::new(EngineConfig::default());
+    f.push(&std::mem::take(p.output()));
+    let snap = f.engine.snapshot(Window::Session);
+    let far = snap.rail("VCC_FAR").unwrap();
+    assert!(far.below_limit_s > 0.0, "the far rail sags below 4.5 V");
+    let mg = evaluate(&snap, &d, &lib, &MarginConfig::default()).unwrap();
+    assert_ne!(mg.verdict, Verdict::Failed, "{}", mg.verdict_text);
+    assert_eq!(mg.verdict, mg.slack_verdict);
+    let below: Vec<_> = mg
+        .problems
+        .iter()
+        .filter(|p| p.kind == ProblemKind::RailBelowMinimum)
+        .collect();
+    assert_eq!(below.len(), 1, "only VCC_FAR: {:?}", mg.problems);
+    assert!(!below[0].kind.is_failure());
+    assert!(
+        below[0]
+            .detail
+            .starts_with("VCC_FAR was below its rated minimum 4.50 V")
+    );
+    assert!(
+        below[0]
+            .detail
+            .contains(&format!("for {:.3} s", far.below_limit_s)),
+        "{}",
+        below[0].detail
+    );
+    assert!(
+        mg.verdict_text
+            .contains("VCC_FAR was below its rated minimum")
+    );
+    // the budget was derated at the sagging rail's minimum
+    assert!((mg.section_vcc_v["far"] - far.min_mv.unwrap() / 1000.0).abs() < 1e-9);
 }

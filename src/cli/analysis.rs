@@ -105,3 +105,13 @@ pub fn budget_curves(
         ),
     ]
 }
+
+/// The supply range every family of the design's parts is rated for, V (None without parts).
+pub fn rated_supply(d: &Design, lib: &Library) -> Option<(f64, f64)> {
+    d.instances
+        .iter()
+        .filter_map(|i| lib.parts.get(i.part))
+        .filter_map(|p| lib.families.get(p.family))
+        .map(|f| (f.vcc_min_v, f.vcc_max_v))
+        .reduce(|a, b| (a.0.max(b.0), a.1.min(b.1)))
+}

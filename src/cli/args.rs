@@ -62,13 +62,19 @@ pub fn pos_time(s: &str) -> Parsed<f64> {
     positive(time(s)?, "a duration")
 }
 
-/// A point in time in ns from the start, e.g. 0s or 2.5s (not negative).
-pub fn time_from_start(s: &str) -> Parsed<f64> {
-    let t = time(s)?;
-    if t >= 0.0 {
-        Ok(t)
+/// A point in time into a recording, in seconds: a time with its unit (2.5s, 500ms, 1min is
+/// not a unit) or a plain number of seconds (2.5); not negative.
+pub fn seconds_into(s: &str) -> Parsed<f64> {
+    let t = match s.trim().parse::<f64>() {
+        Ok(plain) => plain,
+        Err(_) => time(s)? * 1e-9,
+    };
+    if !t.is_finite() {
+        Err(format!("\"{s}\" is not a time"))
+    } else if t < 0.0 {
+        Err("a time into the recording must not be negative".into())
     } else {
-        Err("a time from the start must not be negative".into())
+        Ok(t)
     }
 }
 
@@ -420,8 +426,13 @@ mod tests {
         assert_eq!(section_vcc(" far =4.62V"), Ok(("far".into(), 4.62)));
         assert!(section_vcc("far").unwrap_err().contains("NAME=VALUE"));
         assert!(pos_freq("0Hz").unwrap_err().contains("must be positive"));
-        assert!(time_from_start("-1s").is_err());
-        assert_eq!(time_from_start("0s"), Ok(0.0));
+        assert!(seconds_into("-1s").is_err());
+        assert!(seconds_into("-1").is_err());
+        assert_eq!(seconds_into("0s"), Ok(0.0));
+        assert_eq!(seconds_into("2.5"), Ok(2.5), "a plain number is seconds");
+        assert_eq!(seconds_into("500ms"), Ok(0.5));
+        assert!(seconds_into("5 parsecs").is_err());
+        assert!(seconds_into("inf").is_err());
         assert_eq!(bursts("4000/100ms"), Ok((4000, 100e6)));
         assert_eq!(fraction("20%"), Ok(0.2));
         let r = rail("VCC=4.9V,ripple=20mV,sag-time=20ms").unwrap();

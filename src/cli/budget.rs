@@ -1,17 +1,18 @@
 //! `slackmeter budget`: what each clock phase needs, f_max, and the slack against a clock.
 
 use std::collections::BTreeMap;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use clap::ValueEnum;
 use miette::miette;
 
 use super::analysis::analyse;
 use super::args::{self, LibraryArgs};
+use super::design::embedded_in;
 use super::error::{CliError, CliResult, Outcome};
 use crate::budget::design::DEMO_NAME;
 use crate::budget::{self, ClockInput, Corner, Design, OperatingPoint};
-use crate::measure::Snapshot;
+use crate::margin::{self, MarginConfig};
 use crate::record::ReplayOptions;
 use crate::report;
 
@@ -59,10 +60,18 @@ pub struct BudgetArgs {
     /// Print a JSON document instead of the table.
     #[arg(long)]
     pub json: bool,
-    /// Take the supply (each section's measured rail minimum, else the lowest rail) and the
-    /// clock (measured frequency and duty) from a recording.
-    #[arg(long, value_name = "FILE")]
+    /// Judge a recording as `report FILE` does: the design embedded in it (unless a design is
+    /// given), the budget at the supply the margin was derated at, and the margin itself.
+    #[arg(long, value_name = "FILE", conflicts_with_all = ["freq", "section_vcc"])]
     pub recording: Option<PathBuf>,
+    /// Margin required over the worst-case budget with --recording, e.g. 20% (common practice,
+    /// no source).
+    #[arg(long, value_parser = args::fraction, default_value = "20%", requires = "recording")]
+    pub guard_band: f64,
+    /// With --recording: exit with the margin code (3) also when the sign of some slack is
+    /// within resolution.
+    #[arg(long, requires = "recording")]
+    pub strict: bool,
 }
 
 /// The operating point the flags ask for.
@@ -95,54 +104,100 @@ fn operating_point(a: &BudgetArgs, design: &Design) -> CliResult<OperatingPoint>
     Ok(op)
 }
 
-/// The measured supply (unless --vcc) and clock of a recording's session.
-fn from_recording(
-    snap: &Snapshot,
-    design: &Design,
-    keep_vcc: bool,
-    op: &mut OperatingPoint,
-) -> Option<ClockInput> {
-    if !keep_vcc && let Some((_, mv)) = &snap.worst_rail {
-        op.vcc_v = mv / 1000.0;
-        for s in &design.sections {
-            if let Some(r) = s.rail.as_ref().and_then(|l| snap.rail(l))
-                && let Some(m) = r.min_mv
-            {
-                op.section_vcc_v.entry(s.name.clone()).or_insert(m / 1000.0);
-            }
+/// Print to standard output (a closed pipe is a runtime failure, not a panic).
+fn emit(text: &str) -> CliResult<()> {
+    use std::io::Write;
+    std::io::stdout()
+        .lock()
+        .write_all(text.as_bytes())
+        .map_err(CliError::io("standard output"))
+}
+
+/// The design given, else the one embedded in the recording, else the demo; with its name.
+fn pick_design(
+    a: &BudgetArgs,
+    lib: &crate::budget::Library,
+    header: Option<(&crate::record::Header, &Path)>,
+) -> CliResult<(Design, String)> {
+    if let Some(p) = &a.design {
+        return Ok((Design::load(p, lib)?, p.display().to_string()));
+    }
+    if let Some((h, file)) = header
+        && let Some(d) = embedded_in(h, file, lib)?
+    {
+        let name = d.source.name.clone();
+        return Ok((d, name));
+    }
+    Ok((Design::demo(lib), format!("{DEMO_NAME} (built-in demo)")))
+}
+
+/// `slackmeter budget --recording`: the margin of the recording, the budget at its supply.
+fn judge_recording(a: &BudgetArgs, file: &Path) -> CliResult<Outcome> {
+    let lib = a.library.load()?;
+    let an = analyse(file, ReplayOptions::default(), crate::measure::NoObserver)?;
+    let (design, name) = pick_design(a, &lib, Some((&an.recording.parsed.header, file)))?;
+    let cfg = MarginConfig {
+        guard_band: a.guard_band,
+        temp_c: a.temp,
+        vcc_v: a.vcc,
+    };
+    let m = margin::evaluate(&an.snapshot, &design, &lib, &cfg).map_err(|e| {
+        CliError::input(miette!(
+            help = "a recording needs complete clock cycles for a margin",
+            "{}: no margin: {e}",
+            file.display()
+        ))
+    })?;
+    // the budget at the very supply the margin was derated at
+    let mut op = operating_point(a, &design)?;
+    op.vcc_v = m.vcc_used_v;
+    op.section_vcc_v = m.section_vcc_v.clone();
+    op.temp_c = m.temp_c;
+    if let Some((from, to)) = a.sweep_vcc {
+        let pts = budget::sweep_vcc(&design, &lib, &op, from, to, a.points as usize);
+        if a.json {
+            let doc = serde_json::json!({
+                "design": design.name,
+                "temp_c": op.temp_c,
+                "corner": op.corner,
+                "sweep": pts,
+                "margin": m,
+            });
+            emit(&format!("{}\n", serde_json::to_string_pretty(&doc)?))?;
+        } else {
+            emit(&report::budget::render_sweep(&design.name, &pts))?;
+            emit(&report::margin::render(&m, &design.name))?;
+        }
+    } else {
+        let b = budget::solve(&design, &lib, &op, None, a.duty);
+        if a.json {
+            let mut v = serde_json::to_value(&b)?;
+            v["margin"] = serde_json::to_value(&m)?;
+            emit(&format!("{}\n", serde_json::to_string_pretty(&v)?))?;
+        } else {
+            emit(&report::budget::render(&b, &name))?;
+            emit(&report::margin::render(&m, &design.name))?;
         }
     }
-    let c = snap.clock()?;
-    Some(ClockInput {
-        freq_hz: c.frequency_hz?,
-        duty: c.duty.unwrap_or(0.5),
+    Ok(if m.verdict.breaks_margin(a.strict) {
+        Outcome::MarginBroken
+    } else {
+        Outcome::Done
     })
 }
 
 /// `slackmeter budget`.
 pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
-    let lib = a.library.load()?;
-    let (design, name) = match &a.design {
-        Some(p) => (Design::load(p, &lib)?, p.display().to_string()),
-        None => (Design::demo(&lib), format!("{DEMO_NAME} (built-in demo)")),
-    };
-    let mut op = operating_point(&a, &design)?;
-    let mut measured_clock = None;
     if let Some(file) = &a.recording {
-        let an = analyse(file, ReplayOptions::default(), crate::measure::NoObserver)?;
-        measured_clock = from_recording(&an.snapshot, &design, a.vcc.is_some(), &mut op);
+        return judge_recording(&a, file);
     }
-
-    let clock = match (a.freq, measured_clock) {
-        (None, Some(m)) => Some(ClockInput {
-            duty: a.duty.unwrap_or(m.duty),
-            ..m
-        }),
-        _ => a.freq.or(design.clock.freq_hz).map(|f| ClockInput {
-            freq_hz: f,
-            duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
-        }),
-    };
+    let lib = a.library.load()?;
+    let (design, name) = pick_design(&a, &lib, None)?;
+    let op = operating_point(&a, &design)?;
+    let clock = a.freq.or(design.clock.freq_hz).map(|f| ClockInput {
+        freq_hz: f,
+        duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
+    });
     if let Some((from, to)) = a.sweep_vcc {
         let pts = budget::solver::sweep_vcc_with_clock(
             &design,
@@ -160,18 +215,18 @@ pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
                 "corner": op.corner,
                 "sweep": pts,
             });
-            println!("{}", serde_json::to_string_pretty(&doc)?);
+            emit(&format!("{}\n", serde_json::to_string_pretty(&doc)?))?;
         } else {
-            print!("{}", report::budget::render_sweep(&design.name, &pts));
+            emit(&report::budget::render_sweep(&design.name, &pts))?;
         }
         return Ok(Outcome::Done);
     }
 
     let b = budget::solve(&design, &lib, &op, clock, a.duty);
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&b)?);
+        emit(&format!("{}\n", serde_json::to_string_pretty(&b)?))?;
     } else {
-        print!("{}", report::budget::render(&b, &name));
+        emit(&report::budget::render(&b, &name))?;
     }
     Ok(match &b.clock {
         Some(c) if !c.meets => Outcome::MarginBroken,

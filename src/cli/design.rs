@@ -51,14 +51,19 @@ impl DesignArgs {
         if let Some(d) = self.given(lib)? {
             return Ok(Some(d));
         }
-        Ok(match &header.design {
-            Some(e) => {
-                let name = format!("{} (embedded in {})", e.file, file.display());
-                Some(Design::parse(Source::new(name, e.text.clone()), lib)?)
-            }
-            None => None,
-        })
+        embedded_in(header, file, lib)
     }
+}
+
+/// The design embedded in the recording `file` (whose header is `header`), if any.
+pub fn embedded_in(header: &Header, file: &Path, lib: &Library) -> CliResult<Option<Design>> {
+    Ok(match &header.design {
+        Some(e) => {
+            let name = format!("{} (embedded in {})", e.file, file.display());
+            Some(Design::parse(Source::new(name, e.text.clone()), lib)?)
+        }
+        None => None,
+    })
 }
 
 /// A loaded design as a recording's header carries it.

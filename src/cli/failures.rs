@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use miette::miette;
 
-use super::analysis::{analyse, budget_curves};
+use super::analysis::{analyse, budget_curves, rated_supply};
 use super::design::DesignArgs;
 use super::error::{CliError, CliResult, Outcome};
 use crate::budget::{self, Corner, Design, Library, OperatingPoint};
@@ -145,7 +145,12 @@ pub fn run(a: FailuresArgs) -> CliResult<Outcome> {
             .map(|r| (r.vcc_v, r.fail_onset_hz, r.fail_onset_uncertainty_hz))
             .collect();
         let path = dir.join("fmax_vs_supply.svg");
-        plots::fmax_vcc_svg(&path, &budget_curves(d, &lib, duty, None), None, &pts)
+        let marks = plots::SupplyMarks {
+            failures: pts,
+            rated_v: rated_supply(d, &lib),
+            ..plots::SupplyMarks::default()
+        };
+        plots::fmax_vcc_svg(&path, &budget_curves(d, &lib, duty, None), &marks)
             .map_err(CliError::io(path.display()))?;
         eprintln!("wrote {}", path.display());
     }

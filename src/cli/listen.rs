@@ -58,7 +58,7 @@ fn progress(s: &Session, state: &str, reconnects: u32) -> String {
                 .map_or("—".into(), |f| units::hz(f).to_string());
             let min = |v: Option<f64>| v.map_or("—".into(), |x| units::ns(x).to_string());
             format!(
-                " | {} f {f}, duty {}, min high {}, min low {}",
+                " | {} f {f}, duty {}, worst high {}, worst low {}",
                 k.label,
                 k.duty.map_or("—".into(), |d| format!("{:.2} %", d * 100.0)),
                 min(k.high_min_ns),

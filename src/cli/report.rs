@@ -6,14 +6,16 @@ use std::path::{Path, PathBuf};
 
 use miette::miette;
 
-use super::analysis::{Analysis, analyse, budget_curves};
+use super::analysis::{Analysis, analyse, budget_curves, rated_supply};
 use super::args;
 use super::design::DesignArgs;
 use super::error::{CliError, CliResult, Outcome};
 use crate::budget::{Design, Library};
-use crate::margin::{self, Margin, MarginConfig, Verdict};
+use crate::margin::{self, Margin, MarginConfig};
 use crate::measure::Window;
-use crate::record::ReplayOptions;
+use crate::record::{ReplayOptions, ReplaySummary};
+use crate::report;
+use crate::report::over_time;
 use crate::report::plots::{self, PlotCollector};
 
 /// Options of `report`.
@@ -27,13 +29,16 @@ pub struct ReportArgs {
     /// Print Markdown.
     #[arg(long)]
     pub markdown: bool,
-    /// Analyse from this many seconds into the recording.
-    #[arg(long, value_parser = args::time_from_start)]
+    /// Analyse from this time into the recording (host time since it started), e.g. 5s or
+    /// 500ms; a plain number is seconds.
+    #[arg(long, value_name = "TIME", value_parser = args::seconds_into, allow_hyphen_values = true)]
     pub from: Option<f64>,
-    /// Analyse up to this many seconds into the recording.
-    #[arg(long, value_parser = args::pos_time)]
+    /// Analyse up to this time into the recording (host time since it started), e.g. 12.5s;
+    /// a plain number is seconds.
+    #[arg(long, value_name = "TIME", value_parser = args::seconds_into, allow_hyphen_values = true)]
     pub to: Option<f64>,
-    /// Also write SVG plots into this folder (histograms, TIE, rails over time).
+    /// Also write SVG plots into this folder (histograms, TIE, rails, frequency, slack and rail
+    /// minima over time; with a design f_max against supply).
     #[arg(long, value_name = "DIR")]
     pub plots: Option<PathBuf>,
     /// The design the clock is judged against.
@@ -48,6 +53,59 @@ pub struct ReportArgs {
     /// Temperature to derate at (the design's otherwise), e.g. 85, -40 or "85 °C".
     #[arg(long, value_parser = args::temp, allow_hyphen_values = true)]
     pub temp: Option<f64>,
+    /// Exit with the margin code (3) also when the sign of some slack is within resolution.
+    #[arg(long)]
+    pub strict: bool,
+}
+
+/// The window asked for, checked against the recording: refused when reversed or outside it.
+fn check_window(a: &ReportArgs, sum: &ReplaySummary, file: &str) -> CliResult<String> {
+    let end = sum.duration_s;
+    let refuse =
+        |what: String, help: String| Err(CliError::input(miette!(help = help, "{file}: {what}")));
+    if let Some(from) = a.from
+        && (sum.from_at_s.is_none() || from >= end)
+    {
+        return refuse(
+            format!("--from {from:.3} s is past the end of the recording ({end:.3} s)"),
+            format!("give a time before {end:.3} s"),
+        );
+    }
+    if let Some(to) = a.to
+        && !sum.stopped_at_to
+        && to > end
+    {
+        return refuse(
+            format!("--to {to:.3} s is past the end of the recording ({end:.3} s)"),
+            format!("give a time up to {end:.3} s, or leave --to out"),
+        );
+    }
+    if (a.from.is_some() || a.to.is_some()) && sum.data_bytes == 0 {
+        return refuse(
+            "the window asked for holds no probe data".into(),
+            format!("the recording covers 0 … {end:.3} s: widen --from/--to"),
+        );
+    }
+    let from = a.from.unwrap_or(0.0);
+    let to = if sum.stopped_at_to {
+        a.to.unwrap_or(end)
+    } else {
+        end
+    };
+    // a replay that stopped at --to did not read on to the recording's end
+    let length = if sum.stopped_at_to {
+        format!("the recording, which runs on past {to:.3} s")
+    } else {
+        format!("the recording's {end:.3} s")
+    };
+    Ok(format!(
+        "{from:.3} s to {to:.3} s of {length} (host time since it started){}",
+        if a.from.is_some() || a.to.is_some() {
+            ""
+        } else {
+            ": all of it"
+        }
+    ))
 }
 
 /// The SVGs: the collector's, and with a margin the supply plot.
@@ -82,15 +140,28 @@ fn write_plots(
             })
             .collect();
         let path = dir.join("fmax_vs_supply.svg");
-        plots::fmax_vcc_svg(
-            &path,
-            &budget_curves(d, lib, m.duty, temp_c),
-            Some((m.vcc_used_v, m.clock_hz)),
-            &failure,
-        )
-        .map_err(CliError::io(path.display()))?;
+        let marks = plots::SupplyMarks {
+            operating: Some((
+                m.vcc_used_v,
+                m.operating_hz,
+                m.operating_uncertainty_hz.unwrap_or(0.0),
+            )),
+            failures: failure,
+            rated_v: rated_supply(d, lib),
+            guard_band: Some(m.guard_band),
+        };
+        plots::fmax_vcc_svg(&path, &budget_curves(d, lib, m.duty, temp_c), &marks)
+            .map_err(CliError::io(path.display()))?;
         files.push(path);
     }
+    let onset = judged
+        .and_then(|(_, m)| m.failure.as_ref().map(|f| &f.onset))
+        .or(an.snapshot.fault_onsets.first());
+    let more =
+        over_time::write(dir, &an.snapshot.series, judged.map(|j| j.1), onset).map_err(|e| {
+            CliError::runtime(miette!("cannot write plots into {}: {e}", dir.display()))
+        })?;
+    files.extend(more);
     for f in files {
         eprintln!("wrote {}", f.display());
     }
@@ -100,14 +171,23 @@ fn write_plots(
 /// `slackmeter report`.
 pub fn run(a: ReportArgs) -> CliResult<Outcome> {
     let lib = a.design.library()?;
+    if let (Some(from), Some(to)) = (a.from, a.to)
+        && from >= to
+    {
+        return Err(CliError::input(miette!(
+            help = "--from is where the analysis starts, --to where it ends",
+            "--from {from:.3} s is not before --to {to:.3} s"
+        )));
+    }
     let opts = ReplayOptions {
-        from_s: a.from.map(|ns| ns * 1e-9),
-        to_s: a.to.map(|ns| ns * 1e-9),
+        from_s: a.from,
+        to_s: a.to,
         speed: None,
     };
     let plots = a.plots.as_ref().map(|_| PlotCollector::new());
     let an = analyse(&a.file, opts, plots)?;
     let file = a.file.display().to_string();
+    let window = check_window(&a, &an.summary, &file)?;
     let header = &an.recording.parsed.header;
     let design = if a.no_design {
         None
@@ -131,21 +211,39 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
     let (snap, sum) = (&an.snapshot, &an.summary);
     let mut out = std::io::stdout().lock();
     let stdout = CliError::io("standard output");
+    let judged = margin.as_ref().zip(design.as_ref());
     if a.json {
         let doc = crate::report::recording::doc(&file, header, snap, sum);
         let mut v = serde_json::to_value(&doc)?;
+        v["window"] = serde_json::json!({
+            "from_s": a.from.unwrap_or(0.0),
+            "to_s": a.to.filter(|_| sum.stopped_at_to).unwrap_or(sum.duration_s),
+            // unknown when the replay stopped at --to (the rest was not read)
+            "recording_s": (!sum.stopped_at_to).then_some(sum.duration_s),
+            "words": window,
+        });
         if let Some(m) = &margin {
             v["margin"] = serde_json::to_value(m)?;
         }
         serde_json::to_writer_pretty(&mut out, &v)?;
         writeln!(out).map_err(stdout)?;
+    } else if a.markdown {
+        let mut text = report::markdown::render(&file, header, snap, sum, &window);
+        text.push_str(&report::series::render_markdown(
+            &snap.series,
+            margin.as_ref(),
+        ));
+        if let Some((m, d)) = judged {
+            text.push_str(&report::margin::render_markdown(m, &d.name));
+        }
+        write!(out, "{text}").map_err(stdout)?;
     } else {
-        let text = crate::report::recording::render(&file, header, snap, sum, a.markdown);
-        let judged = match (&margin, &design) {
-            (Some(m), Some(d)) => crate::report::margin::render(m, &d.name),
-            _ => String::new(),
-        };
-        write!(out, "{text}{judged}").map_err(stdout)?;
+        let mut text = report::recording::render(&file, header, snap, sum, &window);
+        text.push_str(&report::series::render(&snap.series, margin.as_ref()));
+        if let Some((m, d)) = judged {
+            text.push_str(&report::margin::render(m, &d.name));
+        }
+        write!(out, "{text}").map_err(stdout)?;
     }
     if sum.data_bytes == 0 {
         return Err(CliError::input(miette!(
@@ -154,7 +252,7 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         )));
     }
     Ok(match &margin {
-        Some(m) if m.verdict != Verdict::InsideWorstCase => Outcome::MarginBroken,
+        Some(m) if m.verdict.breaks_margin(a.strict) => Outcome::MarginBroken,
         _ => Outcome::Done,
     })
 }

@@ -341,7 +341,12 @@ fn slack(f: &mut Frame, app: &App, r: Rect) {
         "phase", "needs", measured, "slack", "%", m.vcc_used_v
     ))];
     for p in &m.worst_case.phases {
-        let short = p.slack_ns < 0.0;
+        // the words the report uses: a sign within ± its bound is not known
+        let sign = match p.sign {
+            crate::margin::Sign::Short => Span::styled(" SHORT", warn(app)),
+            crate::margin::Sign::WithinResolution => Span::styled(" sign not known", warn(app)),
+            crate::margin::Sign::Clears => Span::raw(""),
+        };
         lines.push(Line::from(vec![
             Span::raw(format!(
                 "{:<7} {:>10} {:>15} {:>11} {:>7} ",
@@ -351,11 +356,7 @@ fn slack(f: &mut Frame, app: &App, r: Rect) {
                 format!("{:+.1} ns", p.slack_ns),
                 p.slack_pct.map_or("—".into(), |x| format!("{x:+.0}%"))
             )),
-            if short {
-                Span::styled(" SHORT", warn(app))
-            } else {
-                Span::raw("")
-            },
+            sign,
         ]));
     }
     if m.mean_phases {

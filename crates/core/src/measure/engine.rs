@@ -13,6 +13,7 @@ use super::ingest::{BreakCause, Count, Event, Sample};
 use super::lines::{self, LineAcc, LineSnapshot, LineState};
 use super::onset::onset_at;
 use super::rails::{self, RailAcc, RailConfig, RailSnapshot, RailState};
+use super::series::{Series, SeriesRec};
 use super::snapshot::{FaultOnset, Snapshot, Trust, Window};
 use super::stats::DevHistogram;
 use crate::probe::{ChannelKind, LineRole, ProbeDesc};
@@ -90,6 +91,8 @@ pub struct Engine {
     heartbeat_onset: Option<FaultOnset>,
     /// Whether the clocks keep their full TIE records (for an observer).
     keep_records: bool,
+    /// The time-resolved session.
+    series: SeriesRec,
 }
 
 impl Engine {
@@ -109,6 +112,7 @@ impl Engine {
             onsets: Vec::new(),
             heartbeat_onset: None,
             keep_records: false,
+            series: SeriesRec::new(),
         }
     }
 
@@ -211,6 +215,12 @@ impl Engine {
             }
         }
         self.block_ticks = ((self.cfg.block_s * 1e9 / tick) as u64).max(1);
+        let rails = self
+            .rails
+            .values()
+            .map(|r| (r.label.clone(), r.state.cfg.limit_mv))
+            .collect();
+        self.series.install(tick, rails);
         self.probe = Some(p);
     }
 
@@ -223,9 +233,11 @@ impl Engine {
             return;
         }
         let keep = (self.cfg.window_s / self.cfg.block_s).ceil() as usize;
+        self.watch_series();
         for c in self.clocks.values_mut() {
             c.blocks.roll(c.state.acc.take(), keep, ClockAcc::merge);
         }
+        self.series.block_closed();
         for r in self.rails.values_mut() {
             r.blocks.roll(r.state.acc.take(), keep, RailAcc::merge);
         }
@@ -291,6 +303,15 @@ impl Engine {
             }
             Event::Undecodable => self.trust.bad_messages += 1,
         }
+        self.watch_series();
+    }
+
+    /// The series takes what is new in the first clock (finished short runs, glitches, stalls).
+    fn watch_series(&mut self) {
+        let now_s = self.snapshot_time_s();
+        if let Some(c) = self.clocks.values().next() {
+            self.series.watch(&c.state, now_s);
+        }
     }
 
     fn on_break(&mut self, channel: u8, cause: BreakCause) {
@@ -326,6 +347,7 @@ impl Engine {
             // the rises: every other change, from the first when it rises
             let from = usize::from(!first_rising);
             for &t in ticks.iter().skip(from).step_by(2) {
+                self.series.fault_rise(t as f64 * self.tick_ns() * 1e-9);
                 if let Some(o) = self.onset(t, "fault line")
                     && self.onsets.len() < MAX_ONSETS
                 {
@@ -354,10 +376,13 @@ impl Engine {
     fn on_analog(&mut self, channel: u8, interval_ticks: u32, samples: &[Sample]) {
         self.advance(samples[0].tick);
         let tick_ns = self.tick_ns();
-        if let Some(r) = self.rails.get_mut(&channel) {
+        let index = self.rails.keys().position(|&k| k == channel);
+        if let (Some(r), Some(i)) = (self.rails.get_mut(&channel), index) {
             r.interval_s = f64::from(interval_ticks) * tick_ns * 1e-9;
             for s in samples {
                 r.state.sample(s.tick, s.raw, s.mv, interval_ticks);
+                let t_s = s.tick as f64 * tick_ns * 1e-9;
+                self.series.rail_sample(i, t_s, s.mv, r.interval_s);
             }
         }
     }
@@ -446,6 +471,7 @@ impl Engine {
             Window::Recent => self.cfg.window_s.min(probe_time_s),
         };
         let fault_onsets = self.fault_onsets(&lines);
+        let series = self.series_of(window, probe_time_s - window_s);
         Snapshot {
             window,
             window_s,
@@ -459,7 +485,26 @@ impl Engine {
             stall_events,
             sag_events,
             fault_onsets,
+            series,
             trust: self.trust,
+        }
+    }
+
+    /// The series of a window, with the first clock's short run so far.
+    fn series_of(&self, window: Window, since_s: f64) -> Series {
+        let since = (window == Window::Recent).then_some(since_s);
+        match self
+            .clocks
+            .values()
+            .next()
+            .and_then(|c| c.state.current_run())
+        {
+            Some(run) => {
+                let mut rec = self.series.clone();
+                rec.add_run(&run);
+                rec.series(since)
+            }
+            None => self.series.series(since),
         }
     }
 

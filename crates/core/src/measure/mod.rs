@@ -3,7 +3,8 @@
 //!
 //! The path: [`Feed`] (bytes → frames) → `ingest` (messages → validated [`Event`]s on one
 //! timeline: the only place ticks are offset and checked) → `engine` (per-channel statistics
-//! in `blocks`, figures in a [`Snapshot`], failure onsets from `onset`). An [`Observer`] on
+//! in `blocks`, figures in a [`Snapshot`], failure onsets from `onset`, the time-resolved
+//! `series` and how a moving clock moved in `spread`). An [`Observer`] on
 //! the feed sees the same events and the clock's TIE records (exports, plots).
 
 mod allan;
@@ -16,7 +17,9 @@ mod lines;
 mod observe;
 mod onset;
 mod rails;
+mod series;
 mod snapshot;
+mod spread;
 mod stats;
 
 pub use clock::{ClockConfig, ClockSnapshot, Glitch, Stall};
@@ -26,5 +29,7 @@ pub use ingest::{BreakCause, Count, Event, Sample};
 pub use lines::{LineEvent, LineSnapshot};
 pub use observe::{NoObserver, Observer};
 pub use rails::{RailConfig, RailSnapshot, Sag};
+pub use series::{INTERVAL_S, MAX_POINTS, Series, SeriesPoint};
 pub use snapshot::{FaultOnset, Snapshot, Trust, Window};
+pub use spread::{Movement, movement, series_moves};
 pub use stats::DevHistogram;

@@ -6,6 +6,7 @@ use serde::Serialize;
 use super::clock::{ClockSnapshot, Glitch, Stall};
 use super::lines::LineSnapshot;
 use super::rails::{RailSnapshot, Sag};
+use super::series::Series;
 use crate::probe::{LineRole, ProbeDesc};
 
 /// The machine failed: the fault line rose. Figures at that moment.
@@ -108,11 +109,19 @@ pub struct Snapshot {
     pub sag_events: Vec<(String, Sag)>,
     /// Failures seen (fault line rising), oldest first.
     pub fault_onsets: Vec<FaultOnset>,
+    /// The window's time-resolved figures, interval by interval.
+    pub series: Series,
     /// Trust counters.
     pub trust: Trust,
 }
 
 impl Snapshot {
+    /// How the first clock moved over the window, and its figures against the moving mean.
+    pub fn movement(&self) -> Option<super::spread::Movement> {
+        self.clock()
+            .map(|c| super::spread::movement(c, &self.series))
+    }
+
     /// The first clock channel's figures.
     pub fn clock(&self) -> Option<&ClockSnapshot> {
         self.clocks.first()

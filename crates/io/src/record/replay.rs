@@ -72,6 +72,10 @@ pub struct ReplaySummary {
     pub links: Vec<LinkAt>,
     /// Damage found.
     pub damage: Vec<Damage>,
+    /// Host time of the first chunk taken after `from_s` (None: no `from_s`, or none came), s.
+    pub from_at_s: Option<f64>,
+    /// The replay stopped at `to_s`: the recording goes on past it.
+    pub stopped_at_to: bool,
 }
 
 /// How to replay.
@@ -146,11 +150,13 @@ impl Recording {
             s.chunks += 1;
             let at_s = c.host_ns.saturating_sub(t0) as f64 * 1e-9;
             if opts.to_s.is_some_and(|to| at_s > to) {
+                s.stopped_at_to = true;
                 break;
             }
             if !reset_done && opts.from_s.is_some_and(|from| at_s >= from) {
                 feed.reset();
                 reset_done = true;
+                s.from_at_s = Some(at_s);
             }
             if let Some(speed) = opts.speed {
                 let first = *first_data_ns.get_or_insert(c.host_ns);

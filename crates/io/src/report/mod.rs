@@ -2,8 +2,12 @@
 
 pub mod budget;
 pub mod margin;
+pub mod markdown;
+pub mod over_time;
 pub mod plots;
 pub mod recording;
+pub mod series;
+pub mod table;
 
 use slackmeter_core::measure::{Feed, Observer};
 

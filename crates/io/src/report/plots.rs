@@ -1,5 +1,6 @@
 //! SVG plots of a recording (plotters, SVG backend: no system fonts needed): period and
-//! high/low time histograms, TIE over time, each rail over time with its limit.
+//! high/low time histograms, TIE over time, each rail over time with its limit, and f_max
+//! against supply (the plots of the series over time are in `over_time`).
 //!
 //! The plots watch the engine (an observer of its feed): the TIE is drawn from the very records
 //! the TIE figures were taken from (glitch edges set aside, no record across a continuity
@@ -330,14 +331,29 @@ pub fn write(
     Ok(out)
 }
 
+/// What the supply plot draws besides the budget's curves.
+#[derive(Clone, Debug, Default)]
+pub struct SupplyMarks {
+    /// The measured operating point: supply V, frequency Hz, its uncertainty Hz.
+    pub operating: Option<(f64, f64, f64)>,
+    /// Measured failure onsets: supply V, frequency Hz, uncertainty Hz.
+    pub failures: Vec<(f64, f64, f64)>,
+    /// The parts' rated supply range, V (outside it: shaded, no data sheet holds there).
+    pub rated_v: Option<(f64, f64)>,
+    /// The guard band: the worst-case curve is drawn again at f / (1 + guard).
+    pub guard_band: Option<f64>,
+}
+
 /// f_max against supply from the budget (worst case and typical, at the measured duty), with the
-/// measured operating point and the measured failure onset.
+/// measured operating point and failure onsets with their uncertainty bars, the region outside
+/// the parts' rated supply shaded, and the worst-case curve less the guard band. The y axis
+/// fits the data; the legend sits beside the plot.
 pub fn fmax_vcc_svg(
     path: &Path,
     curves: &[(&str, Vec<(f64, f64)>)],
-    operating: Option<(f64, f64)>,
-    failures: &[(f64, f64, f64)],
+    marks: &SupplyMarks,
 ) -> std::io::Result<()> {
+    use super::over_time::{Key, legend};
     let all: Vec<(f64, f64)> = curves.iter().flat_map(|c| c.1.iter().copied()).collect();
     if all.is_empty() {
         return Ok(());
@@ -347,24 +363,41 @@ pub fn fmax_vcc_svg(
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| {
             (a.min(p.0), b.max(p.0))
         });
-    let mut fhi = all.iter().map(|p| p.1).fold(0.0, f64::max);
-    if let Some((_, f)) = operating {
-        fhi = fhi.max(f);
-    }
-    for &(_, f, u) in failures {
-        fhi = fhi.max(f + u);
-    }
-    let root = SVGBackend::new(path, (900, 500)).into_drawing_area();
+    let guard_curve: Option<Vec<(f64, f64)>> = marks.guard_band.and_then(|g| {
+        curves
+            .first()
+            .map(|c| c.1.iter().map(|&(v, f)| (v, f / (1.0 + g))).collect())
+    });
+    // the y axis: every curve, point and bar, padded
+    let ys = all
+        .iter()
+        .map(|p| p.1)
+        .chain(guard_curve.iter().flatten().map(|p| p.1))
+        .chain(
+            marks
+                .operating
+                .iter()
+                .chain(&marks.failures)
+                .flat_map(|&(_, f, u)| [f - u, f + u]),
+        )
+        .filter(|f| f.is_finite());
+    let (flo, fhi) = ys.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), f| {
+        (a.min(f), b.max(f))
+    });
+    let pad = ((fhi - flo) * 0.08).max(fhi.abs() * 1e-4).max(1.0);
+    let (y0, y1) = ((flo - pad) / 1e6, (fhi + pad) / 1e6);
+    let root = SVGBackend::new(path, (1060, 500)).into_drawing_area();
     root.fill(&WHITE).map_err(err)?;
-    let mut chart = ChartBuilder::on(&root)
+    let (plot, side) = root.split_horizontally(760);
+    let mut chart = ChartBuilder::on(&plot)
         .caption(
             "f_max against supply: budget and measurement",
             ("sans-serif", 22),
         )
         .margin(15)
         .x_label_area_size(45)
-        .y_label_area_size(70)
-        .build_cartesian_2d(vlo..vhi, 0.0..fhi * 1.15 / 1e6)
+        .y_label_area_size(80)
+        .build_cartesian_2d(vlo..vhi, y0..y1)
         .map_err(err)?;
     chart
         .configure_mesh()
@@ -372,55 +405,92 @@ pub fn fmax_vcc_svg(
         .y_desc("MHz")
         .draw()
         .map_err(err)?;
-    let styles = [
-        BLUE.stroke_width(2),
-        GREEN.stroke_width(2),
-        MAGENTA.stroke_width(2),
-    ];
-    for (i, (name, pts)) in curves.iter().enumerate() {
-        let st = styles[i % styles.len()];
-        chart
-            .draw_series(LineSeries::new(pts.iter().map(|&(v, f)| (v, f / 1e6)), st))
-            .map_err(err)?
-            .label(*name)
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], st));
+    let mut keys = Vec::new();
+    if let Some((lo, hi)) = marks.rated_v {
+        let grey = RGBColor(120, 120, 120);
+        for (a, b) in [(vlo, lo.max(vlo)), (hi.min(vhi), vhi)] {
+            if b > a {
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(a, y0), (b, y1)],
+                        grey.mix(0.2).filled(),
+                    )))
+                    .map_err(err)?;
+            }
+        }
+        keys.push((
+            format!("outside the rated {lo:.2}–{hi:.2} V"),
+            Key::Area(grey),
+        ));
     }
-    if let Some((v, f)) = operating {
+    let colours = [BLUE, GREEN, MAGENTA];
+    for (i, (name, pts)) in curves.iter().enumerate() {
+        let c = colours[i % colours.len()];
+        chart
+            .draw_series(LineSeries::new(
+                pts.iter().map(|&(v, f)| (v, f / 1e6)),
+                c.stroke_width(2),
+            ))
+            .map_err(err)?;
+        keys.push((name.to_string(), Key::Line(c)));
+    }
+    if let (Some(g), Some(pts)) = (marks.guard_band, &guard_curve) {
+        chart
+            .draw_series(DashedLineSeries::new(
+                pts.iter().map(|&(v, f)| (v, f / 1e6)),
+                6,
+                4,
+                BLUE.stroke_width(2),
+            ))
+            .map_err(err)?;
+        keys.push((
+            format!("worst case less the {:.0} % guard band", g * 100.0),
+            Key::Dashed(BLUE),
+        ));
+    }
+    // uncertainty bars with caps, wide enough to see
+    let cap = (vhi - vlo) * 0.008;
+    let bars = |pts: &[(f64, f64, f64)], c: RGBColor| -> Vec<PathElement<(f64, f64)>> {
+        pts.iter()
+            .flat_map(|&(v, f, u)| {
+                let (a, b) = ((f - u) / 1e6, (f + u) / 1e6);
+                [
+                    PathElement::new(vec![(v, a), (v, b)], c.stroke_width(2)),
+                    PathElement::new(vec![(v - cap, a), (v + cap, a)], c.stroke_width(2)),
+                    PathElement::new(vec![(v - cap, b), (v + cap, b)], c.stroke_width(2)),
+                ]
+            })
+            .collect()
+    };
+    if let Some(op) = marks.operating {
+        chart.draw_series(bars(&[op], BLACK)).map_err(err)?;
         chart
             .draw_series(std::iter::once(Circle::new(
-                (v, f / 1e6),
+                (op.0, op.1 / 1e6),
                 6,
                 BLACK.filled(),
             )))
-            .map_err(err)?
-            .label("measured operating point (filled circle)")
-            .legend(|(x, y)| Circle::new((x + 10, y), 5, BLACK.filled()));
+            .map_err(err)?;
+        keys.push((
+            "measured operating point ± uncertainty".into(),
+            Key::Dot(BLACK),
+        ));
     }
-    if !failures.is_empty() {
+    if !marks.failures.is_empty() {
+        chart.draw_series(bars(&marks.failures, RED)).map_err(err)?;
         chart
             .draw_series(
-                failures
+                marks
+                    .failures
                     .iter()
                     .map(|&(v, f, _)| TriangleMarker::new((v, f / 1e6), 8, RED.filled())),
             )
-            .map_err(err)?
-            .label("measured failure onset (triangles, with uncertainty)")
-            .legend(|(x, y)| TriangleMarker::new((x + 10, y), 6, RED.filled()));
-        chart
-            .draw_series(failures.iter().map(|&(v, f, u)| {
-                PathElement::new(
-                    vec![(v, (f - u) / 1e6), (v, (f + u) / 1e6)],
-                    RED.stroke_width(2),
-                )
-            }))
             .map_err(err)?;
+        keys.push((
+            "measured failure onset ± uncertainty".into(),
+            Key::Triangle(RED),
+        ));
     }
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::LowerRight)
-        .background_style(WHITE.mix(0.8))
-        .border_style(BLACK)
-        .draw()
-        .map_err(err)?;
+    legend(&side, &keys)?;
     root.present().map_err(err)
 }

@@ -5,7 +5,7 @@ use std::fmt::Write;
 use serde::Serialize;
 
 use crate::record::{Header, ReplaySummary};
-use slackmeter_core::measure::{ClockSnapshot, Snapshot};
+use slackmeter_core::measure::{ClockSnapshot, Movement, Snapshot};
 use slackmeter_core::units::{hz, ns};
 
 /// The JSON document of `slackmeter report --json`.
@@ -43,6 +43,10 @@ pub struct ReportDoc<'a> {
     pub glitch_events: &'a [slackmeter_core::measure::Glitch],
     /// Sags (most recent).
     pub sag_events: &'a [(String, slackmeter_core::measure::Sag)],
+    /// The session interval by interval.
+    pub series: &'a slackmeter_core::measure::Series,
+    /// How the first clock moved, and its jitter and TIE against the moving mean.
+    pub movement: Option<Movement>,
 }
 
 /// Build the JSON document.
@@ -69,7 +73,57 @@ pub fn doc<'a>(
         damage: &sum.damage,
         glitch_events: &snap.glitch_events,
         sag_events: &snap.sag_events,
+        series: &snap.series,
+        movement: snap.movement(),
     }
+}
+
+/// Marks a whole-window figure of a moving clock.
+pub const SPREAD: &str = "whole-window spread of a moving clock";
+
+/// The figures of a moving clock as (figure, value, note) rows: that it moved and over which
+/// range, and its jitter and TIE against the moving mean (none for a steady clock).
+pub fn moving_rows(m: &Movement) -> Vec<[String; 3]> {
+    if !m.moving {
+        return Vec::new();
+    }
+    let range = match (m.low_hz, m.high_hz) {
+        (Some(lo), Some(hi)) => format!("{} … {}", hz(lo), hz(hi)),
+        _ => "—".into(),
+    };
+    let jitter = match (
+        m.period_jitter_detrended_ns,
+        m.period_jitter_detrended_uncertainty_ns,
+    ) {
+        _ if m.period_jitter_detrended_below_resolution => "below resolution".to_string(),
+        (Some(j), Some(u)) => format!("{} RMS ± {}", ns(j), ns(u)),
+        _ => "—".into(),
+    };
+    vec![
+        [
+            "moving clock".into(),
+            range,
+            format!(
+                "between {} intervals (χ²/ν {:.3e} against one steady clock): the whole-window frequency, period jitter, N-cycle error and TIE are a spread, not figures of one clock",
+                m.intervals,
+                m.chi2_per_dof.unwrap_or(f64::NAN)
+            ),
+        ],
+        [
+            "detrended jitter".into(),
+            jitter,
+            "period jitter against the moving mean, from cycle-to-cycle: √((c2c² − q²/2) / 2)"
+                .into(),
+        ],
+        [
+            "detrended TIE".into(),
+            format!("{} pk-pk", opt_ns(m.tie_detrended_pkpk_ns)),
+            format!(
+                "within {}-cycle records, each against its own fitted clock",
+                m.tie_record_cycles
+            ),
+        ],
+    ]
 }
 
 fn opt_ns(v: Option<f64>) -> String {
@@ -84,8 +138,15 @@ fn pm(v: Option<f64>, u: Option<f64>, f: impl Fn(f64) -> String) -> String {
     }
 }
 
-/// Text of one clock's figures.
-pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
+/// Text of one clock's figures; with a `movement` that moved, the whole-window figures are
+/// marked as a spread and the figures against the moving mean follow.
+pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Movement>) {
+    let moving = movement.is_some_and(|m| m.moving);
+    let spread = if moving {
+        format!(" [{SPREAD}]")
+    } else {
+        String::new()
+    };
     let _ = writeln!(
         out,
         "Clock {} (channel {}, {}, tick {})",
@@ -104,7 +165,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     };
     let _ = writeln!(
         out,
-        "  frequency     {}   ({counted})",
+        "  frequency     {}   ({counted}){spread}",
         pm(c.frequency_hz, c.frequency_uncertainty_hz, |x| hz(x)
             .to_string())
     );
@@ -138,7 +199,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  high time     mean {}, WORST {} (± {}, cycle {}, at {})",
+        "  high time     mean {}, worst high {} (± {}, cycle {}, at {})",
         opt_ns(c.high_mean_ns),
         opt_ns(c.high_min_ns),
         ns(c.resolution_ns),
@@ -147,7 +208,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  low time      mean {}, WORST {} (± {}, cycle {}, at {})",
+        "  low time      mean {}, worst low {} (± {}, cycle {}, at {})",
         opt_ns(c.low_mean_ns),
         opt_ns(c.low_min_ns),
         ns(c.resolution_ns),
@@ -169,7 +230,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
             c.period_jitter_n
         )
     };
-    let _ = writeln!(out, "  period jitter {jitter}");
+    let _ = writeln!(out, "  period jitter {jitter}{spread}");
     let _ = writeln!(
         out,
         "  cycle-to-cycle {} RMS, max |·| {} (floor {})",
@@ -179,7 +240,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  TIE           {} RMS against a least-squares clock, pk-pk {} within {}-cycle records",
+        "  TIE           {} RMS against a least-squares clock{spread}, pk-pk {} within {}-cycle records",
         opt_ns(c.tie_rms_ns),
         opt_ns(c.tie_pkpk_ns),
         c.tie_record_cycles
@@ -187,11 +248,14 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     for n in &c.n_cycle {
         let _ = writeln!(
             out,
-            "  {}-cycle error {} RMS, max |·| {}",
+            "  {}-cycle error {} RMS, max |·| {}{spread}",
             n.n,
             ns(n.rms_ns),
             ns(n.max_abs_ns)
         );
+    }
+    for [f, v, note] in movement.map(moving_rows).unwrap_or_default() {
+        let _ = writeln!(out, "  {f:<13} {v} ({note})");
     }
     if !c.allan.is_empty() {
         let pts: Vec<String> = c
@@ -219,35 +283,33 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     }
 }
 
-/// The full analysis as text (Markdown when `markdown`).
+/// The full analysis as text, with the window analysed in words (`window`).
 pub fn render(
     file: &str,
     header: &Header,
     snap: &Snapshot,
     sum: &ReplaySummary,
-    markdown: bool,
+    window: &str,
 ) -> String {
     let mut out = String::new();
-    let h1 = if markdown { "# " } else { "" };
-    let h2 = if markdown { "\n## " } else { "\n" };
-    let _ = writeln!(out, "{h1}Recording {file}");
+    let _ = writeln!(out, "Recording {file}");
     let _ = writeln!(
         out,
         "source {}, {:.1} s, written by {} on {}",
         header.source, sum.duration_s, header.tool, header.host
     );
+    let _ = writeln!(out, "window analysed: {window}");
     for n in &header.notes {
         let _ = writeln!(out, "note: {n}");
     }
     if let Some(p) = &snap.probe {
         let _ = writeln!(out, "probe {}, tick {}", p.firmware, ns(p.tick_ns));
     }
-    if markdown {
-        out.push_str("\n```text\n");
-    }
-    for c in &snap.clocks {
+    let movement = snap.movement();
+    for (i, c) in snap.clocks.iter().enumerate() {
         let _ = writeln!(out);
-        clock_lines(&mut out, c);
+        // the series follows the first clock
+        clock_lines(&mut out, c, movement.as_ref().filter(|_| i == 0));
     }
     if !snap.rails.is_empty() {
         let _ = writeln!(out, "\nRails");
@@ -329,9 +391,5 @@ pub fn render(
             );
         }
     }
-    if markdown {
-        out.push_str("```\n");
-    }
-    let _ = h2;
     out
 }
