@@ -168,6 +168,8 @@ impl PtyServer {
         let t0 = probe.now_ns();
         let mut stats = ServeStats::default();
         let mut backlog: Vec<u8> = Vec::new();
+        // whether the bytes written so far end inside a frame
+        let mut mid_frame = false;
         let mut rx = [0u8; 4096];
         let mut done_at: Option<Instant> = None;
         while !stop.load(Ordering::Relaxed) {
@@ -189,14 +191,20 @@ impl PtyServer {
             probe.run_until(target);
             backlog.append(probe.output());
             if backlog.len() > BACKLOG_CAP {
-                // drop the oldest whole frames and let the probe report it
-                let cut = backlog.len() - BACKLOG_CAP / 2;
+                // drop the oldest whole frames and let the probe report it; the rest of a frame
+                // already partly written stays, so the host never sees a frame cut in two
+                let keep = if mid_frame {
+                    backlog.iter().position(|&b| b == 0).map_or(backlog.len(), |i| i + 1)
+                } else {
+                    0
+                };
+                let cut = (backlog.len() - BACKLOG_CAP / 2).max(keep);
                 let end = backlog[cut..]
                     .iter()
                     .position(|&b| b == 0)
                     .map_or(backlog.len(), |i| cut + i + 1);
-                let frames = backlog[..end].iter().filter(|&&b| b == 0).count() as u32;
-                backlog.drain(..end);
+                let frames = backlog[keep..end].iter().filter(|&&b| b == 0).count() as u32;
+                backlog.drain(keep..end);
                 stats.dropped_frames += u64::from(frames);
                 probe.note_dropped(frames);
             }
@@ -205,6 +213,7 @@ impl PtyServer {
                     Ok(0) => break,
                     Ok(n) => {
                         stats.bytes += n as u64;
+                        mid_frame = backlog[n - 1] != 0;
                         backlog.drain(..n);
                     }
                     Err(e) if not_now(&e) => break,
