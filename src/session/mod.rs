@@ -165,6 +165,9 @@ impl Session {
             }
             let e = self.feeder.recv().await?;
             self.handle(e);
+            // a stream faster than the engine keeps the channel full: give a caller's other
+            // branches (redraw, keys) their turn between events instead of never returning
+            tokio::task::yield_now().await;
         }
     }
 

@@ -194,7 +194,10 @@ impl PtyServer {
                 // drop the oldest whole frames and let the probe report it; the rest of a frame
                 // already partly written stays, so the host never sees a frame cut in two
                 let keep = if mid_frame {
-                    backlog.iter().position(|&b| b == 0).map_or(backlog.len(), |i| i + 1)
+                    backlog
+                        .iter()
+                        .position(|&b| b == 0)
+                        .map_or(backlog.len(), |i| i + 1)
                 } else {
                     0
                 };
