@@ -90,6 +90,8 @@ fn every_situation_has_one_code_for_every_command() {
         ("missing file", vec!["parts".into(), "--parts".into(), missing_file.clone()], 2),
         // a design that does not load
         ("bad design", vec!["budget".into(), bad_design.clone()], 2),
+        // a device that never ends is refused after a bounded read
+        ("bad design", vec!["budget".into(), "/dev/zero".into()], 2),
         ("bad design", vec!["report".into(), steady.clone(), "--design".into(), bad_design.clone()], 2),
         ("bad design", vec!["watch".into(), "--sim".into(), "--design".into(), bad_design.clone()], 2),
         ("bad design", vec!["replay".into(), steady.clone(), "--design".into(), bad_design.clone()], 2),

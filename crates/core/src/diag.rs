@@ -138,3 +138,60 @@ mod tests {
         assert_eq!((err.line, err.column), (2, 1));
     }
 }
+
+/// Largest design or part file read (4 MiB): a device or a huge file is refused, not read
+/// without end.
+pub const MAX_TEXT_BYTES: u64 = 4 << 20;
+
+/// Read a text file of at most [`MAX_TEXT_BYTES`]; a larger one, or bytes that are not UTF-8,
+/// are an error that says where (byte offset, line and column of the first bad byte).
+pub fn read_text(path: &std::path::Path) -> std::io::Result<String> {
+    use std::io::{Error, ErrorKind, Read};
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)?
+        .take(MAX_TEXT_BYTES + 1)
+        .read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > MAX_TEXT_BYTES {
+        return Err(Error::new(
+            ErrorKind::InvalidData,
+            format!(
+                "larger than {} MiB: not a text file of this kind",
+                MAX_TEXT_BYTES >> 20
+            ),
+        ));
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        let at = e.utf8_error().valid_up_to();
+        let good = &e.as_bytes()[..at];
+        let line = good.iter().filter(|&&b| b == b'\n').count() + 1;
+        let column = at - good.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1) + 1;
+        Error::new(
+            ErrorKind::InvalidData,
+            format!(
+                "not UTF-8 text: byte {at} (line {line}, column {column}) is not valid UTF-8; \
+                 save the file as UTF-8"
+            ),
+        )
+    })
+}
+
+#[cfg(test)]
+mod read_tests {
+    use super::*;
+
+    #[test]
+    fn bad_bytes_are_located_and_devices_are_bounded() {
+        let dir = std::env::temp_dir().join(format!("slackmeter-read-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("bad.toml");
+        std::fs::write(&p, b"[design]\nname = \"a\xffb\"\n").unwrap();
+        let e = read_text(&p).unwrap_err().to_string();
+        assert!(e.contains("byte 18 (line 2, column 10)"), "{e}");
+        std::fs::write(&p, "name = \"ok\"\n").unwrap();
+        assert_eq!(read_text(&p).unwrap(), "name = \"ok\"\n");
+        // the zero device never ends: refused after the bound
+        let e = read_text(std::path::Path::new("/dev/zero")).unwrap_err();
+        assert!(e.to_string().contains("larger than 4 MiB"), "{e}");
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+}

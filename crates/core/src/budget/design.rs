@@ -37,7 +37,7 @@ impl Design {
 
     /// Read and resolve a design file from disk.
     pub fn load(path: &std::path::Path, lib: &Library) -> Result<Design, DesignError> {
-        let text = std::fs::read_to_string(path).map_err(|e| DesignError::Io {
+        let text = crate::diag::read_text(path).map_err(|e| DesignError::Io {
             path: path.display().to_string(),
             err: e,
         })?;

@@ -61,7 +61,7 @@ impl Library {
             .collect();
         paths.sort();
         for path in paths {
-            let text = std::fs::read_to_string(&path).map_err(io(&path))?;
+            let text = crate::diag::read_text(&path).map_err(io(&path))?;
             sources.push(Source::new(path.display().to_string(), text));
         }
         Library::from_sources(&sources).map_err(LibraryError::Source)
