@@ -162,6 +162,32 @@ max_ns = { 25 = [11] }
         assert_eq!(lib.notes.len(), 1);
     }
 
+    /// Numbers a user part file gives are checked: NaN, infinite and absurd loads and times
+    /// are refused with the file, line and column, never turned into a 0 ns delay.
+    #[test]
+    fn absurd_numbers_in_a_part_file_are_refused_with_their_place() {
+        for (load, max, want) in [
+            ("nan", "[85, 17, 14]", "mine.toml:2:8: load NaN pF"),
+            ("1e9", "[85, 17, 14]", "mine.toml:2:8: load 1000000000 pF"),
+            ("50", "[85, nan, 14]", "mine.toml:12:17: time NaN ns"),
+            ("50", "[85, 1e300, 14]", "mine.toml:12:17: time"),
+            ("50", "[85, -1, 14]", "mine.toml:12:17: time -1 ns"),
+        ] {
+            let mut sources: Vec<Source> = BUILTIN_FILES
+                .iter()
+                .map(|(n, t)| Source::new(*n, *t))
+                .collect();
+            sources.push(Source::new(
+                "mine.toml",
+                format!(
+                    "[[part]]\ntype = \"74HCX1\"\nfamily = \"74HC\"\nfunction = \"x\"\nsource = \"s\"\nstatus = \"seen\"\nload_pf = {load}\nvcc_v = [2.0, 4.5, 6.0]\n[[part.arc]]\nname = \"A->Y\"\nkind = \"delay\"\nmax_ns = {{ 25 = {max} }}\n"
+                ),
+            ));
+            let e = Library::from_sources(&sources).expect_err(want).to_string();
+            assert!(e.starts_with(want), "{e}");
+        }
+    }
+
     #[test]
     fn bad_library_file_points_at_the_problem() {
         let src = Source::new(

@@ -129,6 +129,13 @@ fn check_shape_sources(lib: &Library) -> Res<()> {
     Ok(())
 }
 
+/// Largest time a part file may give (1 s: a memory's write cycle is milliseconds).
+const MAX_NS: f64 = 1e9;
+/// Largest frequency a part file may give (10 GHz).
+const MAX_MHZ: f64 = 1e4;
+/// Largest test load a part file may give (10 nF).
+const MAX_LOAD_PF: f64 = 1e4;
+
 fn build_part(lib: &Library, src: &Source, p: RawPart) -> Res<Part> {
     let family = lib
         .families
@@ -154,6 +161,18 @@ fn build_part(lib: &Library, src: &Source, p: RawPart) -> Res<Part> {
             "the part's temperature range must satisfy temp_min_c < temp_max_c",
             "this part",
             None,
+        ));
+    }
+    let loads = std::iter::once(p.load_pf).chain(p.arc.iter().filter_map(|a| a.typ_load_pf));
+    if let Some(bad) = loads
+        .into_iter()
+        .find(|l| !(l.is_finite() && *l > 0.0 && *l <= MAX_LOAD_PF))
+    {
+        return Err(src.fail(
+            p.type_name.span(),
+            format!("load {bad} pF of this part is not a positive number up to {MAX_LOAD_PF} pF"),
+            "this part",
+            Some("load_pf (and typ_load_pf) give the data sheet's test load, e.g. 50".into()),
         ));
     }
     let arcs = p
@@ -357,19 +376,20 @@ impl Cols<'_> {
             ));
         }
         let bad = |v: &f64| {
+            // beyond 10 GHz or 1 s no logic part's data sheet goes: a typing slip
             if self.mhz {
-                !(v.is_finite() && *v > 0.0)
+                !(v.is_finite() && *v > 0.0 && *v <= MAX_MHZ)
             } else {
-                !(v.is_finite() && *v >= 0.0)
+                !(v.is_finite() && *v >= 0.0 && *v <= MAX_NS)
             }
         };
         if let Some(bad) = values.get_ref().iter().find(|v| bad(v)) {
             return Err(src.fail(
                 values.span(),
                 if self.mhz {
-                    format!("frequency {bad} MHz is not a finite, positive number")
+                    format!("frequency {bad} MHz is not a positive number up to {MAX_MHZ} MHz")
                 } else {
-                    format!("time {bad} ns is not a finite, non-negative number")
+                    format!("time {bad} ns is not a finite, non-negative number up to {MAX_NS} ns")
                 },
                 "here",
                 None,
