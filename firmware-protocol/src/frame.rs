@@ -43,6 +43,9 @@ pub struct RawFrame<'a> {
     pub header: Header,
     /// Body (without CRC).
     pub body: &'a [u8],
+    /// Frames missing just before this one by the sequence numbers (0 from a single-frame
+    /// decode): the receiver's data has a hole here.
+    pub lost_before: u16,
 }
 
 /// Why bytes could not be turned into a frame.
@@ -120,6 +123,7 @@ fn parse_decoded(decoded: &[u8]) -> Result<RawFrame<'_>, FrameError> {
             seq: u16::from_le_bytes([data[2], data[3]]),
         },
         body: &data[HEADER_LEN..],
+        lost_before: 0,
     })
 }
 
@@ -263,10 +267,11 @@ impl StreamDecoder {
         self.recent_len = (self.recent_len + 1).min(RECENT_FRAMES);
     }
 
-    /// Sequence bookkeeping of an intact frame: whether to deliver it.
-    fn admit(&mut self, msg_type: u8, seq: u16, crc: u32) -> bool {
-        // a HELLO restarts the sender's numbering, so an identical one may come again in
-        // answer to the next DESCRIBE: only a copy right behind its original is a duplicate
+    /// Sequence bookkeeping of an intact frame: None to drop it, else the frames missing just
+    /// before it.
+    fn admit(&mut self, msg_type: u8, seq: u16, crc: u32) -> Option<u16> {
+        // a HELLO may come again, byte for byte, in answer to the next DESCRIBE: only a copy
+        // right behind its original is a duplicate
         let copy = if msg_type == HELLO_TYPE {
             self.last() == Some((seq, crc))
         } else {
@@ -274,17 +279,27 @@ impl StreamDecoder {
         };
         if copy {
             self.counters.duplicates += 1;
-            return false;
+            return None;
         }
         let far = core::mem::take(&mut self.far_behind);
+        let mut lost = 0;
         if let Some(expect) = self.next_seq
             && seq != expect
-            && msg_type != HELLO_TYPE
         {
             let ahead = seq.wrapping_sub(expect);
-            if ahead < 0x8000 {
+            if msg_type == HELLO_TYPE {
+                // a probe that kept running keeps its numbering across the HELLO it sends in
+                // answer to DESCRIBE: a jump ahead is what the link lost meanwhile; 0 (or a
+                // number behind) is a reset, and tracking starts again
+                if seq != 0 && ahead < 0x8000 {
+                    self.counters.seq_gaps += 1;
+                    self.counters.lost_frames += u64::from(ahead);
+                    lost = ahead;
+                }
+            } else if ahead < 0x8000 {
                 self.counters.seq_gaps += 1;
                 self.counters.lost_frames += u64::from(ahead);
+                lost = ahead;
             } else if far == Some(seq.wrapping_sub(1)) {
                 // two successive frames far behind: the sender restarted its numbers
                 self.counters.seq_restarts += 1;
@@ -294,7 +309,7 @@ impl StreamDecoder {
                 if expect.wrapping_sub(seq) as usize > RECENT_FRAMES {
                     self.far_behind = Some(seq);
                 }
-                return false;
+                return None;
             }
         }
         if msg_type == HELLO_TYPE {
@@ -303,7 +318,7 @@ impl StreamDecoder {
         self.counters.frames += 1;
         self.next_seq = Some(seq.wrapping_add(1));
         self.remember(seq, crc);
-        true
+        Some(lost)
     }
 
     /// Feed bytes; `on_frame` is called for each intact frame, in order.
@@ -363,9 +378,7 @@ impl StreamDecoder {
                     self.buf[n - 1],
                 ]);
                 let (msg_type, seq) = (f.header.msg_type, f.header.seq);
-                if !self.admit(msg_type, seq, crc) {
-                    return None;
-                }
+                let lost_before = self.admit(msg_type, seq, crc)?;
                 let body_end = n - CRC_LEN;
                 Some(RawFrame {
                     header: Header {
@@ -374,6 +387,7 @@ impl StreamDecoder {
                         seq,
                     },
                     body: &self.buf[HEADER_LEN..body_end],
+                    lost_before,
                 })
             }
             Err(e) => {

@@ -203,10 +203,18 @@ fn sequence_gaps_are_counted_and_hello_restarts_them() {
     for f in &frames {
         d.push(f, |_| {});
     }
-    d.push(&hello_frame(40), |_| {});
-    d.push(&ping(41, 0), |_| {});
-    assert_eq!(d.counters.seq_gaps, 1, "HELLO is a restart, not a gap");
+    // a HELLO numbered 0 is a reset: a restart, not a gap
+    d.push(&hello_frame(0), |_| {});
+    d.push(&ping(1, 0), |_| {});
+    assert_eq!(d.counters.seq_gaps, 1, "HELLO 0 is a restart, not a gap");
     assert_eq!(d.counters.frames, 8);
+    // a HELLO ahead (a probe that kept running answering DESCRIBE after an outage) counts the
+    // frames between as lost, and says so on the frame
+    let mut lost_at = Vec::new();
+    d.push(&hello_frame(40), |f| lost_at.push(f.lost_before));
+    d.push(&ping(41, 0), |f| lost_at.push(f.lost_before));
+    assert_eq!(lost_at, [38, 0]);
+    assert_eq!(d.counters.lost_frames, 2 + 38);
 }
 
 /// A sequence number seen again with the same content is a copy: dropped, counted, and the

@@ -83,6 +83,7 @@ pub fn message_body(data: &[u8]) {
             seq: 7,
         },
         body,
+        lost_before: 0,
     };
     if let Ok(m) = Message::decode(&f) {
         round_trip(&m, 7);

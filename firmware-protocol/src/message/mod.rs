@@ -141,6 +141,7 @@ mod tests {
                 seq: 0,
             },
             body: &body[..n],
+            lost_before: 0,
         };
         let back = Message::decode(&f).unwrap();
         let mut again = [0u8; MAX_BODY];

@@ -265,6 +265,7 @@ impl Engine {
                 self.trust.reconnects += 1;
                 self.break_all();
             }
+            Event::LinkGap { .. } => self.break_all(),
             Event::Edges {
                 channel,
                 first_rising,

@@ -52,9 +52,9 @@ impl<O: Observer> Feed<O> {
         engine.on_decoder_counters(&decoder.counters);
     }
 
-    /// The link came back (continuity broken, sequence tracking restarts).
+    /// The link came back (continuity broken). Sequence tracking goes on, so the frames a
+    /// still-running probe sent meanwhile are counted lost when its numbering resumes.
     pub fn note_reconnect(&mut self) {
-        self.decoder.reset_sequence();
         let (engine, observer) = (&mut self.engine, &mut self.observer);
         self.ingest.reconnect(|ev| deliver(engine, observer, ev));
     }

@@ -1,6 +1,7 @@
 //! The engine's checked front door: decoded protocol messages become validated [`Event`]s on
-//! one timeline. Every tick is placed here, once, with checked arithmetic: a later HELLO of the
-//! same probe continues the timeline past everything seen (its ticks start again), a batch
+//! one timeline. Every tick is placed here, once, with checked arithmetic: after a later HELLO
+//! of the same probe, ticks that go on keep the timeline and ticks that start again continue it
+//! past everything seen; frames the link lost break continuity (never a stall); a batch
 //! that would run past 2^64 ticks keeps what fits and breaks continuity, and a channel whose
 //! time runs backwards breaks continuity. Data for channels the probe did not describe (or of
 //! another kind) is refused. Nothing here panics, whatever the probe sends.
@@ -79,6 +80,12 @@ pub enum Event<'a> {
     },
     /// The link came back: continuity broke on every channel.
     Reconnect,
+    /// Frames the link lost just before this point (sequence numbers missing): continuity
+    /// broke on every channel. Not a stall of the clock: the data is missing, not the edges.
+    LinkGap {
+        /// Frames missing.
+        frames: u16,
+    },
     /// Edge timestamps of a clock channel, polarities alternating from `first_rising`.
     Edges {
         /// Channel id.
@@ -151,6 +158,9 @@ pub(crate) struct Ingest {
     /// The latest tick delivered on any channel.
     newest: u64,
     seen_data: bool,
+    /// The same probe said HELLO again: whether its ticks went on or started again is decided
+    /// by its next data.
+    rebase_pending: bool,
     ticks: Vec<u64>,
     samples: Vec<Sample>,
 }
@@ -164,6 +174,7 @@ impl Ingest {
             offset: Some(0),
             newest: 0,
             seen_data: false,
+            rebase_pending: false,
             ticks: Vec::new(),
             samples: Vec::new(),
         }
@@ -171,6 +182,11 @@ impl Ingest {
 
     /// One frame that passed its CRC: its events to `emit`, in order.
     pub(crate) fn frame(&mut self, f: &RawFrame<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        if f.lost_before > 0 {
+            emit(&Event::LinkGap {
+                frames: f.lost_before,
+            });
+        }
         match Message::decode(f) {
             Ok(m) => self.message(&m, emit),
             Err(_) => emit(&Event::Undecodable),
@@ -224,12 +240,27 @@ impl Ingest {
                 }
             }
         } else if self.seen_data {
-            // the same probe again (restarted or reconnected): its ticks start again, so the
-            // timeline carries on after everything seen
-            self.offset = self.newest.checked_add(1);
+            // the same probe again: restarted (its ticks start again) or still running (a
+            // reconnect, a DESCRIBE): its next data tells
+            self.rebase_pending = true;
         }
         let desc = self.probe.insert(desc);
         emit(&Event::Probe { desc, new });
+    }
+
+    /// The first data after the same probe's HELLO, at probe tick `first`: ticks that go on
+    /// past everything seen keep the timeline (the probe kept running: what the link missed
+    /// is a gap, not a restart); ticks that start again are placed after everything seen.
+    fn settle(&mut self, first: u64) {
+        if std::mem::take(&mut self.rebase_pending) {
+            let on = self
+                .offset
+                .and_then(|o| first.checked_add(o))
+                .is_some_and(|t| t > self.newest);
+            if !on {
+                self.offset = self.newest.checked_add(1);
+            }
+        }
     }
 
     /// Data delivered on `channel` up to `last`: the channel's and the timeline's newest tick.
@@ -260,6 +291,7 @@ impl Ingest {
             });
             return;
         }
+        self.settle(e.first_tick);
         let mut buf = std::mem::take(&mut self.ticks);
         buf.resize(usize::from(e.count), 0);
         let n = e.ticks_into(&mut buf);
@@ -313,6 +345,7 @@ impl Ingest {
             });
             return;
         }
+        self.settle(w.start_tick);
         let end = w
             .start_tick
             .checked_add(u64::from(w.gate_ticks))
@@ -356,6 +389,7 @@ impl Ingest {
                 cause: BreakCause::Lost,
             });
         }
+        self.settle(a.first_tick);
         let first = self.offset.and_then(|off| a.first_tick.checked_add(off));
         let step = u64::from(a.interval_ticks);
         // the samples whose tick stays below 2^64 (the interval is at least 1)
@@ -514,6 +548,41 @@ mod tests {
             "Undecodable".into(),
             "Break { channel: 0, cause: Reversal { to_tick: 10 } }".into(),
             "Edges { channel: 0, first_rising: true, ticks: [10, 20, 30] }".into(),
+        ];
+        assert_eq!(ev, want);
+    }
+
+    /// After the same probe's HELLO, ticks that go on keep the timeline (a probe that kept
+    /// running while the link was down), ticks that start again are placed after everything
+    /// seen (a reset); a hole in the numbering breaks continuity as a link gap.
+    #[test]
+    fn a_probe_that_kept_running_keeps_its_timeline() {
+        let clk = [Channel::edge(0, 1, "CLK")];
+        let mut b = Vec::new();
+        hello_frame(&mut b, &clk);
+        edges_frame(&mut b, 1, 1000, &[100, 100]);
+        // the link was down: HELLO numbered 9 (frames 2–8 lost), the probe's ticks went on
+        let mut h = Vec::new();
+        hello_frame(&mut h, &clk);
+        let mut d = StreamDecoder::new();
+        let mut body = Vec::new();
+        d.push(&h, |f| body = f.body.to_vec());
+        let mut wire = [0u8; MAX_WIRE];
+        let n = encode_frame(types::HELLO, 9, &body, &mut wire).unwrap();
+        b.extend_from_slice(&wire[..n]);
+        edges_frame(&mut b, 10, 90_000, &[100, 100]);
+        // a reset: HELLO numbered 0, ticks from the start again
+        hello_frame(&mut b, &clk);
+        edges_frame(&mut b, 1, 50, &[100]);
+        let ev = events(&b);
+        let want = [
+            "probe new=true".to_string(),
+            "Edges { channel: 0, first_rising: true, ticks: [1000, 1100, 1200] }".into(),
+            "LinkGap { frames: 7 }".into(),
+            "probe new=false".into(),
+            "Edges { channel: 0, first_rising: true, ticks: [90000, 90100, 90200] }".into(),
+            "probe new=false".into(),
+            "Edges { channel: 0, first_rising: true, ticks: [90251, 90351] }".into(),
         ];
         assert_eq!(ev, want);
     }

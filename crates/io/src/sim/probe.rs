@@ -229,7 +229,8 @@ impl SimProbe {
             firmware: FIRMWARE_ID,
             channels: Channels::List(&chans),
         });
-        self.seq = 0;
+        // the numbering goes on across a HELLO (PROTOCOL.md §3): a host that reconnects
+        // counts the frames its link lost meanwhile
         self.send(&hello);
     }
 
@@ -641,6 +642,7 @@ mod tests {
                         seq: 0,
                     },
                     body: b,
+                    lost_before: 0,
                 };
                 match Message::decode(&rf).unwrap() {
                     Message::Ack(a) => a,
