@@ -7,7 +7,7 @@ use serde::Serialize;
 use super::super::allan::AllanStream;
 use super::acc::{ClockAcc, RunAcc, ShortRun, seg_add};
 use super::buffers::{RiseHistory, Scratch};
-use super::config::{BATCH, ClockConfig, MAX_GAP_TICKS, REFRESH, SHORT_RUN_NS};
+use super::config::{BATCH, ClockConfig, MAX_GAP_TICKS, REFRESH, SHORT_RUN_NS, SPACING_FRACTION};
 use super::tie::close_record;
 
 /// A short pulse: a double-clocking risk.
@@ -66,8 +66,14 @@ pub struct ClockState {
     /// the typical values every [`REFRESH`] periods, so the per-edge path compares integers).
     pub(super) glitch_high_ticks: u64,
     pub(super) glitch_low_ticks: u64,
+    /// Two edges of one polarity closer than this (ticks) make the newer one undecided: an
+    /// extra pulse wider than the real phase of its polarity still splits a cycle.
+    pub(super) spacing_ticks: u64,
     pub(super) stall_ticks: u64,
     pub(super) refresh: u32,
+    /// Periods of the current refresh segment: 1 (the first period sets the thresholds), 16,
+    /// 256, then [`REFRESH`] (early typical values come from more than one cycle soon).
+    pub(super) segment: u32,
     /// Length of a short run (20 ms) in ticks.
     pub(super) run_ticks: u64,
     pub(super) allan: Option<AllanStream>,
@@ -112,8 +118,10 @@ impl ClockState {
             seg: [(0, 0); 3],
             glitch_high_ticks: 0,
             glitch_low_ticks: 0,
+            spacing_ticks: 0,
             stall_ticks: u64::MAX,
             refresh: 0,
+            segment: 1,
             run_ticks: (SHORT_RUN_NS / tick_ns) as u64,
             allan: None,
             allan_every: 1,
@@ -198,12 +206,13 @@ impl ClockState {
         self.acc.as_mut()
     }
 
-    /// `n` more periods: the refresh segment ends at [`REFRESH`] periods (or at the very first
-    /// period, which sets the thresholds at once) and the thresholds are refreshed.
+    /// `n` more periods: the refresh segment ends at `segment` periods (the very first period
+    /// sets the thresholds at once) and the thresholds are refreshed.
     pub(super) fn count_periods(&mut self, n: u32) {
         self.refresh += n;
-        if self.refresh >= REFRESH || self.refresh == 1 && self.stall_ticks == u64::MAX {
+        if self.refresh >= self.segment {
             self.refresh = 0;
+            self.segment = (self.segment * 16).min(REFRESH);
             self.refresh_thresholds();
         }
     }
@@ -225,9 +234,12 @@ impl ClockState {
                 self.cfg.glitch_fraction * self.typ_low,
             ),
         };
-        // a pulse narrower than the threshold (strictly) is a glitch
-        self.glitch_high_ticks = h.ceil().max(0.0) as u64;
-        self.glitch_low_ticks = l.ceil().max(0.0) as u64;
+        // a pulse narrower than the threshold (strictly) is undecided; with a fraction, one
+        // tick more, as a fragment just under it may read one tick longer
+        let margin = if self.cfg.glitch_ns.is_some() { 0 } else { 1 };
+        self.glitch_high_ticks = h.ceil().max(0.0) as u64 + margin;
+        self.glitch_low_ticks = l.ceil().max(0.0) as u64 + margin;
+        self.spacing_ticks = (SPACING_FRACTION * self.typ_period).ceil().max(0.0) as u64;
         self.stall_ticks = if self.typ_period > 0.0 {
             (self.cfg.stall_periods * self.typ_period) as u64
         } else {
@@ -264,25 +276,76 @@ impl ClockState {
             return;
         }
         if let Some((nt, nr)) = self.suspect.take() {
-            // P→N was short. A glitch near an edge leaves two short pulses in a row (P→N, N→M):
-            // the shorter one is the glitch, the other is what is left of a real phase.
-            let second = tick - nt;
-            if second < self.glitch_ticks(nr) && second < nt - pt {
-                self.glitch(nt, nr, second);
-                // P stays pending: the phase it opened goes on
-            } else {
-                self.glitch(pt, pr, nt - pt);
-                self.pending = Some((tick, rising));
-            }
+            self.decide(pt, pr, nt, nr, tick, rising);
             return;
         }
-        if tick - pt < self.glitch_ticks(pr) {
-            // a short pulse: decide with the next edge which two edges to set aside
+        self.after_pending(pt, pr, tick, rising);
+    }
+
+    /// The newest edge `tick` after the pending edge `pt` (no undecided edge between): held
+    /// back when the pulse it closes is short or it comes too soon after the last edge of its
+    /// polarity, else the pending edge is committed.
+    #[inline]
+    fn after_pending(&mut self, pt: u64, pr: bool, tick: u64, rising: bool) {
+        if tick - pt < self.glitch_ticks(pr)
+            || self
+                .last_edge
+                .is_some_and(|le| tick - le < self.spacing_ticks)
+        {
+            // decide with the next edge which two edges (if any) to set aside
             self.suspect = Some((tick, rising));
             return;
         }
         self.commit(pt, pr);
         self.pending = Some((tick, rising));
+    }
+
+    /// The pending edge P, the undecided edge N and the newest edge M: three readings of the
+    /// pulses A (last committed edge → P), B (P → N) and C (N → M), each judged by how far
+    /// its phases lie from the typical ones (ticks, one tick allowed for quantisation):
+    /// B and C are real phases (or close two typical periods); B is a runt inside the phase A opened (A + B + C is one
+    /// phase); or C is a runt inside the phase P opened (A is a whole phase, B + C only the
+    /// start of one). The best fit wins; within a tick, the edges are kept.
+    fn decide(&mut self, pt: u64, pr: bool, nt: u64, nr: bool, tick: u64, rising: bool) {
+        let (b, c) = ((nt - pt) as f64, (tick - nt) as f64);
+        let a = self.last_edge.map(|le| (pt - le) as f64);
+        let (typ_b, typ_a) = (self.typ_phase(pr), self.typ_phase(nr));
+        let off = |x: f64, typ: f64| ((x - typ).abs() - 1.0).max(0.0);
+        let over = |x: f64, typ: f64| (x - typ - 1.0).max(0.0);
+        // an absolute threshold is a promise: a pulse under it is never a real phase
+        let forced = self.cfg.glitch_ns.is_some() && nt - pt < self.glitch_ticks(pr);
+        // real phases: each near its typical value, or both cycles they close near the typical
+        // period (phases of a jittery clock near the resolution)
+        let keep = match (forced, a) {
+            (true, _) => f64::INFINITY,
+            (false, Some(a)) => (off(b, typ_b) + off(c, typ_a))
+                .min(off(a + b, self.typ_period) + off(b + c, self.typ_period)),
+            (false, None) => off(b, typ_b) + off(c, typ_a),
+        };
+        let (inner, outer) = match a {
+            Some(a) => (off(a + b + c, typ_a), off(a, typ_a) + over(b + c, typ_b)),
+            None => (over(b + c, typ_a), over(b + c, typ_b)),
+        };
+        // a tick of doubt keeps the edges: near the resolution (or while the typical values
+        // come from the first cycles) a short real phase and a runt differ by less
+        if keep <= inner.min(outer) + 1.0 {
+            // real phases: P is committed, M is judged after N as any newest edge
+            self.commit(pt, pr);
+            self.pending = Some((nt, nr));
+            self.after_pending(nt, nr, tick, rising);
+        } else if outer < inner || outer == inner && c < b {
+            self.glitch(nt, nr, tick - nt);
+            // P stays pending: the phase it opened goes on
+        } else {
+            self.glitch(pt, pr, nt - pt);
+            self.pending = Some((tick, rising));
+        }
+    }
+
+    /// The typical phase a pulse opened by an edge of this polarity has (ticks).
+    #[inline]
+    fn typ_phase(&self, rising: bool) -> f64 {
+        if rising { self.typ_high } else { self.typ_low }
     }
 
     #[inline]
