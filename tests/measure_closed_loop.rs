@@ -312,3 +312,41 @@ fn histogram_percentiles_agree_with_sorted_periods() {
         );
     }
 }
+
+#[test]
+fn coverage_says_what_share_of_the_cycles_was_stamped() {
+    // the virtual probe's own definitions are the truth: every edge stamped (continuous), or
+    // `burst_edges` consecutive edges every `burst_every_s` (a burst of E edges holds E/2 − 1
+    // whole periods of the freq·spacing cycles that elapse)
+    for (bursts, freq) in [(None, 1.0e6), (Some(400u32), 1.0e6), (Some(2000), 250e3)] {
+        let mut m = model(freq, 0.4, 1.0, 8.0, 5);
+        m.burst_edges = bursts;
+        m.burst_every_s = 0.01;
+        let mut probe = SimProbe::new(m, vec![]);
+        probe.start();
+        probe.run_until(200e6);
+        probe.flush_all();
+        let bytes = std::mem::take(probe.output());
+        let mut feed = Feed::new(EngineConfig::default());
+        feed.push(&bytes);
+        let snap = feed.engine.snapshot(Window::Session);
+        let c = snap.clock().unwrap();
+        let cov = c.coverage.unwrap();
+        match bursts {
+            None => {
+                assert_eq!(c.observation, "continuous");
+                assert!(cov > 0.999, "{cov}");
+                assert_eq!(c.worst_label(), "WORST");
+            }
+            Some(e) => {
+                let want = (f64::from(e) / 2.0 - 1.0) / (freq * 0.01);
+                assert_eq!(c.observation, "bursts");
+                assert!((cov - want).abs() < 0.02 * want, "{cov} vs {want}");
+                assert!(
+                    c.worst_label()
+                        .starts_with("worst of the observed cycles (")
+                );
+            }
+        }
+    }
+}

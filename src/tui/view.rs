@@ -218,6 +218,11 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
                 format!("{} ±{}", opt_ns(c.low_min_ns), ns(c.resolution_ns)),
                 Style::default().add_modifier(Modifier::BOLD),
             ),
+            Span::raw(
+                c.observed_share()
+                    .map(|s| format!("   of the observed cycles ({s})"))
+                    .unwrap_or_default(),
+            ),
         ]),
         Line::from(format!("jitter     {jitter}")),
         Line::from(format!(

@@ -131,15 +131,19 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     }
     let _ = writeln!(
         out,
-        "  period        mean {}, min {}, max {}",
+        "  period        mean {}, min {}{}, max {}",
         opt_ns(c.period_mean_ns),
         opt_ns(c.period_min_ns),
+        c.observed_share()
+            .map(|s| format!(" (of the observed cycles: {s})"))
+            .unwrap_or_default(),
         opt_ns(c.period_max_ns)
     );
     let _ = writeln!(
         out,
-        "  high time     mean {}, WORST {} (± {}, cycle {}, at {})",
+        "  high time     mean {}, {} {} (± {}, cycle {}, at {})",
         opt_ns(c.high_mean_ns),
+        c.worst_label(),
         opt_ns(c.high_min_ns),
         ns(c.resolution_ns),
         c.high_min_cycle.map_or("—".into(), |v| v.to_string()),
@@ -147,8 +151,9 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  low time      mean {}, WORST {} (± {}, cycle {}, at {})",
+        "  low time      mean {}, {} {} (± {}, cycle {}, at {})",
         opt_ns(c.low_mean_ns),
+        c.worst_label(),
         opt_ns(c.low_min_ns),
         ns(c.resolution_ns),
         c.low_min_cycle.map_or("—".into(), |v| v.to_string()),
@@ -217,6 +222,36 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     for u in &c.unavailable {
         let _ = writeln!(out, "  {}: unavailable — {}", u.figure, u.reason);
     }
+}
+
+/// What the figures stand on: *complete* (every cycle stamped, nothing lost), *sampled* (the
+/// probe stamped a share of the cycles: bursts or count windows) or *lost* (data went missing).
+pub fn trust_summary(snap: &Snapshot) -> String {
+    let lost = !snap.trust.clean();
+    let sampled: Vec<String> = snap
+        .clocks
+        .iter()
+        .filter(|c| c.observation != "continuous")
+        .map(|c| match c.coverage {
+            Some(v) if c.observation == "bursts" => {
+                format!(
+                    "{} stamped in bursts, {:.2} % of its cycles",
+                    c.label,
+                    v * 100.0
+                )
+            }
+            _ => format!("{} observed in count windows, no single cycle", c.label),
+        })
+        .collect();
+    let mut out = match (lost, sampled.is_empty()) {
+        (false, true) => " — complete: every cycle stamped, nothing lost".to_string(),
+        (true, _) => " — lost: data went missing, figures cover incomplete data".to_string(),
+        (false, false) => " — sampled: nothing lost, but not every cycle stamped".to_string(),
+    };
+    if !sampled.is_empty() {
+        out.push_str(&format!(" ({})", sampled.join("; ")));
+    }
+    out
 }
 
 /// The full analysis as text (Markdown when `markdown`).
@@ -301,11 +336,7 @@ pub fn render(
         t.probe_edges_dropped,
         t.probe_samples_dropped,
         t.reconnects,
-        if t.clean() {
-            " — nothing lost"
-        } else {
-            " — figures cover incomplete data"
-        }
+        trust_summary(snap)
     );
     if !sum.marks.is_empty() {
         let _ = writeln!(out, "\nMarks");

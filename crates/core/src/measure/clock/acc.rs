@@ -117,6 +117,10 @@ pub struct ClockAcc {
     pub stalls: u64,
     /// Contiguous runs of periods (each gap, loss or glitch starts a new one).
     pub runs: u64,
+    /// First and last tick of the stamped periods (the elapsed time they lie in).
+    pub(super) span: (u64, u64),
+    /// Ticks the clock was seen stopped (stall gaps): elapsed, but no cycle was missed.
+    pub(super) idle_ticks: u64,
     // count windows (when the probe only counts)
     pub(super) count_edges: u64,
     pub(super) count_ticks: u64,
@@ -147,6 +151,8 @@ impl ClockAcc {
             glitches: 0,
             stalls: 0,
             runs: 0,
+            span: (u64::MAX, 0),
+            idle_ticks: 0,
             count_edges: 0,
             count_ticks: 0,
             count_windows: 0,
@@ -162,6 +168,28 @@ impl ClockAcc {
         self.tie_rec_max_pkpk = self.tie_rec_max_pkpk.max(pkpk);
         self.tie_rec_ss += ss;
         self.tie_rec_n += n;
+    }
+
+    /// Stamped periods from tick `from` to tick `to` (widens the elapsed span).
+    #[inline]
+    pub(super) fn cover(&mut self, from: u64, to: u64) {
+        self.span = (self.span.0.min(from), self.span.1.max(to));
+    }
+
+    /// The share of elapsed cycles that were stamped: stamped time over the span the periods
+    /// lie in less the time the clock was seen stopped (None before a period). With more than
+    /// one run (bursts, losses) the span runs on to `now_tick`: the cycles after the last
+    /// burst elapsed too.
+    pub(super) fn coverage(&self, now_tick: u64) -> Option<f64> {
+        let from = self.span.0;
+        let to = if self.runs > 1 {
+            self.span.1.max(now_tick)
+        } else {
+            self.span.1
+        };
+        let elapsed = to.checked_sub(from)?.saturating_sub(self.idle_ticks);
+        let stamped = self.period.mean()? * self.period.n as f64;
+        (elapsed > 0).then(|| (stamped / elapsed as f64).clamp(0.0, 1.0))
     }
 
     /// Fold a later block into this one.
@@ -183,6 +211,8 @@ impl ClockAcc {
         self.glitches += o.glitches;
         self.stalls += o.stalls;
         self.runs += o.runs;
+        self.cover(o.span.0, o.span.1);
+        self.idle_ticks += o.idle_ticks;
         self.count_edges += o.count_edges;
         self.count_ticks += o.count_ticks;
         self.count_windows += o.count_windows;

@@ -350,6 +350,7 @@ impl ClockState {
         let (period, low, high) = (&sc.period[..nr], &sc.low[..nr], &sc.high[..nf]);
         let rise_ticks = &rises[1..];
         let idx0 = kidx + 1;
+        a.cover(rises[0], rises[nr]);
         let rp = RunSums::about(period, ep.0, ep.1);
         a.period.add_sums(&rp, period, rise_ticks, idx0);
         a.hist_period.record_run(period, &rp);

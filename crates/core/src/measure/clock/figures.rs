@@ -59,6 +59,12 @@ pub struct ClockSnapshot {
     pub method: String,
     /// Probe tick: the resolution of every single time, ns.
     pub resolution_ns: f64,
+    /// How the cycles were observed: "continuous" (every edge stamped), "bursts" (stamped in
+    /// stretches: a burst-mode probe or a link that fell behind) or "count-windows".
+    pub observation: String,
+    /// Share of the elapsed cycles that were stamped (0…1); the worst-cycle figures are the
+    /// worst of these cycles only.
+    pub coverage: Option<f64>,
     /// Edges seen.
     pub edges: u64,
     /// Complete periods measured.
@@ -166,6 +172,8 @@ impl ClockSnapshot {
             label: label.to_string(),
             method: "edge timestamps".into(),
             resolution_ns: q,
+            observation: "continuous".into(),
+            coverage: None,
             edges: 0,
             cycles: 0,
             count_windows: 0,
@@ -214,11 +222,41 @@ impl ClockSnapshot {
         }
     }
 
+    /// The label of a worst-cycle figure: "WORST", or "worst of the observed cycles (N % of
+    /// all)" when not every cycle was stamped.
+    pub fn worst_label(&self) -> String {
+        match self.observed_share() {
+            Some(share) => format!("worst of the observed cycles ({share})"),
+            None => "WORST".into(),
+        }
+    }
+
+    /// "N % of all" when not every cycle was stamped (None for a continuous stream).
+    pub fn observed_share(&self) -> Option<String> {
+        match self.coverage {
+            Some(c) if self.observation != "continuous" => Some(format!("{} of all", percent(c))),
+            _ => None,
+        }
+    }
+
     /// Say that `figure` cannot be observed, and why.
     pub(super) fn mark_unavailable(&mut self, figure: &str, reason: &str) {
         self.unavailable.push(Unavailable {
             figure: figure.into(),
             reason: reason.into(),
         });
+    }
+}
+
+/// A share as a percentage with two significant digits (at least one decimal below 10 %).
+fn percent(share: f64) -> String {
+    let p = share * 100.0;
+    if p >= 10.0 {
+        format!("{p:.0} %")
+    } else if p >= 1.0 {
+        format!("{p:.1} %")
+    } else {
+        let digits = (1 - (p.max(1e-9)).log10().floor() as i32).clamp(1, 9) as usize;
+        format!("{p:.digits$} %")
     }
 }

@@ -16,7 +16,13 @@ use super::count::{counted_figures, counted_only};
 use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
 use super::state::ClockState;
 
-/// Figures of one channel from a merged block (and the session's Allan estimator).
+/// A stream whose stamped cycles cover at least this share of the elapsed ones is continuous
+/// (a dropped edge or a lost frame now and then does not make it sampled; common practice, no
+/// source).
+const CONTINUOUS: f64 = 0.99;
+
+/// Figures of one channel from a merged block (and the session's Allan estimator); `now_tick`
+/// is the probe's latest time (the end of the elapsed time when the cycles came in bursts).
 pub fn snapshot(
     channel: u8,
     label: &str,
@@ -24,6 +30,7 @@ pub fn snapshot(
     state: &ClockState,
     timebase_ppm: u16,
     with_allan: bool,
+    now_tick: u64,
 ) -> ClockSnapshot {
     let q = state.tick_ns;
     let mut s = ClockSnapshot::empty(channel, label, q, state.cfg.tie_record);
@@ -38,9 +45,15 @@ pub fn snapshot(
     s.stalls = a.stalls;
     if counted_only(a) {
         counted_figures(&mut s, a, timebase_ppm);
+        s.observation = "count-windows".into();
+        s.coverage = Some(0.0);
         return s;
     }
     s.cycles = a.period.n;
+    s.coverage = a.coverage(now_tick);
+    if s.coverage.is_some_and(|c| c < CONTINUOUS) {
+        s.observation = "bursts".into();
+    }
     if a.period.n > 0 {
         stamped_figures(&mut s, a, state, timebase_ppm);
     }

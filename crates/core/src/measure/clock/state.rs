@@ -399,6 +399,7 @@ impl ClockState {
         }
         if let Some(a) = self.acc.as_mut() {
             a.stalls += 1;
+            a.idle_ticks += t - last;
         }
         self.break_continuity();
     }
@@ -535,6 +536,7 @@ impl ClockState {
             a.batch.add(b, t, idx);
         }
         a.period.add(p, t, idx);
+        a.cover(t - p as u64, t);
         a.hist_period.record(p);
         if let Some(pp) = prev {
             a.c2c.add(p - pp, t, idx);
