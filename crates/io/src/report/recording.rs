@@ -184,7 +184,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     );
     let _ = writeln!(
         out,
-        "  TIE           {} RMS against a least-squares clock, pk-pk {} within {}-cycle records",
+        "  TIE           {} RMS against a least-squares clock per contiguous stretch, pk-pk {} within {}-cycle records",
         opt_ns(c.tie_rms_ns),
         opt_ns(c.tie_pkpk_ns),
         c.tie_record_cycles

@@ -424,7 +424,7 @@ impl ClockState {
         let v = &sc.tmp[..nr];
         // Σk·(v − lo) in the same pass as the sums when the offsets are narrow
         let (rv, ske) = RunSums::about_weighted(v, lo, hi, true);
-        let fit = &mut a.fit;
+        let fit = &mut self.stretch;
         let nr128 = nr as i128;
         let u_off = if !fit.big
             && kk0 >= 0

@@ -61,3 +61,7 @@ pub const BATCH: u32 = 256;
 
 /// Length of a short run (the stretch of cycles a failure onset is read from), ns.
 pub const SHORT_RUN_NS: f64 = 20e6;
+
+/// Fewest rises a contiguous stretch needs for its TIE to count (a line passes through two
+/// exactly: they say nothing about phase noise).
+pub const MIN_TIE_STRETCH: i128 = 3;

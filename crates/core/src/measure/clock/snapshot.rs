@@ -11,7 +11,7 @@
 
 use super::super::stats::{DevHistogram, IntStats};
 use super::acc::ClockAcc;
-use super::config::{BATCH, K};
+use super::config::{BATCH, K, MIN_TIE_STRETCH};
 use super::count::{counted_figures, counted_only};
 use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
 use super::state::ClockState;
@@ -121,9 +121,33 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
         s.cycle_to_cycle_max_ns =
             Some(a.c2c.max.unsigned_abs().max(a.c2c.min.unsigned_abs()) as f64 * q);
     }
-    s.tie_rms_ns = a.fit.residual_rms().map(|v| v * q);
+    // TIE only where phase is known: each contiguous stretch against its own ideal clock,
+    // pooled (the stretch still open counts whole)
+    let (mut ss, mut n_tie) = a.tie_pool;
+    if let Some((s2, n2)) = state.open_stretch_tie() {
+        (ss, n_tie) = (ss + s2, n_tie + n2);
+    }
+    if n_tie > 0 {
+        s.tie_rms_ns = Some((ss / n_tie as f64).sqrt() * q);
+    } else {
+        s.mark_unavailable(
+            "tie_rms_ns",
+            &format!(
+                "no contiguous stretch of {MIN_TIE_STRETCH} cycles or more: phase is not known \
+                 across continuity breaks"
+            ),
+        );
+    }
     if a.tie_rec_n > 0 {
         s.tie_pkpk_ns = Some(a.tie_rec_max_pkpk * q);
+    } else {
+        s.mark_unavailable(
+            "tie_pkpk_ns",
+            &format!(
+                "no contiguous stretch of {} cycles (one TIE record)",
+                state.cfg.tie_record
+            ),
+        );
     }
     let pref = state.refs.map_or(0, |r| r.0);
     s.n_cycle = n_cycle_figures(&a.ncycle, state.cfg.n_cycles, mean_p, pref, q);

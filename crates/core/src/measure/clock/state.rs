@@ -5,9 +5,11 @@
 use serde::Serialize;
 
 use super::super::allan::AllanStream;
-use super::acc::{ClockAcc, RunAcc, ShortRun, seg_add};
+use super::acc::{ClockAcc, FitSums, RunAcc, ShortRun, seg_add};
 use super::buffers::{RiseHistory, Scratch};
-use super::config::{BATCH, ClockConfig, MAX_GAP_TICKS, REFRESH, SHORT_RUN_NS, SPACING_FRACTION};
+use super::config::{
+    BATCH, ClockConfig, MAX_GAP_TICKS, MIN_TIE_STRETCH, REFRESH, SHORT_RUN_NS, SPACING_FRACTION,
+};
 use super::tie::close_record;
 
 /// A short pulse: a double-clocking risk.
@@ -47,7 +49,10 @@ pub struct ClockState {
     pub(super) prev_period: Option<i64>,
     /// Tick and ideal-cycle index of the last committed rise (kept across gaps).
     pub(super) anchor: Option<(u64, u64)>,
+    /// Origin of the current contiguous stretch's TIE fit (cycle index, tick of its first rise).
     pub(super) fit_origin: Option<(u64, u64)>,
+    /// The TIE fit of the current contiguous stretch (closed into the block at a break).
+    pub(super) stretch: FitSums,
     /// The run's latest rises (for the N-cycle error).
     pub(super) rises: RiseHistory,
     /// The TIE record being filled (committed rises).
@@ -110,6 +115,7 @@ impl ClockState {
             prev_period: None,
             anchor: None,
             fit_origin: None,
+            stretch: FitSums::default(),
             batch_sum: 0,
             batch_n: 0,
             typ_high: 0.0,
@@ -170,6 +176,7 @@ impl ClockState {
     /// Continuity is broken (data lost, new connection, burst): no interval spans the break.
     pub fn break_continuity(&mut self) {
         self.close_run();
+        self.close_stretch();
         self.pending = None;
         self.suspect = None;
         self.last_rise = None;
@@ -191,6 +198,29 @@ impl ClockState {
     pub(crate) fn restart_at(&mut self, tick: u64) {
         self.break_continuity();
         self.anchor = self.anchor.map(|(_, k)| (tick, k));
+    }
+
+    /// The current contiguous stretch ends: its TIE residuals go into the block (when it is long
+    /// enough), and the next stretch is fitted from its own origin.
+    fn close_stretch(&mut self) {
+        let fit = std::mem::take(&mut self.stretch);
+        self.fit_origin = None;
+        if fit.n >= MIN_TIE_STRETCH
+            && let (Some(ss), Some(a)) = (fit.residual_ss(), self.acc.as_mut())
+        {
+            a.tie_pool = (a.tie_pool.0 + ss, a.tie_pool.1 + fit.n as u64);
+        }
+    }
+
+    /// The current stretch's TIE residuals (ticks², rises) when it is long enough to count.
+    pub(super) fn open_stretch_tie(&self) -> Option<(f64, u64)> {
+        (self.stretch.n >= MIN_TIE_STRETCH)
+            .then(|| {
+                self.stretch
+                    .residual_ss()
+                    .map(|ss| (ss, self.stretch.n as u64))
+            })
+            .flatten()
     }
 
     fn ensure_acc(&mut self, first_period: Option<i64>) -> Option<&mut ClockAcc> {
@@ -544,9 +574,9 @@ impl ClockState {
             a.runs += 1;
         }
         if first_fit {
-            a.fit.add(0, 0);
+            self.stretch.add(0, 0);
         }
-        a.fit.add(kk, u);
+        self.stretch.add(kk, u);
         for (i, v) in ncyc.iter().enumerate() {
             if let Some(v) = v {
                 a.ncycle[i].add(*v, t, idx);
