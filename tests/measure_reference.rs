@@ -339,3 +339,24 @@ fn a_jittery_clock_near_the_resolution_keeps_its_phases() {
         assert_eq!(c.cycles, 199, "p {p} h {h}");
     }
 }
+
+#[test]
+fn allan_tau_is_the_sample_spacing_in_mean_periods() {
+    // NIST SP 1065 §5.2: τ = m·τ0 with τ0 the spacing of the phase samples. A 1 µs clock whose
+    // first period is stretched to 1.28 µs (a start-up cycle): samples every round(10 µs /
+    // 1.28 µs) = 8 cycles lie 8 µs apart, not 8 × 1.28 µs
+    let mut ticks = vec![1000u64, 1640];
+    for k in 0..20_000u64 {
+        let r = 2280 + k * 1000 + (k * 7919 % 13);
+        ticks.push(r);
+        ticks.push(r + 500);
+    }
+    let mut cfg = engine_cfg([10, 100]);
+    cfg.clock.allan_tau0_s = 1e-5;
+    let mut f = Feed::new(cfg);
+    f.push(&hello(TICK_1NS));
+    f.push(&edge_frames(&ticks, 400, 1));
+    let c = f.engine.snapshot(Window::Session).clocks[0].clone();
+    let first = c.allan.first().expect("an Allan point");
+    assert!((first.tau_s - 8e-6).abs() < 8e-6 * 1e-3, "{}", first.tau_s);
+}

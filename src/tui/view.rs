@@ -164,15 +164,7 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
         (Some(v), None) => fmt(v),
         _ => "—".into(),
     };
-    let jitter = if c.period_jitter_below_resolution {
-        format!("below resolution (< {})", ns(c.period_jitter_floor_ns))
-    } else {
-        format!(
-            "{} RMS, pk-pk {}",
-            opt_ns(c.period_jitter_rms_ns),
-            opt_ns(c.period_jitter_pkpk_ns)
-        )
-    };
+    let jitter = c.jitter_text(true);
     let (name, p) = match app.detail {
         Detail::Period => ("period", &c.period_percentiles),
         Detail::High => ("high time", &c.high_percentiles),

@@ -114,12 +114,20 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     let _ = writeln!(
         out,
         "  duty          {}",
-        pm(
-            c.duty.map(|d| d * 100.0),
-            c.duty_uncertainty.map(|d| d * 100.0),
-            |x| format!("{x:.3} %")
-        )
+        match (c.duty, c.duty_uncertainty) {
+            (Some(d), Some(u)) => {
+                // as many decimals as the uncertainty needs for two significant digits
+                let digits = (1 - (u * 100.0).max(1e-9).log10().floor() as i32).clamp(1, 9);
+                let digits = digits as usize;
+                format!("{:.digits$} % ± {:.digits$} %", d * 100.0, u * 100.0)
+            }
+            (Some(d), None) => format!("{:.3} %", d * 100.0),
+            _ => "—".into(),
+        }
     );
+    if let Some(note) = &c.duty_note {
+        let _ = writeln!(out, "                ({note})");
+    }
     if let Some((p, lo, hi)) = c.duty_sampled {
         let _ = writeln!(
             out,
@@ -159,21 +167,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
         c.low_min_cycle.map_or("—".into(), |v| v.to_string()),
         c.low_min_at_s.map_or("—".into(), |t| format!("{t:.6} s"))
     );
-    let jitter = if c.period_jitter_below_resolution {
-        format!(
-            "below resolution (< {}); de-biased estimate {}",
-            ns(c.period_jitter_floor_ns),
-            opt_ns(c.period_jitter_debiased_ns)
-        )
-    } else {
-        format!(
-            "{} RMS (± {}), pk-pk {} over N = {}",
-            opt_ns(c.period_jitter_rms_ns),
-            opt_ns(c.period_jitter_uncertainty_ns),
-            opt_ns(c.period_jitter_pkpk_ns),
-            c.period_jitter_n
-        )
-    };
+    let jitter = c.jitter_text(false);
     let _ = writeln!(out, "  period jitter {jitter}");
     let _ = writeln!(
         out,
@@ -203,7 +197,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
             .allan
             .iter()
             .take(6)
-            .map(|a| format!("τ {:.0e} s: {:.2e}", a.tau_s, a.adev))
+            .map(|a| format!("τ {:.2e} s: {:.2e}", a.tau_s, a.adev))
             .collect();
         let _ = writeln!(out, "  Allan dev.    {}", pts.join("; "));
     }

@@ -2,6 +2,8 @@
 
 use serde::Serialize;
 
+use crate::units::ns;
+
 /// A figure the probe could not observe, and why.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Unavailable {
@@ -109,6 +111,8 @@ pub struct ClockSnapshot {
     pub duty: Option<f64>,
     /// Its uncertainty (k = 2.5).
     pub duty_uncertainty: Option<f64>,
+    /// Why the duty is less certain than it looks (a phase of a tick or two), when it is.
+    pub duty_note: Option<String>,
     /// Statistical duty from level samples, with its Wilson 95 % interval.
     pub duty_sampled: Option<(f64, f64, f64)>,
     /// Period jitter RMS as measured (sample standard deviation of periods).
@@ -117,7 +121,7 @@ pub struct ClockSnapshot {
     pub period_jitter_rms_pop_ns: Option<f64>,
     /// Quantisation floor of period jitter at random phase: q/√6.
     pub period_jitter_floor_ns: f64,
-    /// True when the measured jitter is explained by quantisation alone (below resolution).
+    /// True when the de-biased jitter's uncertainty covers zero (below resolution).
     pub period_jitter_below_resolution: bool,
     /// De-biased estimate √(s² − q²/6), labelled as such.
     pub period_jitter_debiased_ns: Option<f64>,
@@ -196,6 +200,7 @@ impl ClockSnapshot {
             low_max_ns: None,
             duty: None,
             duty_uncertainty: None,
+            duty_note: None,
             duty_sampled: None,
             period_jitter_rms_ns: None,
             period_jitter_rms_pop_ns: None,
@@ -236,6 +241,45 @@ impl ClockSnapshot {
         match self.coverage {
             Some(c) if self.observation != "continuous" => Some(format!("{} of all", percent(c))),
             _ => None,
+        }
+    }
+
+    /// The period jitter as text, the same figures as the JSON: the de-biased estimate with its
+    /// uncertainty and the raw spread beside it; "below resolution" (with the bound) when the
+    /// uncertainty covers zero. `compact`: the bound or the estimate with the raw spread only.
+    pub fn jitter_text(&self, compact: bool) -> String {
+        let (Some(d), Some(u), Some(raw)) = (
+            self.period_jitter_debiased_ns,
+            self.period_jitter_uncertainty_ns,
+            self.period_jitter_rms_ns,
+        ) else {
+            return "—".into();
+        };
+        if compact {
+            return if self.period_jitter_below_resolution {
+                format!("below resolution (< {}), raw {}", ns(d + u), ns(raw))
+            } else {
+                format!("{} ± {} (de-biased), raw {}", ns(d), ns(u), ns(raw))
+            };
+        }
+        if self.period_jitter_below_resolution {
+            format!(
+                "below resolution (< {}); de-biased {} ± {}, raw {} RMS",
+                ns(d + u),
+                ns(d),
+                ns(u),
+                ns(raw)
+            )
+        } else {
+            format!(
+                "{} ± {} RMS (de-biased), raw {}, pk-pk {} over N = {}",
+                ns(d),
+                ns(u),
+                ns(raw),
+                self.period_jitter_pkpk_ns
+                    .map_or("—".into(), |v| ns(v).to_string()),
+                self.period_jitter_n
+            )
         }
     }
 

@@ -86,6 +86,9 @@ pub struct ClockState {
     pub(super) allan_countdown: u64,
     /// The current block.
     pub acc: Option<ClockAcc>,
+    /// Edges seen while there was no block (before the first period, or after a block was
+    /// handed over): counted into the next block, so edge counts are exact.
+    pub(super) loose_edges: u64,
     pub(super) run: RunAcc,
     /// The last two finished short runs (older first).
     pub(crate) runs: [Option<ShortRun>; 2],
@@ -133,6 +136,7 @@ impl ClockState {
             allan_every: 1,
             allan_countdown: 0,
             acc: None,
+            loose_edges: 0,
             run: RunAcc::default(),
             runs: [None, None],
             glitch_events: Vec::new(),
@@ -232,6 +236,9 @@ impl ClockState {
                 self.typ_period = p as f64;
             }
             self.acc = self.empty_acc();
+            if let Some(a) = self.acc.as_mut() {
+                a.edges += std::mem::take(&mut self.loose_edges);
+            }
         }
         self.acc.as_mut()
     }
@@ -290,8 +297,9 @@ impl ClockState {
         if newest.is_some_and(|n| tick <= n) || self.anchor.is_some_and(|(at, _)| tick <= at) {
             self.restart_at(tick);
         }
-        if let Some(a) = self.acc.as_mut() {
-            a.edges += 1;
+        match self.acc.as_mut() {
+            Some(a) => a.edges += 1,
+            None => self.loose_edges += 1,
         }
         let Some((pt, pr)) = self.pending else {
             self.pending = Some((tick, rising));
