@@ -284,14 +284,17 @@ pub fn render(
             let v = |x: Option<f64>| x.map_or("—".into(), |m| format!("{:.3} V", m / 1000.0));
             let _ = writeln!(
                 out,
-                "  {:<10} min {} (at {}), mean {}, max {}; ripple {} pk-pk, noise {} RMS; below {:.2} V for {:.3} s; {} sags (deepest {:.0} mV)",
+                "  {:<10} min {} (at {}), mean {}, max {}; ripple {}, noise {} RMS; below {:.2} V for {:.3} s; {} sags (deepest {:.0} mV)",
                 r.name,
                 v(r.min_mv),
                 r.min_at_s.map_or("—".into(), |t| format!("{t:.3} s")),
                 v(r.mean_mv),
                 v(r.max_mv),
-                r.ripple_pkpk_mv
-                    .map_or("—".into(), |m| format!("{m:.1} mV")),
+                match (r.ripple_pkpk_mv, r.ripple_hz) {
+                    (Some(m), Some(f)) => format!("{m:.1} mV pk-pk at {f:.0} Hz"),
+                    (Some(m), None) => format!("{m:.1} mV pk-pk"),
+                    _ => "—".into(),
+                },
                 r.noise_rms_mv.map_or("—".into(), |m| format!("{m:.1} mV")),
                 r.limit_mv / 1000.0,
                 r.below_limit_s,
