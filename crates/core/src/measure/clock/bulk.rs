@@ -337,7 +337,14 @@ impl ClockState {
                 t[n - 1].wrapping_sub(before),
                 last_rises,
             );
-            let (fall_spacing, _) = diff_extremes(&mut sc.tmp[..nf], &falls[1..], falls);
+            // a fall's spacing is a low plus a high: the sum of their minima bounds it, and
+            // only when that bound is short of the threshold is it taken edge by edge
+            let bound = el.0.saturating_add(eh.0);
+            let fall_spacing = if i128::from(bound) >= i128::from(st.gp) {
+                bound
+            } else {
+                diff_extremes(&mut sc.tmp[..nf], &falls[1..], falls).0
+            };
             let newest = match (last_rises, n) {
                 (false, _) => t[n - 2],
                 (true, 2) => st.pt,
