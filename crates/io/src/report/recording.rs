@@ -171,8 +171,9 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     let _ = writeln!(out, "  period jitter {jitter}");
     let _ = writeln!(
         out,
-        "  cycle-to-cycle {} RMS, max |·| {} (floor {})",
+        "  cycle-to-cycle {} RMS (less quantisation {}), max |·| {} (quantisation alone {} RMS)",
         opt_ns(c.cycle_to_cycle_rms_ns),
+        opt_ns(c.cycle_to_cycle_debiased_ns),
         opt_ns(c.cycle_to_cycle_max_ns),
         ns(c.cycle_to_cycle_floor_ns)
     );
@@ -186,9 +187,10 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
     for n in &c.n_cycle {
         let _ = writeln!(
             out,
-            "  {}-cycle error {} RMS, max |·| {}",
+            "  {}-cycle error {} RMS (less quantisation {}), max |·| {}",
             n.n,
             ns(n.rms_ns),
+            ns(n.debiased_ns),
             ns(n.max_abs_ns)
         );
     }

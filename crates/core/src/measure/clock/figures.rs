@@ -37,6 +37,9 @@ pub struct NCycle {
     pub rms_ns: f64,
     /// Largest |·|, ns.
     pub max_abs_ns: f64,
+    /// RMS less the quantisation of its two stamps, √(rms² − q²/6), ns (0 when quantisation
+    /// explains all of it).
+    pub debiased_ns: f64,
 }
 
 /// An Allan deviation point.
@@ -135,8 +138,11 @@ pub struct ClockSnapshot {
     pub cycle_to_cycle_rms_ns: Option<f64>,
     /// Largest |adjacent period difference|.
     pub cycle_to_cycle_max_ns: Option<f64>,
-    /// Quantisation floor of cycle-to-cycle jitter at random phase: q/√2.
+    /// Quantisation floor of cycle-to-cycle jitter at random phase: q/√2 (three stamps,
+    /// weights 1, −2, 1: 6·q²/12).
     pub cycle_to_cycle_floor_ns: f64,
+    /// Cycle-to-cycle RMS less that quantisation, √(rms² − q²/2) (0 when it explains all).
+    pub cycle_to_cycle_debiased_ns: Option<f64>,
     /// TIE RMS against a least-squares ideal clock over the window.
     pub tie_rms_ns: Option<f64>,
     /// Largest TIE peak to peak within detrended records.
@@ -213,6 +219,7 @@ impl ClockSnapshot {
             cycle_to_cycle_rms_ns: None,
             cycle_to_cycle_max_ns: None,
             cycle_to_cycle_floor_ns: q / 2f64.sqrt(),
+            cycle_to_cycle_debiased_ns: None,
             tie_rms_ns: None,
             tie_pkpk_ns: None,
             tie_record_cycles,

@@ -148,6 +148,9 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     }
     if a.c2c.n > 0 {
         s.cycle_to_cycle_rms_ns = a.c2c.rms_about_zero().map(|v| v * q);
+        s.cycle_to_cycle_debiased_ns = s
+            .cycle_to_cycle_rms_ns
+            .map(|r| (r * r - q * q / 2.0).max(0.0).sqrt());
         s.cycle_to_cycle_max_ns =
             Some(a.c2c.max.unsigned_abs().max(a.c2c.min.unsigned_abs()) as f64 * q);
     }
@@ -326,6 +329,7 @@ fn n_cycle_figures(
                 n,
                 rms_ns: rms * q,
                 max_abs_ns: max_abs * q,
+                debiased_ns: ((rms * rms - 1.0 / 6.0).max(0.0)).sqrt() * q,
             });
         }
     }
