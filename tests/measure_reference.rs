@@ -360,3 +360,43 @@ fn allan_tau_is_the_sample_spacing_in_mean_periods() {
     let first = c.allan.first().expect("an Allan point");
     assert!((first.tau_s - 8e-6).abs() < 8e-6 * 1e-3, "{}", first.tau_s);
 }
+
+#[test]
+fn cycle_to_cycle_and_n_cycle_less_quantisation_recover_the_driven_jitter() {
+    // Independent periods T + N(0, σ): adjacent differences have variance 2σ², N-cycle errors
+    // Nσ² (JESD65B definitions as quoted in REFERENCES.md §8). Stamps quantised to q = 8 ns add
+    // q²/12 each when the jitter dithers the quantiser (Widrow, Kollár & Liu 1996): three
+    // stamps weighted 1, −2, 1 give q²/2, two give q²/6. σ = 10 ns, 200 000 cycles.
+    let (q, sigma) = (8.0f64, 10.0f64);
+    let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+    let mut uniform = || {
+        x ^= x << 13;
+        x ^= x >> 7;
+        x ^= x << 17;
+        (x >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut t = 1000.0;
+    let mut ticks = Vec::new();
+    for _ in 0..200_000 {
+        // Box–Muller
+        let g = (-2.0 * uniform().max(1e-300).ln()).sqrt()
+            * (2.0 * std::f64::consts::PI * uniform()).cos();
+        let p = 1000.0 + sigma * g;
+        ticks.push((t / q) as u64);
+        ticks.push(((t + p / 2.0) / q) as u64);
+        t += p;
+    }
+    let c = jitter_of(&ticks, (125_000_000, 1));
+    let c2c = c.cycle_to_cycle_debiased_ns.unwrap();
+    assert!(
+        (c2c - sigma * 2f64.sqrt()).abs() < 0.02 * sigma * 2f64.sqrt(),
+        "{c2c}"
+    );
+    let n10 = c.n_cycle.iter().find(|n| n.n == 10).unwrap();
+    let want = sigma * 10f64.sqrt();
+    assert!(
+        (n10.debiased_ns - want).abs() < 0.05 * want,
+        "{}",
+        n10.debiased_ns
+    );
+}
