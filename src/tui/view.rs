@@ -128,12 +128,16 @@ fn status(f: &mut Frame, app: &App, r: Rect) {
         });
     let trust = app.snapshot.as_ref().map_or(String::new(), |s| {
         let t = &s.trust;
-        format!(
-            " | lost {} crc {} drops {}",
-            t.lost_frames,
-            t.crc_errors,
-            t.probe_edges_dropped + t.probe_samples_dropped
-        )
+        // complete, sampled, or what was lost
+        match s.completeness() {
+            "lost" => format!(
+                " | LOST: {} frames, {} crc, {} drops",
+                t.lost_frames,
+                t.crc_errors,
+                t.probe_edges_dropped + t.probe_samples_dropped
+            ),
+            word => format!(" | {word}"),
+        }
     });
     let win = match app.window {
         Window::Recent => "recent 10 s",

@@ -223,7 +223,6 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot) {
 /// What the figures stand on: *complete* (every cycle stamped, nothing lost), *sampled* (the
 /// probe stamped a share of the cycles: bursts or count windows) or *lost* (data went missing).
 pub fn trust_summary(snap: &Snapshot) -> String {
-    let lost = !snap.trust.clean();
     let sampled: Vec<String> = snap
         .clocks
         .iter()
@@ -239,10 +238,10 @@ pub fn trust_summary(snap: &Snapshot) -> String {
             _ => format!("{} observed in count windows, no single cycle", c.label),
         })
         .collect();
-    let mut out = match (lost, sampled.is_empty()) {
-        (false, true) => " — complete: every cycle stamped, nothing lost".to_string(),
-        (true, _) => " — lost: data went missing, figures cover incomplete data".to_string(),
-        (false, false) => " — sampled: nothing lost, but not every cycle stamped".to_string(),
+    let mut out = match snap.completeness() {
+        "complete" => " — complete: every cycle stamped, nothing lost".to_string(),
+        "lost" => " — lost: data went missing, figures cover incomplete data".to_string(),
+        _ => " — sampled: nothing lost, but not every cycle stamped".to_string(),
     };
     if !sampled.is_empty() {
         out.push_str(&format!(" ({})", sampled.join("; ")));
