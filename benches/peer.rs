@@ -98,7 +98,7 @@ fn engine_end_to_end() -> ClockSnapshot {
             break;
         }
     }
-    snapshot(0, "CLK", s.acc.as_ref(), &s, 0, false)
+    snapshot(0, "CLK", s.acc.as_ref(), &s, 0, false, 0)
 }
 
 /// Fill `buf` from `f` as far as the file goes; returns the bytes read.

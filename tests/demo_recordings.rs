@@ -49,6 +49,20 @@ fn steady_run() {
     assert_eq!(c["glitches"], 0);
     assert_eq!(c["resolution_ns"], 8.0);
     assert!(c["edges"].as_u64().unwrap() > 700_000);
+    // bursts of 4000 edges every 100 ms of a 2 MHz clock: 1999 of 200 000 cycles stamped
+    // (the recording's command in recordings/README.md)
+    assert_eq!(c["observation"], "bursts");
+    let cov = c["coverage"].as_f64().unwrap();
+    assert!((cov - 1999.0 / 200_000.0).abs() < 2e-4, "{cov}");
+    let text = String::from_utf8(run(&["report", &demo("larkspur-steady.smrec")]).stdout).unwrap();
+    assert!(
+        text.contains("worst of the observed cycles (1.00 % of all)"),
+        "{text}"
+    );
+    assert!(
+        text.contains("sampled: nothing lost, but not every cycle stamped"),
+        "{text}"
+    );
     for key in [
         "frequency_uncertainty_hz",
         "period_jitter_rms_ns",

@@ -289,3 +289,62 @@ fn arbitrary_probe_messages_never_panic_the_engine() {
         }
     }
 }
+
+#[test]
+fn ripple_and_noise_are_told_apart_and_noise_makes_no_sags() {
+    // the bench model drives a sine of the given pk-pk and frequency plus Gaussian noise (its
+    // definition in sim/bench.rs is the truth); the ADC step (2 mV, uniform) adds 2/√12 mV RMS
+    let cases = [
+        (24.0, 100.0, 5.0),
+        (12.0, 50.0, 3.0),
+        (40.0, 300.0, 2.0),
+        (0.0, 100.0, 4.0),
+    ];
+    for (ripple, hz, noise) in cases {
+        let mut m = BenchModel::scenario("steady").unwrap();
+        m.freq_hz = 100e3;
+        m.rails = vec![RailModel {
+            ripple_mv: ripple,
+            ripple_hz: hz,
+            noise_mv: noise,
+            ..RailModel::quiet("VCC", 5000.0)
+        }];
+        let f = run(m, 2.0);
+        let s = f.engine.snapshot(Window::Session);
+        let r = s.rail("VCC").unwrap();
+        let want_noise = (noise * noise + 4.0 / 12.0f64).sqrt();
+        let got_noise = r.noise_rms_mv.unwrap();
+        assert!(
+            (got_noise - want_noise).abs() < 0.05 * want_noise,
+            "{ripple} mV at {hz} Hz: noise {got_noise} vs {want_noise}"
+        );
+        let got_ripple = r.ripple_pkpk_mv.unwrap();
+        assert!(
+            (got_ripple - ripple).abs() < 0.05 * ripple.max(10.0),
+            "{ripple} mV at {hz} Hz: ripple {got_ripple}"
+        );
+        if ripple > 0.0 {
+            let got_hz = r.ripple_hz.unwrap();
+            assert!((got_hz - hz).abs() < 0.05 * hz, "{hz} Hz: found {got_hz}");
+        }
+        assert_eq!(r.sag_events, 0);
+    }
+    // a noisy rail with a sag threshold inside its noise: the threshold follows the noise
+    let mut m = BenchModel::scenario("steady").unwrap();
+    m.freq_hz = 100e3;
+    m.rails = vec![RailModel {
+        noise_mv: 8.0,
+        ..RailModel::quiet("VCC", 5000.0)
+    }];
+    let mut p = SimProbe::new(m, vec![]);
+    p.start();
+    p.run_until(2e9);
+    p.flush_all();
+    let mut cfg = EngineConfig::default();
+    cfg.rail.sag_start_mv = 15.0;
+    cfg.rail.sag_end_mv = 5.0;
+    let mut f = Feed::new(cfg);
+    f.push(&std::mem::take(p.output()));
+    let r = f.engine.snapshot(Window::Session).rails[0].clone();
+    assert!(r.sag_events <= 1, "{} sags from noise alone", r.sag_events);
+}

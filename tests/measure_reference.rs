@@ -244,3 +244,159 @@ fn a_glitch_close_to_an_edge_does_not_shorten_the_phase() {
     assert_eq!(c.low_min_ns, Some(500.0));
     assert_eq!(c.high_min_ns, Some(500.0));
 }
+
+/// Edge ticks of a jitter-free clock (period `p` ticks, high `h` ticks) with one extra pulse in
+/// cycle 60: inside the high phase (a low pulse) or the low phase, starting `at` ticks into
+/// that phase, `w` ticks wide.
+fn clock_with_runt(p: u64, h: u64, in_high: bool, at: u64, w: u64) -> Vec<u64> {
+    let mut ticks = Vec::new();
+    for k in 0..200u64 {
+        let r = 1000 + k * p;
+        ticks.push(r);
+        if k == 60 && in_high {
+            ticks.push(r + at);
+            ticks.push(r + at + w);
+        }
+        ticks.push(r + h);
+        if k == 60 && !in_high {
+            ticks.push(r + h + at);
+            ticks.push(r + h + at + w);
+        }
+    }
+    ticks
+}
+
+#[test]
+fn runts_are_set_aside_at_any_duty_width_and_place() {
+    // The truth is the edge list without the extra pulse (a glitch is, by definition, not a
+    // phase of the clock): the worst high and low times must be those of the clean clock, the
+    // glitch counted once with its own width. Duty 0.1–0.9, the runt anywhere in a phase
+    // (touching neither edge; see the limit below), widths from one tick to 30 % of the
+    // phase; a slow clock
+    // (1000 ticks) and a fast one (40 ticks) near the resolution.
+    let mut failures = Vec::new();
+    for p in [1000u64, 40] {
+        for d10 in 1..=9u64 {
+            let h = p * d10 / 10;
+            for in_high in [true, false] {
+                let len = if in_high { h } else { p - h };
+                let widths = [1, len / 10, len * 3 / 10];
+                for w in widths.into_iter().filter(|&w| w >= 1) {
+                    for at in [1, len / 10, len / 4, len / 2, len * 3 / 4, len - w - 1] {
+                        // a runt that ends right at the end of a long phase is found only when
+                        // narrower than half the other phase (the documented limit)
+                        let other = p - len;
+                        let hugs_end = at + w + 1 == len && at > len * 3 / 4;
+                        if at < 1 || at + w + 1 > len || hugs_end && 2 * w >= other {
+                            continue;
+                        }
+                        let ticks = clock_with_runt(p, h, in_high, at, w);
+                        let c = jitter_of(&ticks, TICK_1NS);
+                        let ok = c.glitches == 1
+                            && c.high_min_ns == Some(h as f64)
+                            && c.low_min_ns == Some((p - h) as f64)
+                            && c.period_min_ns == Some(p as f64);
+                        if !ok {
+                            failures.push(format!(
+                                "p {p} h {h} in_high {in_high} at {at} w {w}: {} glitches, \
+                                 high {:?} low {:?} period {:?}",
+                                c.glitches, c.high_min_ns, c.low_min_ns, c.period_min_ns
+                            ));
+                        }
+                    }
+                }
+            }
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+#[test]
+fn a_glitch_keeps_its_time_and_width() {
+    // a 20 ns high pulse 700 ns into cycle 50 (rise at 50 100 ns): the glitch list says so
+    let mut f = Feed::new(engine_cfg([10, 100]));
+    f.push(&hello(TICK_1NS));
+    f.push(&edge_frames(&clock_with_pulse(50, 700, 720), 400, 1));
+    let s = f.engine.snapshot(Window::Session);
+    let g = &s.glitch_events;
+    assert_eq!(g.len(), 1);
+    assert!((g[0].at_s - 50_800e-9).abs() < 1e-15, "{}", g[0].at_s);
+    assert_eq!((g[0].high, g[0].width_ns), (true, 20.0));
+}
+
+#[test]
+fn a_jittery_clock_near_the_resolution_keeps_its_phases() {
+    // 4-tick phases moving by one tick: nothing is a glitch (short real phases stay phases)
+    for (p, h) in [(8u64, 4u64), (6, 3), (10, 2)] {
+        let ticks: Vec<u64> = (0..200u64)
+            .flat_map(|k| {
+                let r = 1000 + k * p + u64::from(k % 3 == 1);
+                [r, r + h]
+            })
+            .collect();
+        let c = jitter_of(&ticks, TICK_1NS);
+        assert_eq!(c.glitches, 0, "p {p} h {h}");
+        assert_eq!(c.cycles, 199, "p {p} h {h}");
+    }
+}
+
+#[test]
+fn allan_tau_is_the_sample_spacing_in_mean_periods() {
+    // NIST SP 1065 §5.2: τ = m·τ0 with τ0 the spacing of the phase samples. A 1 µs clock whose
+    // first period is stretched to 1.28 µs (a start-up cycle): samples every round(10 µs /
+    // 1.28 µs) = 8 cycles lie 8 µs apart, not 8 × 1.28 µs
+    let mut ticks = vec![1000u64, 1640];
+    for k in 0..20_000u64 {
+        let r = 2280 + k * 1000 + (k * 7919 % 13);
+        ticks.push(r);
+        ticks.push(r + 500);
+    }
+    let mut cfg = engine_cfg([10, 100]);
+    cfg.clock.allan_tau0_s = 1e-5;
+    let mut f = Feed::new(cfg);
+    f.push(&hello(TICK_1NS));
+    f.push(&edge_frames(&ticks, 400, 1));
+    let c = f.engine.snapshot(Window::Session).clocks[0].clone();
+    let first = c.allan.first().expect("an Allan point");
+    assert!((first.tau_s - 8e-6).abs() < 8e-6 * 1e-3, "{}", first.tau_s);
+}
+
+#[test]
+fn cycle_to_cycle_and_n_cycle_less_quantisation_recover_the_driven_jitter() {
+    // Independent periods T + N(0, σ): adjacent differences have variance 2σ², N-cycle errors
+    // Nσ² (JESD65B definitions as quoted in REFERENCES.md §8). Stamps quantised to q = 8 ns add
+    // q²/12 each when the jitter dithers the quantiser (Widrow, Kollár & Liu 1996): three
+    // stamps weighted 1, −2, 1 give q²/2, two give q²/6. σ = 10 ns, 200 000 cycles.
+    let (q, sigma) = (8.0f64, 10.0f64);
+    let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+    let mut uniform = || {
+        x ^= x << 13;
+        x ^= x >> 7;
+        x ^= x << 17;
+        (x >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut t = 1000.0;
+    let mut ticks = Vec::new();
+    for _ in 0..200_000 {
+        // Box–Muller
+        let g = (-2.0 * uniform().max(1e-300).ln()).sqrt()
+            * (2.0 * std::f64::consts::PI * uniform()).cos();
+        let p = 1000.0 + sigma * g;
+        ticks.push((t / q) as u64);
+        ticks.push(((t + p / 2.0) / q) as u64);
+        t += p;
+    }
+    let c = jitter_of(&ticks, (125_000_000, 1));
+    let c2c = c.cycle_to_cycle_debiased_ns.unwrap();
+    assert!(
+        (c2c - sigma * 2f64.sqrt()).abs() < 0.02 * sigma * 2f64.sqrt(),
+        "{c2c}"
+    );
+    let n10 = c.n_cycle.iter().find(|n| n.n == 10).unwrap();
+    let want = sigma * 10f64.sqrt();
+    assert!(
+        (n10.debiased_ns - want).abs() < 0.05 * want,
+        "{}",
+        n10.debiased_ns
+    );
+}

@@ -329,6 +329,9 @@ pub struct SimModelArgs {
     /// RMS period jitter (successive periods independent), e.g. 2ns.
     #[arg(long, value_parser = time)]
     pub jitter: Option<f64>,
+    /// RMS white phase noise of each edge (a crystal's jitter, not accumulating), e.g. 50ps.
+    #[arg(long, value_parser = time)]
+    pub edge_jitter: Option<f64>,
     /// Slow sinusoidal frequency drift amplitude in ppm (period 60 s).
     #[arg(long)]
     pub drift_ppm: Option<f64>,

@@ -58,6 +58,7 @@ pub fn build_model(a: &SimModelArgs, design: &Design, lib: &Library) -> CliResul
     set(&mut m.freq_hz, a.freq);
     set(&mut m.duty, a.duty);
     set(&mut m.jitter_rms_ns, a.jitter);
+    set(&mut m.edge_jitter_rms_ns, a.edge_jitter);
     set(&mut m.drift_ppm, a.drift_ppm);
     set(&mut m.tick_ns, a.tick);
     set(&mut m.glitch_rate_hz, a.glitch_rate);

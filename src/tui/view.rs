@@ -128,12 +128,16 @@ fn status(f: &mut Frame, app: &App, r: Rect) {
         });
     let trust = app.snapshot.as_ref().map_or(String::new(), |s| {
         let t = &s.trust;
-        format!(
-            " | lost {} crc {} drops {}",
-            t.lost_frames,
-            t.crc_errors,
-            t.probe_edges_dropped + t.probe_samples_dropped
-        )
+        // complete, sampled, or what was lost
+        match s.completeness() {
+            "lost" => format!(
+                " | LOST: {} frames, {} crc, {} drops",
+                t.lost_frames,
+                t.crc_errors,
+                t.probe_edges_dropped + t.probe_samples_dropped
+            ),
+            word => format!(" | {word}"),
+        }
     });
     let win = match app.window {
         Window::Recent => "recent 10 s",
@@ -164,15 +168,7 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
         (Some(v), None) => fmt(v),
         _ => "—".into(),
     };
-    let jitter = if c.period_jitter_below_resolution {
-        format!("below resolution (< {})", ns(c.period_jitter_floor_ns))
-    } else {
-        format!(
-            "{} RMS, pk-pk {}",
-            opt_ns(c.period_jitter_rms_ns),
-            opt_ns(c.period_jitter_pkpk_ns)
-        )
-    };
+    let jitter = c.jitter_text(true);
     let (name, p) = match app.detail {
         Detail::Period => ("period", &c.period_percentiles),
         Detail::High => ("high time", &c.high_percentiles),
@@ -217,6 +213,11 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
             Span::styled(
                 format!("{} ±{}", opt_ns(c.low_min_ns), ns(c.resolution_ns)),
                 Style::default().add_modifier(Modifier::BOLD),
+            ),
+            Span::raw(
+                c.observed_share()
+                    .map(|s| format!("   of the observed cycles ({s})"))
+                    .unwrap_or_default(),
             ),
         ]),
         Line::from(format!("jitter     {jitter}")),

@@ -5,13 +5,13 @@
 use crate::measure::{ClockSnapshot, Series};
 
 /// Share of the clock's cycles that were observed one by one (None: not stated).
-pub(super) fn coverage(_c: &ClockSnapshot) -> Option<f64> {
-    None
+pub(super) fn coverage(c: &ClockSnapshot) -> Option<f64> {
+    c.coverage
 }
 
 /// How the probe observed the clock, in words (None: not stated).
-pub(super) fn observation(_c: &ClockSnapshot) -> Option<String> {
-    None
+pub(super) fn observation(c: &ClockSnapshot) -> Option<String> {
+    Some(c.observation.clone())
 }
 
 /// Whether the clock's frequency moved by more than its uncertainty allows (None: not stated).

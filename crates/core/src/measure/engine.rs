@@ -431,7 +431,15 @@ impl Engine {
                 let acc = c
                     .blocks
                     .merged(c.state.acc.as_ref(), window, ClockAcc::merge);
-                clock::snapshot(*id, &c.label, acc.as_ref(), &c.state, ppm, session)
+                clock::snapshot(
+                    *id,
+                    &c.label,
+                    acc.as_ref(),
+                    &c.state,
+                    ppm,
+                    session,
+                    self.now_tick,
+                )
             })
             .collect();
         let glitch_events = self.clock_events(|s| &s.glitch_events);

@@ -1,10 +1,22 @@
 //! Supply rails: calibrated mV, min/mean/max, ripple, noise, time below a limit, sag events.
+//!
+//! Ripple and noise are told apart by how they correlate from one sample to the next: over
+//! segments free of sags, the variance about the segment mean W and the mean squares of the
+//! lag-1 and lag-2 differences D1, D2 of a sine of amplitude A at ω = 2πf/fs plus white noise
+//! σ² are W = σ² + A²/2, D1 = 2σ² + A²(1 − cos ω), D2 = 2σ² + 2A²(1 − cos² ω). With
+//! a = 2W − D1 = A² cos ω and b = 2W − D2 = A²(2cos² ω − 1): A² = (√(b² + 8a²) − b)/2, then
+//! cos ω = a/A² (the ripple frequency, found in the data) and σ² = W − A²/2. Ripple is the
+//! periodic part (pk-pk 2A), noise the rest.
 
 use serde::Serialize;
 
 use crate::probe::AnalogScale;
 
 use super::stats::{DevHistogram, IntStats};
+
+/// Lags (samples) of the difference sums: 1 and 2 give amplitude and noise; the longer ones
+/// refine the ripple frequency (a lag of a quarter period is the best conditioned).
+pub const LAGS: [usize; 8] = [1, 2, 4, 8, 16, 32, 64, 128];
 
 /// Settings of the rail statistics.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -15,8 +27,13 @@ pub struct RailConfig {
     pub sag_start_mv: f64,
     /// …and ends when the rail is back within this, mV (hysteresis).
     pub sag_end_mv: f64,
-    /// Segment length for ripple and noise, ms.
+    /// Segment length for ripple and noise, ms (several ripple periods; segments with a sag
+    /// are left out).
     pub segment_ms: f64,
+    /// A sag counts only when it lasts at least this long, ms.
+    pub sag_min_ms: f64,
+    /// …and goes deeper than this many times the rail's own noise RMS.
+    pub sag_noise_factor: f64,
     /// Sag events kept.
     pub max_events: usize,
 }
@@ -27,7 +44,9 @@ impl Default for RailConfig {
             limit_mv: 4500.0,
             sag_start_mv: 100.0,
             sag_end_mv: 50.0,
-            segment_ms: 10.0,
+            segment_ms: 100.0,
+            sag_min_ms: 1.0,
+            sag_noise_factor: 6.0,
             max_events: 1000,
         }
     }
@@ -59,6 +78,10 @@ pub struct RailAcc {
     pub within_ss: f64,
     /// Degrees of freedom of `within_ss`.
     pub within_df: u64,
+    /// Sums of squared differences within segments at the lags of [`LAGS`].
+    pub diff_ss: [f64; LAGS.len()],
+    /// Counts of the differences in `diff_ss`.
+    pub diff_n: [u64; LAGS.len()],
     /// Sags that started in this block.
     pub sags: u64,
     /// Deepest sag, mV.
@@ -73,6 +96,8 @@ impl RailAcc {
             segment_pkpk: DevHistogram::new(0),
             within_ss: 0.0,
             within_df: 0,
+            diff_ss: [0.0; LAGS.len()],
+            diff_n: [0; LAGS.len()],
             sags: 0,
             deepest_sag_mv: 0.0,
         }
@@ -84,6 +109,10 @@ impl RailAcc {
         self.segment_pkpk.merge(&o.segment_pkpk);
         self.within_ss += o.within_ss;
         self.within_df += o.within_df;
+        for i in 0..LAGS.len() {
+            self.diff_ss[i] += o.diff_ss[i];
+            self.diff_n[i] += o.diff_n[i];
+        }
         self.sags += o.sags;
         self.deepest_sag_mv = self.deepest_sag_mv.max(o.deepest_sag_mv);
     }
@@ -102,6 +131,12 @@ pub struct RailState {
     pub acc: Option<RailAcc>,
     seg: Vec<i64>,
     seg_start: u64,
+    /// A sag touched the current segment (it is left out of ripple and noise).
+    seg_sagged: bool,
+    /// Session sums of squared lag-1 differences outside sags (raw counts²) and their count:
+    /// the rail's own noise, which a sag must clear.
+    noise_ss: f64,
+    noise_n: u64,
     baseline_mv: Option<f64>,
     in_sag: Option<Sag>,
     /// Recent sags.
@@ -121,6 +156,9 @@ impl RailState {
             acc: None,
             seg: Vec::new(),
             seg_start: 0,
+            seg_sagged: false,
+            noise_ss: 0.0,
+            noise_n: 0,
             baseline_mv: None,
             in_sag: None,
             sag_events: Vec::new(),
@@ -161,34 +199,54 @@ impl RailState {
         if mv < self.cfg.limit_mv {
             a.below += 1;
         }
-        // sag detection with hysteresis around a slow baseline (time constant about 1 s)
+        // sag detection with hysteresis around a slow baseline (time constant about 1 s); the
+        // start threshold clears the rail's own noise
         let t_s = tick as f64 * self.tick_ns * 1e-9;
         let base = *self.baseline_mv.get_or_insert(mv);
+        let noise_mv = if self.noise_n > 0 {
+            (self.noise_ss / self.noise_n as f64 / 2.0).sqrt() * self.scale.lsb_mv()
+        } else {
+            0.0
+        };
+        let start_mv = self
+            .cfg
+            .sag_start_mv
+            .max(self.cfg.sag_noise_factor * noise_mv);
         match &mut self.in_sag {
             None => {
-                if mv < base - self.cfg.sag_start_mv {
+                if mv < base - start_mv {
                     self.in_sag = Some(Sag {
                         start_s: t_s,
                         depth_mv: base - mv,
                         min_mv: mv,
                         duration_ms: 0.0,
                     });
-                    a.sags += 1;
+                    self.seg_sagged = true;
                 } else {
                     let alpha = (f64::from(interval_ticks) * self.tick_ns * 1e-9).min(1.0);
                     self.baseline_mv = Some(base + alpha * (mv - base));
+                    if let (false, Some(&prev)) = (self.seg_sagged, self.seg.iter().rev().nth(1)) {
+                        let d = (raw - prev) as f64;
+                        self.noise_ss += d * d;
+                        self.noise_n += 1;
+                    }
                 }
             }
             Some(s) => {
+                self.seg_sagged = true;
                 if mv < s.min_mv {
                     s.min_mv = mv;
                     s.depth_mv = base - mv;
                 }
                 if mv > base - self.cfg.sag_end_mv {
                     s.duration_ms = (t_s - s.start_s) * 1e3;
-                    a.deepest_sag_mv = a.deepest_sag_mv.max(s.depth_mv);
-                    if self.sag_events.len() < self.cfg.max_events {
-                        self.sag_events.push(*s);
+                    // a dip shorter than the minimum is noise or a spike, not a sag
+                    if s.duration_ms >= self.cfg.sag_min_ms {
+                        a.sags += 1;
+                        a.deepest_sag_mv = a.deepest_sag_mv.max(s.depth_mv);
+                        if self.sag_events.len() < self.cfg.max_events {
+                            self.sag_events.push(*s);
+                        }
                     }
                     self.in_sag = None;
                 }
@@ -197,7 +255,9 @@ impl RailState {
     }
 
     fn close_segment(&mut self) {
-        if self.seg.len() >= 2
+        let sagged = std::mem::take(&mut self.seg_sagged) || self.in_sag.is_some();
+        self.seg_sagged = self.in_sag.is_some();
+        if self.seg.len() >= 3
             && let Some(a) = self.acc.as_mut()
         {
             let (lo, hi) = self
@@ -205,13 +265,25 @@ impl RailState {
                 .iter()
                 .fold((i64::MAX, i64::MIN), |(l, h), &v| (l.min(v), h.max(v)));
             a.segment_pkpk.record(hi - lo);
-            let mean = self.seg.iter().sum::<i64>() as f64 / self.seg.len() as f64;
-            a.within_ss += self
-                .seg
-                .iter()
-                .map(|&v| (v as f64 - mean).powi(2))
-                .sum::<f64>();
-            a.within_df += self.seg.len() as u64 - 1;
+            if !sagged {
+                let mean = self.seg.iter().sum::<i64>() as f64 / self.seg.len() as f64;
+                a.within_ss += self
+                    .seg
+                    .iter()
+                    .map(|&v| (v as f64 - mean).powi(2))
+                    .sum::<f64>();
+                a.within_df += self.seg.len() as u64 - 1;
+                for ((ss, n), &lag) in a.diff_ss.iter_mut().zip(a.diff_n.iter_mut()).zip(&LAGS) {
+                    if self.seg.len() <= lag {
+                        continue;
+                    }
+                    for w in self.seg.windows(lag + 1) {
+                        let d = (w[lag] - w[0]) as f64;
+                        *ss += d * d;
+                    }
+                    *n += (self.seg.len() - lag) as u64;
+                }
+            }
         }
         self.seg.clear();
     }
@@ -242,9 +314,11 @@ pub struct RailSnapshot {
     pub mean_mv: Option<f64>,
     /// Highest.
     pub max_mv: Option<f64>,
-    /// Typical ripple: median peak-to-peak of 10 ms segments.
+    /// Ripple: the periodic part, peak to peak (2A of the sine found in the data).
     pub ripple_pkpk_mv: Option<f64>,
-    /// RMS noise about the segment means.
+    /// Its frequency, found in the data (None without ripple).
+    pub ripple_hz: Option<f64>,
+    /// Noise: the rest, RMS (white part, ADC step included).
     pub noise_rms_mv: Option<f64>,
     /// Limit used, mV.
     pub limit_mv: f64,
@@ -277,6 +351,7 @@ pub fn snapshot(
         mean_mv: None,
         max_mv: None,
         ripple_pkpk_mv: None,
+        ripple_hz: None,
         noise_rms_mv: None,
         limit_mv: st.cfg.limit_mv,
         below_limit_s: 0.0,
@@ -293,12 +368,47 @@ pub fn snapshot(
         r.max_mv = Some(st.mv(s.max));
         r.mean_mv = s.mean().map(|m| st.scale.mv(m));
     }
-    r.ripple_pkpk_mv = a.segment_pkpk.quantile(0.5).map(|v| v as f64 * lsb);
-    if a.within_df > 0 {
-        r.noise_rms_mv = Some((a.within_ss / a.within_df as f64).sqrt() * lsb);
+    if let Some((amp, omega, noise_var)) = ripple_and_noise(a) {
+        r.ripple_pkpk_mv = Some(2.0 * amp * lsb);
+        r.noise_rms_mv = Some(noise_var.sqrt() * lsb);
+        // a ripple well above the noise has a frequency (fs·ω/2π)
+        if amp * amp > 0.05 * noise_var.max(1e-12) && interval_s > 0.0 {
+            r.ripple_hz = Some(omega / (2.0 * std::f64::consts::PI * interval_s));
+        }
     }
     r.below_limit_s = a.below as f64 * interval_s;
     r.sag_events = a.sags;
     r.deepest_sag_mv = a.deepest_sag_mv;
     r
+}
+
+/// Ripple amplitude A, ω (radians per sample) and noise variance σ² (raw counts) from a
+/// block's segment sums (see the module notes); None without sag-free segments. ω comes from
+/// lags 1 and 2, then from each longer lag L while L·ω stays below 0.8π: D_L = 2σ² + A²(1 −
+/// cos Lω) solved for ω.
+fn ripple_and_noise(a: &RailAcc) -> Option<(f64, f64, f64)> {
+    if a.within_df == 0 || a.diff_n[0] == 0 || a.diff_n[1] == 0 {
+        return None;
+    }
+    let w = a.within_ss / a.within_df as f64;
+    let d = |i: usize| a.diff_ss[i] / a.diff_n[i] as f64;
+    let (x, y) = (2.0 * w - d(0), 2.0 * w - d(1));
+    let amp2 = (((y * y + 8.0 * x * x).sqrt() - y) / 2.0).max(0.0);
+    // the estimate's own floor: a and b scatter by about 2W·√(2/N) over N differences; a
+    // ripple under four times that is not told from noise (then all of it is noise)
+    let floor = 8.0 * w * (2.0 / a.diff_n[0] as f64).sqrt();
+    if amp2 <= floor {
+        return Some((0.0, 0.0, w));
+    }
+    let noise = (w - amp2 / 2.0).max(0.0);
+    let mut omega = (x / amp2).clamp(-1.0, 1.0).acos();
+    for (i, &lag) in LAGS.iter().enumerate().skip(2) {
+        let lag = lag as f64;
+        if a.diff_n[i] == 0 || lag * omega >= 0.8 * std::f64::consts::PI {
+            break;
+        }
+        let c = 1.0 - (d(i) - 2.0 * noise) / amp2;
+        omega = c.clamp(-1.0, 1.0).acos() / lag;
+    }
+    Some((amp2.sqrt(), omega, noise))
 }

@@ -134,4 +134,15 @@ impl Snapshot {
     pub fn line(&self, role: LineRole) -> Option<&LineSnapshot> {
         self.lines.iter().find(|l| l.role == role)
     }
+    /// What the figures stand on: "lost" (data went missing), "sampled" (nothing lost, but a
+    /// clock was not stamped on every cycle) or "complete".
+    pub fn completeness(&self) -> &'static str {
+        if !self.trust.clean() {
+            "lost"
+        } else if self.clocks.iter().any(|c| c.observation != "continuous") {
+            "sampled"
+        } else {
+            "complete"
+        }
+    }
 }

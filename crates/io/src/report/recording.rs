@@ -175,12 +175,20 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     let _ = writeln!(
         out,
         "  duty          {}",
-        pm(
-            c.duty.map(|d| d * 100.0),
-            c.duty_uncertainty.map(|d| d * 100.0),
-            |x| format!("{x:.3} %")
-        )
+        match (c.duty, c.duty_uncertainty) {
+            (Some(d), Some(u)) => {
+                // as many decimals as the uncertainty needs for two significant digits
+                let digits = (1 - (u * 100.0).max(1e-9).log10().floor() as i32).clamp(1, 9);
+                let digits = digits as usize;
+                format!("{:.digits$} % ± {:.digits$} %", d * 100.0, u * 100.0)
+            }
+            (Some(d), None) => format!("{:.3} %", d * 100.0),
+            _ => "—".into(),
+        }
     );
+    if let Some(note) = &c.duty_note {
+        let _ = writeln!(out, "                ({note})");
+    }
     if let Some((p, lo, hi)) = c.duty_sampled {
         let _ = writeln!(
             out,
@@ -192,55 +200,51 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     }
     let _ = writeln!(
         out,
-        "  period        mean {}, min {}, max {}",
+        "  period        mean {}, min {}{}, max {}",
         opt_ns(c.period_mean_ns),
         opt_ns(c.period_min_ns),
+        c.observed_share()
+            .map(|s| format!(" (of the observed cycles: {s})"))
+            .unwrap_or_default(),
         opt_ns(c.period_max_ns)
     );
     let _ = writeln!(
         out,
-        "  high time     mean {}, worst high {} (± {}, cycle {}, at {})",
+        "  high time     mean {}, worst high {} (± {}, cycle {}, at {}){}",
         opt_ns(c.high_mean_ns),
         opt_ns(c.high_min_ns),
         ns(c.resolution_ns),
         c.high_min_cycle.map_or("—".into(), |v| v.to_string()),
-        c.high_min_at_s.map_or("—".into(), |t| format!("{t:.6} s"))
+        c.high_min_at_s.map_or("—".into(), |t| format!("{t:.6} s")),
+        c.observed_share()
+            .map(|s| format!(", worst of the observed cycles ({s})"))
+            .unwrap_or_default()
     );
     let _ = writeln!(
         out,
-        "  low time      mean {}, worst low {} (± {}, cycle {}, at {})",
+        "  low time      mean {}, worst low {} (± {}, cycle {}, at {}){}",
         opt_ns(c.low_mean_ns),
         opt_ns(c.low_min_ns),
         ns(c.resolution_ns),
         c.low_min_cycle.map_or("—".into(), |v| v.to_string()),
-        c.low_min_at_s.map_or("—".into(), |t| format!("{t:.6} s"))
+        c.low_min_at_s.map_or("—".into(), |t| format!("{t:.6} s")),
+        c.observed_share()
+            .map(|s| format!(", worst of the observed cycles ({s})"))
+            .unwrap_or_default()
     );
-    let jitter = if c.period_jitter_below_resolution {
-        format!(
-            "below resolution (< {}); de-biased estimate {}",
-            ns(c.period_jitter_floor_ns),
-            opt_ns(c.period_jitter_debiased_ns)
-        )
-    } else {
-        format!(
-            "{} RMS (± {}), pk-pk {} over N = {}",
-            opt_ns(c.period_jitter_rms_ns),
-            opt_ns(c.period_jitter_uncertainty_ns),
-            opt_ns(c.period_jitter_pkpk_ns),
-            c.period_jitter_n
-        )
-    };
+    let jitter = c.jitter_text(false);
     let _ = writeln!(out, "  period jitter {jitter}{spread}");
     let _ = writeln!(
         out,
-        "  cycle-to-cycle {} RMS, max |·| {} (floor {})",
+        "  cycle-to-cycle {} RMS (less quantisation {}), max |·| {} (quantisation alone {} RMS)",
         opt_ns(c.cycle_to_cycle_rms_ns),
+        opt_ns(c.cycle_to_cycle_debiased_ns),
         opt_ns(c.cycle_to_cycle_max_ns),
         ns(c.cycle_to_cycle_floor_ns)
     );
     let _ = writeln!(
         out,
-        "  TIE           {} RMS against a least-squares clock{spread}, pk-pk {} within {}-cycle records",
+        "  TIE           {} RMS against a least-squares clock per contiguous stretch{spread}, pk-pk {} within {}-cycle records",
         opt_ns(c.tie_rms_ns),
         opt_ns(c.tie_pkpk_ns),
         c.tie_record_cycles
@@ -248,9 +252,10 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     for n in &c.n_cycle {
         let _ = writeln!(
             out,
-            "  {}-cycle error {} RMS, max |·| {}{spread}",
+            "  {}-cycle error {} RMS (less quantisation {}), max |·| {}{spread}",
             n.n,
             ns(n.rms_ns),
+            ns(n.debiased_ns),
             ns(n.max_abs_ns)
         );
     }
@@ -262,7 +267,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
             .allan
             .iter()
             .take(6)
-            .map(|a| format!("τ {:.0e} s: {:.2e}", a.tau_s, a.adev))
+            .map(|a| format!("τ {:.2e} s: {:.2e}", a.tau_s, a.adev))
             .collect();
         let _ = writeln!(out, "  Allan dev.    {}", pts.join("; "));
     }
@@ -281,6 +286,35 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     for u in &c.unavailable {
         let _ = writeln!(out, "  {}: unavailable — {}", u.figure, u.reason);
     }
+}
+
+/// What the figures stand on: *complete* (every cycle stamped, nothing lost), *sampled* (the
+/// probe stamped a share of the cycles: bursts or count windows) or *lost* (data went missing).
+pub fn trust_summary(snap: &Snapshot) -> String {
+    let sampled: Vec<String> = snap
+        .clocks
+        .iter()
+        .filter(|c| c.observation != "continuous")
+        .map(|c| match c.coverage {
+            Some(v) if c.observation == "bursts" => {
+                format!(
+                    "{} stamped in bursts, {:.2} % of its cycles",
+                    c.label,
+                    v * 100.0
+                )
+            }
+            _ => format!("{} observed in count windows, no single cycle", c.label),
+        })
+        .collect();
+    let mut out = match snap.completeness() {
+        "complete" => " — complete: every cycle stamped, nothing lost".to_string(),
+        "lost" => " — lost: data went missing, figures cover incomplete data".to_string(),
+        _ => " — sampled: nothing lost, but not every cycle stamped".to_string(),
+    };
+    if !sampled.is_empty() {
+        out.push_str(&format!(" ({})", sampled.join("; ")));
+    }
+    out
 }
 
 /// The full analysis as text, with the window analysed in words (`window`).
@@ -317,14 +351,17 @@ pub fn render(
             let v = |x: Option<f64>| x.map_or("—".into(), |m| format!("{:.3} V", m / 1000.0));
             let _ = writeln!(
                 out,
-                "  {:<10} min {} (at {}), mean {}, max {}; ripple {} pk-pk, noise {} RMS; below {:.2} V for {:.3} s; {} sags (deepest {:.0} mV)",
+                "  {:<10} min {} (at {}), mean {}, max {}; ripple {}, noise {} RMS; below {:.2} V for {:.3} s; {} sags (deepest {:.0} mV)",
                 r.name,
                 v(r.min_mv),
                 r.min_at_s.map_or("—".into(), |t| format!("{t:.3} s")),
                 v(r.mean_mv),
                 v(r.max_mv),
-                r.ripple_pkpk_mv
-                    .map_or("—".into(), |m| format!("{m:.1} mV")),
+                match (r.ripple_pkpk_mv, r.ripple_hz) {
+                    (Some(m), Some(f)) => format!("{m:.1} mV pk-pk at {f:.0} Hz"),
+                    (Some(m), None) => format!("{m:.1} mV pk-pk"),
+                    _ => "—".into(),
+                },
                 r.noise_rms_mv.map_or("—".into(), |m| format!("{m:.1} mV")),
                 r.limit_mv / 1000.0,
                 r.below_limit_s,
@@ -363,11 +400,7 @@ pub fn render(
         t.probe_edges_dropped,
         t.probe_samples_dropped,
         t.reconnects,
-        if t.clean() {
-            " — nothing lost"
-        } else {
-            " — figures cover incomplete data"
-        }
+        trust_summary(snap)
     );
     if !sum.marks.is_empty() {
         let _ = writeln!(out, "\nMarks");

@@ -4,7 +4,9 @@
 //! Clock: each period is drawn independently, T_i = T(t) + N(0, σ) with σ the RMS period jitter
 //! (an RC oscillator's successive periods are independent); the rising edge opens the period and
 //! the falling edge follows after d·T_i, so the high time carries d·σ of jitter and the low time
-//! (1 − d)·σ. T(t) follows the sweep (linear in frequency) and a slow sinusoidal drift.
+//! (1 − d)·σ. White phase noise (a crystal's jitter) moves each regular edge by N(0, σ_e) about
+//! its place, drawn per period from its own stream (glitch edges take none), so it does not
+//! accumulate. T(t) follows the sweep (linear in frequency) and a slow sinusoidal drift.
 //! Glitches are short extra pulses inside a phase (Poisson in time); stalls hold the clock low
 //! for a number of periods. Rails: nominal − sag + ripple (sine) + noise (Gaussian), sags as
 //! Poisson events with a depth and a duration. Lines: heartbeat square wave, reset pulses, and a
@@ -60,6 +62,8 @@ pub struct Bench {
     next_reset_ns: f64,
     reset_high_until_ns: Option<f64>,
     jitter: Option<Normal<f64>>,
+    edge_rng: Xoshiro256PlusPlus,
+    edge_jitter: Option<Normal<f64>>,
     ticks_per_ns: f64,
     /// Clock cycles simulated.
     pub cycles: u64,
@@ -101,6 +105,10 @@ impl Bench {
                 }
             })
             .collect();
+        // after the others, so that their streams are what they were before this one existed
+        let edge_rng = Xoshiro256PlusPlus::seed_from_u64(split(&mut s));
+        let edge_jitter = (model.edge_jitter_rms_ns > 0.0)
+            .then(|| Normal::new(0.0, model.edge_jitter_rms_ns).expect("validated edge jitter"));
         let phase_ticks = clock_rng.random::<f64>();
         let first_rise = 50.0 + event_rng.random::<f64>() * 100.0;
         let jitter = (model.jitter_rms_ns > 0.0)
@@ -128,6 +136,8 @@ impl Bench {
             next_reset_ns: reset,
             reset_high_until_ns: None,
             jitter,
+            edge_rng,
+            edge_jitter,
             ticks_per_ns: 1.0 / model.tick_ns,
             cycles: 0,
             model,
@@ -247,8 +257,15 @@ impl Bench {
                 let period = (base + j).max(base * 0.25);
                 let high = duty * period;
                 let low = period - high;
-                self.fall_at_ns = next + high;
-                self.next_rise_ns = next + period;
+                // white phase noise: this rise and its fall move about their places
+                let (er, ef) = match self.edge_jitter {
+                    Some(n) => (n.sample(&mut self.edge_rng), n.sample(&mut self.edge_rng)),
+                    None => (0.0, 0.0),
+                };
+                let next_ideal = next;
+                let next = next + er;
+                self.fall_at_ns = next_ideal + high + ef;
+                self.next_rise_ns = next_ideal + period;
                 self.cycles += 1;
                 if let Some((l, h, p)) = limit
                     && !self.faulted

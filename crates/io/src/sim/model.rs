@@ -95,8 +95,12 @@ pub struct BenchModel {
     pub freq_hz: f64,
     /// High-time fraction.
     pub duty: f64,
-    /// RMS period jitter (successive periods independent).
+    /// RMS period jitter (successive periods independent: an RC oscillator).
     pub jitter_rms_ns: f64,
+    /// RMS white phase noise of every edge about its place on the ideal clock (a crystal's
+    /// jitter: it does not accumulate; the period then carries √2 times it).
+    #[serde(default)]
+    pub edge_jitter_rms_ns: f64,
     /// Slow drift amplitude of the frequency, ppm.
     pub drift_ppm: f64,
     /// Period of the slow drift.
@@ -161,6 +165,7 @@ impl BenchModel {
             freq_hz: 2.0e6,
             duty: 0.5,
             jitter_rms_ns: 0.05,
+            edge_jitter_rms_ns: 0.0,
             drift_ppm: 5.0,
             drift_period_s: 60.0,
             tick_ns: 8.0,
@@ -254,10 +259,17 @@ impl BenchModel {
             }
         };
         nonneg(self.jitter_rms_ns, "--jitter")?;
+        nonneg(self.edge_jitter_rms_ns, "edge jitter")?;
         nonneg(self.glitch_rate_hz, "--glitch-rate")?;
         nonneg(self.stall_rate_hz, "--stall-rate")?;
         nonneg(self.heartbeat_hz, "--heartbeat")?;
         let period = 1e9 / self.freq_hz;
+        if self.edge_jitter_rms_ns > period / 16.0 {
+            return Err(format!(
+                "edge jitter {} ns is more than 1/16 of the {period:.1} ns period: edges would cross",
+                self.edge_jitter_rms_ns
+            ));
+        }
         if self.jitter_rms_ns > period / 8.0 {
             return Err(format!(
                 "--jitter {} ns is more than 1/8 of the {period:.1} ns period: the clock would run backwards",

@@ -50,39 +50,72 @@ impl FitSums {
         self.suu = self.suu.saturating_add(u.saturating_mul(u));
     }
 
-    fn merge(&mut self, o: &FitSums) {
-        self.big |= o.big;
-        self.n += o.n;
-        self.sk = self.sk.saturating_add(o.sk);
-        self.skk = self.skk.saturating_add(o.skk);
-        self.su = self.su.saturating_add(o.su);
-        self.sku = self.sku.saturating_add(o.sku);
-        self.suu = self.suu.saturating_add(o.suu);
-    }
-
-    /// RMS residual (ticks) against the least-squares line.
-    pub(super) fn residual_rms(&self) -> Option<f64> {
+    /// Sum of squared residuals (ticks²) against the least-squares line: (Sxx·Syy − Sxy²) /
+    /// (n·Sxx) from the centred sums, the numerator exactly in 256-bit integers (a clean clock's
+    /// residual is a tiny difference of two huge products: floating point loses it). None below
+    /// three points.
+    pub(super) fn residual_ss(&self) -> Option<f64> {
         if self.n < 3 {
             return None;
         }
-        let n = self.n as f64;
-        // n·Σab − Σa·Σb exactly when it fits, in floating point otherwise
-        let centred = |sab: i128, sa: i128, sb: i128| match self
-            .n
-            .checked_mul(sab)
-            .and_then(|x| sa.checked_mul(sb).and_then(|y| x.checked_sub(y)))
-        {
-            Some(v) => v as f64,
-            None => n * sab as f64 - sa as f64 * sb as f64,
+        let n = self.n;
+        let centred = |sab: i128, sa: i128, sb: i128| {
+            n.checked_mul(sab)
+                .and_then(|x| sa.checked_mul(sb).and_then(|y| x.checked_sub(y)))
         };
-        let sxx = centred(self.skk, self.sk, self.sk) / n;
-        let sxy = centred(self.sku, self.sk, self.su) / n;
-        let syy = centred(self.suu, self.su, self.su) / n;
-        if sxx <= 0.0 {
-            return None;
+        match (
+            centred(self.skk, self.sk, self.sk),
+            centred(self.sku, self.sk, self.su),
+            centred(self.suu, self.su, self.su),
+        ) {
+            (Some(sxx), Some(sxy), Some(syy)) if sxx > 0 => {
+                let d = wide_sub(wide_mul(sxx.unsigned_abs(), syy.unsigned_abs()), {
+                    let a = sxy.unsigned_abs();
+                    wide_mul(a, a)
+                });
+                Some((wide_f64(d) / (n as f64 * sxx as f64)).max(0.0))
+            }
+            _ => {
+                // beyond i128 (an absurd probe): floating point
+                let nf = n as f64;
+                let c = |sab: i128, sa: i128, sb: i128| nf * sab as f64 - sa as f64 * sb as f64;
+                let sxx = c(self.skk, self.sk, self.sk);
+                let sxy = c(self.sku, self.sk, self.su);
+                let syy = c(self.suu, self.su, self.su);
+                (sxx > 0.0).then(|| ((syy - sxy * sxy / sxx) / nf).max(0.0))
+            }
         }
-        Some(((syy - sxy * sxy / sxx).max(0.0) / n).sqrt())
     }
+
+    /// RMS residual (ticks) against the least-squares line.
+    #[cfg(test)]
+    pub(super) fn residual_rms(&self) -> Option<f64> {
+        Some((self.residual_ss()? / self.n as f64).sqrt())
+    }
+}
+
+/// a·b as 256 bits (high, low).
+fn wide_mul(a: u128, b: u128) -> (u128, u128) {
+    let m = u128::from(u64::MAX);
+    let (a1, a0, b1, b0) = (a >> 64, a & m, b >> 64, b & m);
+    let (p00, p01, p10, p11) = (a0 * b0, a0 * b1, a1 * b0, a1 * b1);
+    let mid = (p00 >> 64) + (p01 & m) + (p10 & m);
+    let lo = (p00 & m) | (mid << 64);
+    let hi = p11 + (p01 >> 64) + (p10 >> 64) + (mid >> 64);
+    (hi, lo)
+}
+
+/// a − b for 256-bit values, 0 when b > a.
+fn wide_sub(a: (u128, u128), b: (u128, u128)) -> (u128, u128) {
+    if b > a {
+        return (0, 0);
+    }
+    let (lo, borrow) = a.1.overflowing_sub(b.1);
+    (a.0 - b.0 - u128::from(borrow), lo)
+}
+
+fn wide_f64((hi, lo): (u128, u128)) -> f64 {
+    hi as f64 * 2f64.powi(128) + lo as f64
 }
 
 /// One block's worth of clock statistics (mergeable).
@@ -102,7 +135,9 @@ pub struct ClockAcc {
     pub hist_high: DevHistogram,
     /// Low-time histogram.
     pub hist_low: DevHistogram,
-    pub(super) fit: FitSums,
+    /// Squared TIE residuals (ticks²) and rises of the contiguous stretches that ended in this
+    /// block, each against its own least-squares clock (phase is not known across a break).
+    pub(super) tie_pool: (f64, u64),
     pub(super) tie_rec_max_pkpk: f64,
     pub(super) tie_rec_ss: f64,
     pub(super) tie_rec_n: u64,
@@ -117,6 +152,10 @@ pub struct ClockAcc {
     pub stalls: u64,
     /// Contiguous runs of periods (each gap, loss or glitch starts a new one).
     pub runs: u64,
+    /// First and last tick of the stamped periods (the elapsed time they lie in).
+    pub(super) span: (u64, u64),
+    /// Ticks the clock was seen stopped (stall gaps): elapsed, but no cycle was missed.
+    pub(super) idle_ticks: u64,
     // count windows (when the probe only counts)
     pub(super) count_edges: u64,
     pub(super) count_ticks: u64,
@@ -137,7 +176,7 @@ impl ClockAcc {
             hist_period: DevHistogram::new(origin),
             hist_high: DevHistogram::new(ref_high),
             hist_low: DevHistogram::new(ref_low),
-            fit: FitSums::default(),
+            tie_pool: (0.0, 0),
             tie_rec_max_pkpk: 0.0,
             tie_rec_ss: 0.0,
             tie_rec_n: 0,
@@ -147,6 +186,8 @@ impl ClockAcc {
             glitches: 0,
             stalls: 0,
             runs: 0,
+            span: (u64::MAX, 0),
+            idle_ticks: 0,
             count_edges: 0,
             count_ticks: 0,
             count_windows: 0,
@@ -164,6 +205,28 @@ impl ClockAcc {
         self.tie_rec_n += n;
     }
 
+    /// Stamped periods from tick `from` to tick `to` (widens the elapsed span).
+    #[inline]
+    pub(super) fn cover(&mut self, from: u64, to: u64) {
+        self.span = (self.span.0.min(from), self.span.1.max(to));
+    }
+
+    /// The share of elapsed cycles that were stamped: stamped time over the span the periods
+    /// lie in less the time the clock was seen stopped (None before a period). With more than
+    /// one run (bursts, losses) the span runs on to `now_tick`: the cycles after the last
+    /// burst elapsed too.
+    pub(super) fn coverage(&self, now_tick: u64) -> Option<f64> {
+        let from = self.span.0;
+        let to = if self.runs > 1 {
+            self.span.1.max(now_tick)
+        } else {
+            self.span.1
+        };
+        let elapsed = to.checked_sub(from)?.saturating_sub(self.idle_ticks);
+        let stamped = self.period.mean()? * self.period.n as f64;
+        (elapsed > 0).then(|| (stamped / elapsed as f64).clamp(0.0, 1.0))
+    }
+
     /// Fold a later block into this one.
     pub fn merge(&mut self, o: &ClockAcc) {
         self.period.merge(&o.period);
@@ -173,7 +236,10 @@ impl ClockAcc {
         self.hist_period.merge(&o.hist_period);
         self.hist_high.merge(&o.hist_high);
         self.hist_low.merge(&o.hist_low);
-        self.fit.merge(&o.fit);
+        self.tie_pool = (
+            self.tie_pool.0 + o.tie_pool.0,
+            self.tie_pool.1 + o.tie_pool.1,
+        );
         self.add_tie_record((o.tie_rec_max_pkpk, o.tie_rec_ss, o.tie_rec_n));
         for i in 0..2 {
             self.ncycle[i].merge(&o.ncycle[i]);
@@ -183,6 +249,8 @@ impl ClockAcc {
         self.glitches += o.glitches;
         self.stalls += o.stalls;
         self.runs += o.runs;
+        self.cover(o.span.0, o.span.1);
+        self.idle_ticks += o.idle_ticks;
         self.count_edges += o.count_edges;
         self.count_ticks += o.count_ticks;
         self.count_windows += o.count_windows;
@@ -295,6 +363,18 @@ mod tests {
             (slow.n, slow.sk, slow.skk, slow.su, slow.sku, slow.suu)
         );
         assert_eq!(fast.residual_rms(), slow.residual_rms());
+        // a clean clock: residuals of ±1 about a steep line, where the floating-point
+        // difference of the centred sums cancels (exact value from the residuals themselves)
+        let mut f = FitSums::default();
+        let mut ss = 0.0;
+        for k in 0..1_000_000i64 {
+            let r = [1i64, -1][k as usize % 2];
+            f.add(k, 1_000 * k + r);
+            ss += 1.0;
+        }
+        let want = ss / 1e6; // the line is exact: ±1 about 1000·k (mean 0, no slope left)
+        let got = f.residual_rms().unwrap().powi(2);
+        assert!((got - want).abs() < 1e-9, "{got}");
         fast.add(i64::MAX / 4, i64::MAX / 4);
         fast.add(i64::MAX / 4, i64::MIN / 4);
         assert!(fast.big && fast.suu > 0);

@@ -21,6 +21,8 @@ struct Steady {
     gh: u64,
     /// Longest gap (a stall beyond).
     hi: u64,
+    /// Shortest spacing of two edges of one polarity.
+    gp: u64,
     /// Rises the stretch may commit before the refresh segment ends.
     max_rises: usize,
     /// Last tick a committed rise may have (the short run's end).
@@ -38,17 +40,29 @@ impl Steady {
         self.n_max.min(last_fall + 1)
     }
 
-    /// Whether a stretch whose committed gaps have these extremes, the last edge this gap and
-    /// polarity, and the latest committed rise this tick, is clean (what the scan in
-    /// `clean_len` finds edge by edge).
-    fn clean(&self, low: (i64, i64), high: (i64, i64), last: (u64, bool), rise: u64) -> bool {
+    /// Whether a stretch whose committed gaps have these extremes, whose committed rises and
+    /// falls lie at least these spacings apart, the last edge this gap, spacing and polarity,
+    /// and the latest committed rise this tick, is clean (what the scan in `clean_len` finds
+    /// edge by edge).
+    fn clean(
+        &self,
+        gaps: [(i64, i64); 2],
+        spacings: [i64; 2],
+        last: (u64, u64, bool),
+        rise: u64,
+    ) -> bool {
+        let [low, high] = gaps;
         let within = |(lo, hi): (i64, i64), least: u64| {
             i128::from(lo) >= i128::from(least) && i128::from(hi) <= i128::from(self.hi)
         };
-        let (gap, is_rise) = last;
+        let (gap, spacing, is_rise) = last;
         let least = if is_rise { self.gl } else { self.gh };
         within(low, self.gl)
             && within(high, self.gh)
+            && spacings
+                .iter()
+                .all(|&s| i128::from(s) >= i128::from(self.gp))
+            && spacing >= self.gp
             && (least..=self.hi).contains(&gap)
             && rise <= self.run_limit
     }
@@ -151,7 +165,7 @@ impl ClockState {
             || self.acc.is_none()
             || self.run.n == 0
             || self.rises.is_empty()
-            || self.refresh >= REFRESH
+            || self.refresh >= self.segment
             || self.anchor.map(|a| a.0) != Some(lr)
         {
             return None;
@@ -168,7 +182,8 @@ impl ClockState {
             gl,
             gh,
             hi,
-            max_rises: (REFRESH - self.refresh) as usize,
+            gp: self.spacing_ticks,
+            max_rises: (self.segment - self.refresh) as usize,
             run_limit: self.run.start.saturating_add(self.run_ticks),
             n_max: len.min(2 * REFRESH as usize),
         })
@@ -184,28 +199,40 @@ impl ClockState {
             gl,
             gh,
             hi,
+            gp,
             max_rises,
             run_limit,
             n_max,
         } = st;
+        // le: the committed edge before the pending one (the same polarity as t[0])
+        let Some(le) = self.last_edge else {
+            return 0;
+        };
         // a gap is fine when not shorter than the glitch threshold of the pulse it closes (a
         // rise closes a low pulse) and not longer than a stall: one unsigned compare, which
         // also refuses time running backwards (the difference wraps around)
         let (lo_even, lo_odd) = if rising { (gl, gh) } else { (gh, gl) };
         let bad = |gap: u64, lo: u64| gap.wrapping_sub(lo) > hi - lo;
-        let (mut j, mut prev, mut rises) = (0usize, pt, 0usize);
+        // the spacing of two edges of one polarity (two gaps, each checked above)
+        let near = |spacing: u64| spacing < gp;
+        let (mut j, mut prev2, mut prev, mut rises) = (0usize, le, pt, 0usize);
         // blocks of 8 cycles, checked without branches
         while j + 16 <= n_max && rises + 8 < max_rises {
             let b = &t[j..j + 16];
             let mut any = bad(b[0].wrapping_sub(prev), lo_even);
+            any |= near(b[0].wrapping_sub(prev2)) | near(b[1].wrapping_sub(prev));
             for k in 1..16 {
                 any |= bad(b[k].wrapping_sub(b[k - 1]), [lo_even, lo_odd][k % 2]);
+            }
+            for k in 2..16 {
+                any |= near(b[k].wrapping_sub(b[k - 2]));
             }
             // the block commits 8 rises; the newest is the edge before its last fall
             let newest_rise = if rising { b[14] } else { b[13] };
             if any || newest_rise > run_limit {
                 break;
             }
+            prev2 = b[14];
             prev = b[15];
             rises += 8;
             j += 16;
@@ -213,7 +240,9 @@ impl ClockState {
         while j < n_max {
             let x = t[j];
             let is_rise = rising ^ (j % 2 == 1);
-            if bad(x.wrapping_sub(prev), if is_rise { gl } else { gh }) {
+            if bad(x.wrapping_sub(prev), if is_rise { gl } else { gh })
+                || near(x.wrapping_sub(prev2))
+            {
                 return j;
             }
             if !is_rise {
@@ -227,6 +256,7 @@ impl ClockState {
                     return j + 1;
                 }
             }
+            prev2 = prev;
             prev = x;
             j += 1;
         }
@@ -297,22 +327,37 @@ impl ClockState {
         let el = diff_extremes(&mut sc.low[..nr], &rises[1..], &falls[low_from..]);
         let eh = diff_extremes(&mut sc.high[..nf], &falls[1..], &rises[high_from..]);
         if let Some(st) = check {
-            // every committed gap is a low or a high; then the last edge's own gap, and the
-            // newest rise a fall commits (the rises of a clean stretch increase)
+            // every committed gap is a low or a high, every committed edge lies far enough
+            // from the one of its polarity before; then the last edge's own gap and spacing,
+            // and the newest rise a fall commits (the rises of a clean stretch increase)
             let last_rises = rising ^ n.is_multiple_of(2);
-            let last = (t[n - 1].wrapping_sub(t[n - 2]), last_rises);
+            let before = if n == 2 { st.pt } else { t[n - 3] };
+            let last = (
+                t[n - 1].wrapping_sub(t[n - 2]),
+                t[n - 1].wrapping_sub(before),
+                last_rises,
+            );
+            // a fall's spacing is a low plus a high: the sum of their minima bounds it, and
+            // only when that bound is short of the threshold is it taken edge by edge
+            let bound = el.0.saturating_add(eh.0);
+            let fall_spacing = if i128::from(bound) >= i128::from(st.gp) {
+                bound
+            } else {
+                diff_extremes(&mut sc.tmp[..nf], &falls[1..], falls).0
+            };
             let newest = match (last_rises, n) {
                 (false, _) => t[n - 2],
                 (true, 2) => st.pt,
                 (true, _) => t[n - 3],
             };
-            if !st.clean(el, eh, last, newest) {
+            if !st.clean([el, eh], [ep.0, fall_spacing], last, newest) {
                 return false;
             }
         }
         let (period, low, high) = (&sc.period[..nr], &sc.low[..nr], &sc.high[..nf]);
         let rise_ticks = &rises[1..];
         let idx0 = kidx + 1;
+        a.cover(rises[0], rises[nr]);
         let rp = RunSums::about(period, ep.0, ep.1);
         a.period.add_sums(&rp, period, rise_ticks, idx0);
         a.hist_period.record_run(period, &rp);
@@ -386,7 +431,7 @@ impl ClockState {
         let v = &sc.tmp[..nr];
         // Σk·(v − lo) in the same pass as the sums when the offsets are narrow
         let (rv, ske) = RunSums::about_weighted(v, lo, hi, true);
-        let fit = &mut a.fit;
+        let fit = &mut self.stretch;
         let nr128 = nr as i128;
         let u_off = if !fit.big
             && kk0 >= 0

@@ -2,6 +2,8 @@
 
 use serde::Serialize;
 
+use crate::units::ns;
+
 /// A figure the probe could not observe, and why.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Unavailable {
@@ -35,6 +37,9 @@ pub struct NCycle {
     pub rms_ns: f64,
     /// Largest |·|, ns.
     pub max_abs_ns: f64,
+    /// RMS less the quantisation of its two stamps, √(rms² − q²/6), ns (0 when quantisation
+    /// explains all of it).
+    pub debiased_ns: f64,
 }
 
 /// An Allan deviation point.
@@ -59,6 +64,12 @@ pub struct ClockSnapshot {
     pub method: String,
     /// Probe tick: the resolution of every single time, ns.
     pub resolution_ns: f64,
+    /// How the cycles were observed: "continuous" (every edge stamped), "bursts" (stamped in
+    /// stretches: a burst-mode probe or a link that fell behind) or "count-windows".
+    pub observation: String,
+    /// Share of the elapsed cycles that were stamped (0…1); the worst-cycle figures are the
+    /// worst of these cycles only.
+    pub coverage: Option<f64>,
     /// Edges seen.
     pub edges: u64,
     /// Complete periods measured.
@@ -103,6 +114,8 @@ pub struct ClockSnapshot {
     pub duty: Option<f64>,
     /// Its uncertainty (k = 2.5).
     pub duty_uncertainty: Option<f64>,
+    /// Why the duty is less certain than it looks (a phase of a tick or two), when it is.
+    pub duty_note: Option<String>,
     /// Statistical duty from level samples, with its Wilson 95 % interval.
     pub duty_sampled: Option<(f64, f64, f64)>,
     /// Period jitter RMS as measured (sample standard deviation of periods).
@@ -111,7 +124,7 @@ pub struct ClockSnapshot {
     pub period_jitter_rms_pop_ns: Option<f64>,
     /// Quantisation floor of period jitter at random phase: q/√6.
     pub period_jitter_floor_ns: f64,
-    /// True when the measured jitter is explained by quantisation alone (below resolution).
+    /// True when the de-biased jitter's uncertainty covers zero (below resolution).
     pub period_jitter_below_resolution: bool,
     /// De-biased estimate √(s² − q²/6), labelled as such.
     pub period_jitter_debiased_ns: Option<f64>,
@@ -125,8 +138,11 @@ pub struct ClockSnapshot {
     pub cycle_to_cycle_rms_ns: Option<f64>,
     /// Largest |adjacent period difference|.
     pub cycle_to_cycle_max_ns: Option<f64>,
-    /// Quantisation floor of cycle-to-cycle jitter at random phase: q/√2.
+    /// Quantisation floor of cycle-to-cycle jitter at random phase: q/√2 (three stamps,
+    /// weights 1, −2, 1: 6·q²/12).
     pub cycle_to_cycle_floor_ns: f64,
+    /// Cycle-to-cycle RMS less that quantisation, √(rms² − q²/2) (0 when it explains all).
+    pub cycle_to_cycle_debiased_ns: Option<f64>,
     /// TIE RMS against a least-squares ideal clock over the window.
     pub tie_rms_ns: Option<f64>,
     /// Largest TIE peak to peak within detrended records.
@@ -166,6 +182,8 @@ impl ClockSnapshot {
             label: label.to_string(),
             method: "edge timestamps".into(),
             resolution_ns: q,
+            observation: "continuous".into(),
+            coverage: None,
             edges: 0,
             cycles: 0,
             count_windows: 0,
@@ -188,6 +206,7 @@ impl ClockSnapshot {
             low_max_ns: None,
             duty: None,
             duty_uncertainty: None,
+            duty_note: None,
             duty_sampled: None,
             period_jitter_rms_ns: None,
             period_jitter_rms_pop_ns: None,
@@ -200,6 +219,7 @@ impl ClockSnapshot {
             cycle_to_cycle_rms_ns: None,
             cycle_to_cycle_max_ns: None,
             cycle_to_cycle_floor_ns: q / 2f64.sqrt(),
+            cycle_to_cycle_debiased_ns: None,
             tie_rms_ns: None,
             tie_pkpk_ns: None,
             tie_record_cycles,
@@ -214,11 +234,80 @@ impl ClockSnapshot {
         }
     }
 
+    /// The label of a worst-cycle figure: "WORST", or "worst of the observed cycles (N % of
+    /// all)" when not every cycle was stamped.
+    pub fn worst_label(&self) -> String {
+        match self.observed_share() {
+            Some(share) => format!("worst of the observed cycles ({share})"),
+            None => "WORST".into(),
+        }
+    }
+
+    /// "N % of all" when not every cycle was stamped (None for a continuous stream).
+    pub fn observed_share(&self) -> Option<String> {
+        match self.coverage {
+            Some(c) if self.observation != "continuous" => Some(format!("{} of all", percent(c))),
+            _ => None,
+        }
+    }
+
+    /// The period jitter as text, the same figures as the JSON: the de-biased estimate with its
+    /// uncertainty and the raw spread beside it; "below resolution" (with the bound) when the
+    /// uncertainty covers zero. `compact`: the bound or the estimate with the raw spread only.
+    pub fn jitter_text(&self, compact: bool) -> String {
+        let (Some(d), Some(u), Some(raw)) = (
+            self.period_jitter_debiased_ns,
+            self.period_jitter_uncertainty_ns,
+            self.period_jitter_rms_ns,
+        ) else {
+            return "—".into();
+        };
+        if compact {
+            return if self.period_jitter_below_resolution {
+                format!("below resolution (< {}), raw {}", ns(d + u), ns(raw))
+            } else {
+                format!("{} ± {} (de-biased), raw {}", ns(d), ns(u), ns(raw))
+            };
+        }
+        if self.period_jitter_below_resolution {
+            format!(
+                "below resolution (< {}); de-biased {} ± {}, raw {} RMS",
+                ns(d + u),
+                ns(d),
+                ns(u),
+                ns(raw)
+            )
+        } else {
+            format!(
+                "{} ± {} RMS (de-biased), raw {}, pk-pk {} over N = {}",
+                ns(d),
+                ns(u),
+                ns(raw),
+                self.period_jitter_pkpk_ns
+                    .map_or("—".into(), |v| ns(v).to_string()),
+                self.period_jitter_n
+            )
+        }
+    }
+
     /// Say that `figure` cannot be observed, and why.
     pub(super) fn mark_unavailable(&mut self, figure: &str, reason: &str) {
         self.unavailable.push(Unavailable {
             figure: figure.into(),
             reason: reason.into(),
         });
+    }
+}
+
+/// A share as a percentage with two significant digits (at least one decimal below 10 %).
+fn percent(share: f64) -> String {
+    let p = share * 100.0;
+    if p >= 10.0 {
+        format!("{p:.0} %")
+    } else if p >= 1.0 {
+        format!("{p:.1} %")
+    } else {
+        let digits = (1 - (p.max(1e-9)).log10().floor() as i32).clamp(1, 9) as usize;
+        format!("{p:.digits$} %")
     }
 }

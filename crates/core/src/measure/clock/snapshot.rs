@@ -11,12 +11,21 @@
 
 use super::super::stats::{DevHistogram, IntStats};
 use super::acc::ClockAcc;
-use super::config::{BATCH, K};
+use super::config::{BATCH, K, MIN_TIE_STRETCH};
 use super::count::{counted_figures, counted_only};
 use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
 use super::state::ClockState;
 
-/// Figures of one channel from a merged block (and the session's Allan estimator).
+/// A stream whose stamped cycles cover at least this share of the elapsed ones is continuous
+/// (a dropped edge or a lost frame now and then does not make it sampled; common practice, no
+/// source).
+const CONTINUOUS: f64 = 0.99;
+
+/// A mean phase shorter than this many ticks flags the duty (common practice, no source).
+const SHORT_PHASE_TICKS: f64 = 2.0;
+
+/// Figures of one channel from a merged block (and the session's Allan estimator); `now_tick`
+/// is the probe's latest time (the end of the elapsed time when the cycles came in bursts).
 pub fn snapshot(
     channel: u8,
     label: &str,
@@ -24,6 +33,7 @@ pub fn snapshot(
     state: &ClockState,
     timebase_ppm: u16,
     with_allan: bool,
+    now_tick: u64,
 ) -> ClockSnapshot {
     let q = state.tick_ns;
     let mut s = ClockSnapshot::empty(channel, label, q, state.cfg.tie_record);
@@ -38,17 +48,35 @@ pub fn snapshot(
     s.stalls = a.stalls;
     if counted_only(a) {
         counted_figures(&mut s, a, timebase_ppm);
+        s.observation = "count-windows".into();
+        s.coverage = Some(0.0);
         return s;
     }
     s.cycles = a.period.n;
+    s.coverage = a.coverage(now_tick);
+    if s.coverage.is_some_and(|c| c < CONTINUOUS) {
+        s.observation = "bursts".into();
+    }
     if a.period.n > 0 {
         stamped_figures(&mut s, a, state, timebase_ppm);
     }
     if with_allan && let Some(al) = &state.allan {
+        // the estimator's τ0 was set from the reference (first) period; the samples are
+        // `allan_every` mean periods apart, so τ scales by mean / reference and the deviation
+        // (a phase difference over τ) by the inverse
+        let pref = state.refs.map_or(0, |r| r.0);
+        let scale = match (a.period.mean(), pref) {
+            (Some(m), p) if p > 0 && m > 0.0 => m / p as f64,
+            _ => 1.0,
+        };
         s.allan = al
             .points()
             .into_iter()
-            .map(|(tau_s, adev, terms)| AllanPoint { tau_s, adev, terms })
+            .map(|(tau_s, adev, terms)| AllanPoint {
+                tau_s: tau_s * scale,
+                adev: adev / scale,
+                terms,
+            })
             .collect();
     }
     s
@@ -78,14 +106,29 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     s.period_jitter_n = p.n;
     s.period_jitter_pkpk_ns = Some((p.max - p.min) as f64 * q);
     let debiased = debiased_jitter_ns(sp_ns, q);
+    let u_j = jitter_uncertainty_ns(sp_ns, debiased, n, q);
     s.period_jitter_debiased_ns = Some(debiased);
-    s.period_jitter_below_resolution = debiased < s.period_jitter_floor_ns;
-    s.period_jitter_uncertainty_ns = Some(jitter_uncertainty_ns(sp_ns, debiased, n, q));
+    // below resolution when the uncertainty covers zero (the estimate cannot tell the clock
+    // from a jitter-free one)
+    s.period_jitter_below_resolution = debiased <= u_j;
+    s.period_jitter_uncertainty_ns = Some(u_j);
     let tick_s = q * 1e-9;
     if let Some(h) = PhaseTimes::of(&a.high, q, tick_s) {
         let u_h = mean_uncertainty_ns(&a.high, q, coherent_systematic_ns(sp_ns, q));
         s.duty = Some(h.mean_ns / mean_ns);
         s.duty_uncertainty = Some(duty_uncertainty(h.mean_ns, u_h, mean_ns, u_t));
+        let low_ns = mean_ns - h.mean_ns;
+        if h.mean_ns.min(low_ns) < SHORT_PHASE_TICKS * q {
+            // a phase of a tick or two: which stamps it falls between decides the reading; a
+            // systematic error up to half a tick on the mean phase stays
+            let u_short = duty_uncertainty(h.mean_ns, u_h.max(q / 2.0), mean_ns, u_t);
+            s.duty_uncertainty = s.duty_uncertainty.map(|u| u.max(u_short));
+            s.duty_note = Some(format!(
+                "a phase is under {SHORT_PHASE_TICKS} ticks: the duty is only as good as the \
+                 tick ({})",
+                if h.mean_ns < low_ns { "high" } else { "low" }
+            ));
+        }
         (
             s.high_mean_ns,
             s.high_min_ns,
@@ -105,12 +148,39 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     }
     if a.c2c.n > 0 {
         s.cycle_to_cycle_rms_ns = a.c2c.rms_about_zero().map(|v| v * q);
+        s.cycle_to_cycle_debiased_ns = s
+            .cycle_to_cycle_rms_ns
+            .map(|r| (r * r - q * q / 2.0).max(0.0).sqrt());
         s.cycle_to_cycle_max_ns =
             Some(a.c2c.max.unsigned_abs().max(a.c2c.min.unsigned_abs()) as f64 * q);
     }
-    s.tie_rms_ns = a.fit.residual_rms().map(|v| v * q);
+    // TIE only where phase is known: each contiguous stretch against its own ideal clock,
+    // pooled (the stretch still open counts whole)
+    let (mut ss, mut n_tie) = a.tie_pool;
+    if let Some((s2, n2)) = state.open_stretch_tie() {
+        (ss, n_tie) = (ss + s2, n_tie + n2);
+    }
+    if n_tie > 0 {
+        s.tie_rms_ns = Some((ss / n_tie as f64).sqrt() * q);
+    } else {
+        s.mark_unavailable(
+            "tie_rms_ns",
+            &format!(
+                "no contiguous stretch of {MIN_TIE_STRETCH} cycles or more: phase is not known \
+                 across continuity breaks"
+            ),
+        );
+    }
     if a.tie_rec_n > 0 {
         s.tie_pkpk_ns = Some(a.tie_rec_max_pkpk * q);
+    } else {
+        s.mark_unavailable(
+            "tie_pkpk_ns",
+            &format!(
+                "no contiguous stretch of {} cycles (one TIE record)",
+                state.cfg.tie_record
+            ),
+        );
     }
     let pref = state.refs.map_or(0, |r| r.0);
     s.n_cycle = n_cycle_figures(&a.ncycle, state.cfg.n_cycles, mean_p, pref, q);
@@ -161,13 +231,17 @@ impl PhaseTimes {
 }
 
 /// The variance of the period noise, ns²: from batch means when there are at least 8 batches
-/// (it shows even below one tick), else from the period spread less quantisation (q²/6), kept
+/// (it shows even below one tick; at least the spread of that estimate, which bounds what the
+/// batches cannot resolve), else from the period spread less quantisation (q²/6), kept
 /// at least at the quantisation floor when the spread is that of quantisation alone.
 fn period_noise_var(sp_ns: f64, batches: u64, batch_std: Option<f64>, q: f64) -> f64 {
     let floor = q / 6f64.sqrt();
     if batches >= 8 {
+        // the batch variance less quantisation; a period noise the batches cannot resolve (below
+        // the estimate's own spread, √(2/(m − 1)) of the batch variance) is bounded by it
         let vb = batch_std.unwrap_or(0.0) * q;
-        ((vb * vb - q * q / 6.0) / f64::from(BATCH)).max(0.0)
+        let unresolved = vb * vb * (2.0 / (batches as f64 - 1.0)).sqrt();
+        ((vb * vb - q * q / 6.0).max(unresolved) / f64::from(BATCH)).max(0.0)
     } else {
         (sp_ns * sp_ns - q * q / 6.0)
             .max(0.0)
@@ -193,7 +267,7 @@ fn debiased_jitter_ns(sp_ns: f64, q: f64) -> f64 {
 /// Expanded uncertainty of the jitter estimate, ns: the chi-square spread of a standard
 /// deviation, plus the error of subtracting q²/6: at most about q²/24/σ, and vanishing as
 /// exp(−2π²σ²/q²) once the jitter dithers the quantiser (the Gaussian characteristic function
-/// at 2π/q; Widrow, Kollár & Liu 1996).
+/// at 2π/q; Widrow, Kollár & Liu 1996). A spread quantisation alone could make covers zero.
 fn jitter_uncertainty_ns(sp_ns: f64, debiased: f64, n: f64, q: f64) -> f64 {
     let stat = sp_ns / (2.0 * (n - 1.0).max(1.0)).sqrt();
     let model = if debiased > 0.0 {
@@ -202,7 +276,14 @@ fn jitter_uncertainty_ns(sp_ns: f64, debiased: f64, n: f64, q: f64) -> f64 {
     } else {
         q / 6f64.sqrt()
     };
-    K * (stat * stat + model * model).sqrt()
+    let u = K * (stat * stat + model * model).sqrt();
+    // a steady clock commensurate with the tick reads σ = q·√(p(1−p)), anywhere from 0 to q/2:
+    // a spread that quantisation alone can give leaves the true jitter anywhere from 0 to s
+    if sp_ns <= q / 2.0 + K * stat {
+        u.max(debiased).max(sp_ns - debiased)
+    } else {
+        u
+    }
 }
 
 /// Coherent sampling (less spread than random phase would give): the quantisation error of a
@@ -248,6 +329,7 @@ fn n_cycle_figures(
                 n,
                 rms_ns: rms * q,
                 max_abs_ns: max_abs * q,
+                debiased_ns: ((rms * rms - 1.0 / 6.0).max(0.0)).sqrt() * q,
             });
         }
     }

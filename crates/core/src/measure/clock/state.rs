@@ -5,9 +5,11 @@
 use serde::Serialize;
 
 use super::super::allan::AllanStream;
-use super::acc::{ClockAcc, RunAcc, ShortRun, seg_add};
+use super::acc::{ClockAcc, FitSums, RunAcc, ShortRun, seg_add};
 use super::buffers::{RiseHistory, Scratch};
-use super::config::{BATCH, ClockConfig, MAX_GAP_TICKS, REFRESH, SHORT_RUN_NS};
+use super::config::{
+    BATCH, ClockConfig, MAX_GAP_TICKS, MIN_TIE_STRETCH, REFRESH, SHORT_RUN_NS, SPACING_FRACTION,
+};
 use super::tie::close_record;
 
 /// A short pulse: a double-clocking risk.
@@ -47,7 +49,10 @@ pub struct ClockState {
     pub(super) prev_period: Option<i64>,
     /// Tick and ideal-cycle index of the last committed rise (kept across gaps).
     pub(super) anchor: Option<(u64, u64)>,
+    /// Origin of the current contiguous stretch's TIE fit (cycle index, tick of its first rise).
     pub(super) fit_origin: Option<(u64, u64)>,
+    /// The TIE fit of the current contiguous stretch (closed into the block at a break).
+    pub(super) stretch: FitSums,
     /// The run's latest rises (for the N-cycle error).
     pub(super) rises: RiseHistory,
     /// The TIE record being filled (committed rises).
@@ -66,8 +71,14 @@ pub struct ClockState {
     /// the typical values every [`REFRESH`] periods, so the per-edge path compares integers).
     pub(super) glitch_high_ticks: u64,
     pub(super) glitch_low_ticks: u64,
+    /// Two edges of one polarity closer than this (ticks) make the newer one undecided: an
+    /// extra pulse wider than the real phase of its polarity still splits a cycle.
+    pub(super) spacing_ticks: u64,
     pub(super) stall_ticks: u64,
     pub(super) refresh: u32,
+    /// Periods of the current refresh segment: 1 (the first period sets the thresholds), 16,
+    /// 256, then [`REFRESH`] (early typical values come from more than one cycle soon).
+    pub(super) segment: u32,
     /// Length of a short run (20 ms) in ticks.
     pub(super) run_ticks: u64,
     pub(super) allan: Option<AllanStream>,
@@ -75,6 +86,9 @@ pub struct ClockState {
     pub(super) allan_countdown: u64,
     /// The current block.
     pub acc: Option<ClockAcc>,
+    /// Edges seen while there was no block (before the first period, or after a block was
+    /// handed over): counted into the next block, so edge counts are exact.
+    pub(super) loose_edges: u64,
     pub(super) run: RunAcc,
     /// The last two finished short runs (older first).
     pub(crate) runs: [Option<ShortRun>; 2],
@@ -104,6 +118,7 @@ impl ClockState {
             prev_period: None,
             anchor: None,
             fit_origin: None,
+            stretch: FitSums::default(),
             batch_sum: 0,
             batch_n: 0,
             typ_high: 0.0,
@@ -112,13 +127,16 @@ impl ClockState {
             seg: [(0, 0); 3],
             glitch_high_ticks: 0,
             glitch_low_ticks: 0,
+            spacing_ticks: 0,
             stall_ticks: u64::MAX,
             refresh: 0,
+            segment: 1,
             run_ticks: (SHORT_RUN_NS / tick_ns) as u64,
             allan: None,
             allan_every: 1,
             allan_countdown: 0,
             acc: None,
+            loose_edges: 0,
             run: RunAcc::default(),
             runs: [None, None],
             glitch_events: Vec::new(),
@@ -162,6 +180,7 @@ impl ClockState {
     /// Continuity is broken (data lost, new connection, burst): no interval spans the break.
     pub fn break_continuity(&mut self) {
         self.close_run();
+        self.close_stretch();
         self.pending = None;
         self.suspect = None;
         self.last_rise = None;
@@ -185,6 +204,29 @@ impl ClockState {
         self.anchor = self.anchor.map(|(_, k)| (tick, k));
     }
 
+    /// The current contiguous stretch ends: its TIE residuals go into the block (when it is long
+    /// enough), and the next stretch is fitted from its own origin.
+    fn close_stretch(&mut self) {
+        let fit = std::mem::take(&mut self.stretch);
+        self.fit_origin = None;
+        if fit.n >= MIN_TIE_STRETCH
+            && let (Some(ss), Some(a)) = (fit.residual_ss(), self.acc.as_mut())
+        {
+            a.tie_pool = (a.tie_pool.0 + ss, a.tie_pool.1 + fit.n as u64);
+        }
+    }
+
+    /// The current stretch's TIE residuals (ticks², rises) when it is long enough to count.
+    pub(super) fn open_stretch_tie(&self) -> Option<(f64, u64)> {
+        (self.stretch.n >= MIN_TIE_STRETCH)
+            .then(|| {
+                self.stretch
+                    .residual_ss()
+                    .map(|ss| (ss, self.stretch.n as u64))
+            })
+            .flatten()
+    }
+
     fn ensure_acc(&mut self, first_period: Option<i64>) -> Option<&mut ClockAcc> {
         if self.acc.is_none() {
             if self.refs.is_none() {
@@ -194,16 +236,20 @@ impl ClockState {
                 self.typ_period = p as f64;
             }
             self.acc = self.empty_acc();
+            if let Some(a) = self.acc.as_mut() {
+                a.edges += std::mem::take(&mut self.loose_edges);
+            }
         }
         self.acc.as_mut()
     }
 
-    /// `n` more periods: the refresh segment ends at [`REFRESH`] periods (or at the very first
-    /// period, which sets the thresholds at once) and the thresholds are refreshed.
+    /// `n` more periods: the refresh segment ends at `segment` periods (the very first period
+    /// sets the thresholds at once) and the thresholds are refreshed.
     pub(super) fn count_periods(&mut self, n: u32) {
         self.refresh += n;
-        if self.refresh >= REFRESH || self.refresh == 1 && self.stall_ticks == u64::MAX {
+        if self.refresh >= self.segment {
             self.refresh = 0;
+            self.segment = (self.segment * 16).min(REFRESH);
             self.refresh_thresholds();
         }
     }
@@ -225,9 +271,12 @@ impl ClockState {
                 self.cfg.glitch_fraction * self.typ_low,
             ),
         };
-        // a pulse narrower than the threshold (strictly) is a glitch
-        self.glitch_high_ticks = h.ceil().max(0.0) as u64;
-        self.glitch_low_ticks = l.ceil().max(0.0) as u64;
+        // a pulse narrower than the threshold (strictly) is undecided; with a fraction, one
+        // tick more, as a fragment just under it may read one tick longer
+        let margin = if self.cfg.glitch_ns.is_some() { 0 } else { 1 };
+        self.glitch_high_ticks = h.ceil().max(0.0) as u64 + margin;
+        self.glitch_low_ticks = l.ceil().max(0.0) as u64 + margin;
+        self.spacing_ticks = (SPACING_FRACTION * self.typ_period).ceil().max(0.0) as u64;
         self.stall_ticks = if self.typ_period > 0.0 {
             (self.cfg.stall_periods * self.typ_period) as u64
         } else {
@@ -248,8 +297,9 @@ impl ClockState {
         if newest.is_some_and(|n| tick <= n) || self.anchor.is_some_and(|(at, _)| tick <= at) {
             self.restart_at(tick);
         }
-        if let Some(a) = self.acc.as_mut() {
-            a.edges += 1;
+        match self.acc.as_mut() {
+            Some(a) => a.edges += 1,
+            None => self.loose_edges += 1,
         }
         let Some((pt, pr)) = self.pending else {
             self.pending = Some((tick, rising));
@@ -264,25 +314,76 @@ impl ClockState {
             return;
         }
         if let Some((nt, nr)) = self.suspect.take() {
-            // P→N was short. A glitch near an edge leaves two short pulses in a row (P→N, N→M):
-            // the shorter one is the glitch, the other is what is left of a real phase.
-            let second = tick - nt;
-            if second < self.glitch_ticks(nr) && second < nt - pt {
-                self.glitch(nt, nr, second);
-                // P stays pending: the phase it opened goes on
-            } else {
-                self.glitch(pt, pr, nt - pt);
-                self.pending = Some((tick, rising));
-            }
+            self.decide(pt, pr, nt, nr, tick, rising);
             return;
         }
-        if tick - pt < self.glitch_ticks(pr) {
-            // a short pulse: decide with the next edge which two edges to set aside
+        self.after_pending(pt, pr, tick, rising);
+    }
+
+    /// The newest edge `tick` after the pending edge `pt` (no undecided edge between): held
+    /// back when the pulse it closes is short or it comes too soon after the last edge of its
+    /// polarity, else the pending edge is committed.
+    #[inline]
+    fn after_pending(&mut self, pt: u64, pr: bool, tick: u64, rising: bool) {
+        if tick - pt < self.glitch_ticks(pr)
+            || self
+                .last_edge
+                .is_some_and(|le| tick - le < self.spacing_ticks)
+        {
+            // decide with the next edge which two edges (if any) to set aside
             self.suspect = Some((tick, rising));
             return;
         }
         self.commit(pt, pr);
         self.pending = Some((tick, rising));
+    }
+
+    /// The pending edge P, the undecided edge N and the newest edge M: three readings of the
+    /// pulses A (last committed edge → P), B (P → N) and C (N → M), each judged by how far
+    /// its phases lie from the typical ones (ticks, one tick allowed for quantisation):
+    /// B and C are real phases (or close two typical periods); B is a runt inside the phase A opened (A + B + C is one
+    /// phase); or C is a runt inside the phase P opened (A is a whole phase, B + C only the
+    /// start of one). The best fit wins; within a tick, the edges are kept.
+    fn decide(&mut self, pt: u64, pr: bool, nt: u64, nr: bool, tick: u64, rising: bool) {
+        let (b, c) = ((nt - pt) as f64, (tick - nt) as f64);
+        let a = self.last_edge.map(|le| (pt - le) as f64);
+        let (typ_b, typ_a) = (self.typ_phase(pr), self.typ_phase(nr));
+        let off = |x: f64, typ: f64| ((x - typ).abs() - 1.0).max(0.0);
+        let over = |x: f64, typ: f64| (x - typ - 1.0).max(0.0);
+        // an absolute threshold is a promise: a pulse under it is never a real phase
+        let forced = self.cfg.glitch_ns.is_some() && nt - pt < self.glitch_ticks(pr);
+        // real phases: each near its typical value, or both cycles they close near the typical
+        // period (phases of a jittery clock near the resolution)
+        let keep = match (forced, a) {
+            (true, _) => f64::INFINITY,
+            (false, Some(a)) => (off(b, typ_b) + off(c, typ_a))
+                .min(off(a + b, self.typ_period) + off(b + c, self.typ_period)),
+            (false, None) => off(b, typ_b) + off(c, typ_a),
+        };
+        let (inner, outer) = match a {
+            Some(a) => (off(a + b + c, typ_a), off(a, typ_a) + over(b + c, typ_b)),
+            None => (over(b + c, typ_a), over(b + c, typ_b)),
+        };
+        // a tick of doubt keeps the edges: near the resolution (or while the typical values
+        // come from the first cycles) a short real phase and a runt differ by less
+        if keep <= inner.min(outer) + 1.0 {
+            // real phases: P is committed, M is judged after N as any newest edge
+            self.commit(pt, pr);
+            self.pending = Some((nt, nr));
+            self.after_pending(nt, nr, tick, rising);
+        } else if outer < inner || outer == inner && c < b {
+            self.glitch(nt, nr, tick - nt);
+            // P stays pending: the phase it opened goes on
+        } else {
+            self.glitch(pt, pr, nt - pt);
+            self.pending = Some((tick, rising));
+        }
+    }
+
+    /// The typical phase a pulse opened by an edge of this polarity has (ticks).
+    #[inline]
+    fn typ_phase(&self, rising: bool) -> f64 {
+        if rising { self.typ_high } else { self.typ_low }
     }
 
     #[inline]
@@ -336,6 +437,7 @@ impl ClockState {
         }
         if let Some(a) = self.acc.as_mut() {
             a.stalls += 1;
+            a.idle_ticks += t - last;
         }
         self.break_continuity();
     }
@@ -472,6 +574,7 @@ impl ClockState {
             a.batch.add(b, t, idx);
         }
         a.period.add(p, t, idx);
+        a.cover(t - p as u64, t);
         a.hist_period.record(p);
         if let Some(pp) = prev {
             a.c2c.add(p - pp, t, idx);
@@ -479,9 +582,9 @@ impl ClockState {
             a.runs += 1;
         }
         if first_fit {
-            a.fit.add(0, 0);
+            self.stretch.add(0, 0);
         }
-        a.fit.add(kk, u);
+        self.stretch.add(kk, u);
         for (i, v) in ncyc.iter().enumerate() {
             if let Some(v) = v {
                 a.ncycle[i].add(*v, t, idx);
