@@ -150,7 +150,7 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
         tokio::select! {
             Some(ev) = s.next() => match ev {
                 Event::Failed(e) => break Err(ViewError::Session(e)),
-                ev => app.on_session(&ev, now_s(&s)),
+                ev => app.on_session(&ev, now_s(&s), s.elapsed_s()),
             },
             Some(Ok(ev)) = keys.next() => match ev {
                 TermEvent::Key(k) if k.kind == KeyEventKind::Press => {
@@ -190,6 +190,9 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
     ratatui::restore();
     if let Some(Err(e)) = s.stop_recording() {
         eprintln!("{e}");
+    }
+    if let Some(e) = &app.rec_failed {
+        eprintln!("the recording failed: {e}");
     }
     result
 }

@@ -93,6 +93,8 @@ pub struct App {
     pub source: Source,
     /// Recording file and its size, when recording.
     pub recording: Option<(String, u64)>,
+    /// Why the recorder stopped, when it failed (shown as REC FAILED; printed at exit).
+    pub rec_failed: Option<String>,
     /// Figures on screen.
     pub snapshot: Option<Snapshot>,
     /// Margin on screen (with a design).
@@ -196,6 +198,7 @@ impl App {
         App {
             source,
             recording: None,
+            rec_failed: None,
             snapshot: None,
             margin: None,
             design,
@@ -214,12 +217,15 @@ impl App {
     }
 
     /// A session event; `now_s` is the engine's time, for the event list.
-    pub fn on_session(&mut self, ev: &Event, now_s: f64) {
+    /// One session event. `now_s` is the probe's timeline (the engine's time), `host_s` the
+    /// host's clock since the session began: link and recorder events happen on the host's
+    /// side and are stamped with its clock (marked "host"), so an outage shows its real length.
+    pub fn on_session(&mut self, ev: &Event, now_s: f64, host_s: f64) {
         let replay = matches!(self.source, Source::Replay { .. });
         match ev {
             Event::Connected { probe, reconnects } => {
                 if *reconnects > 0 {
-                    self.event(now_s, format!("link back (reconnect {reconnects})"));
+                    self.event(host_s, format!("host: link back (reconnect {reconnects})"));
                 }
                 if !replay {
                     self.source = Source::Streaming {
@@ -229,7 +235,7 @@ impl App {
                 }
             }
             Event::Lost { reason } => {
-                self.event(now_s, format!("link lost: {reason}"));
+                self.event(host_s, format!("host: link lost: {reason}"));
                 self.source = Source::Lost {
                     reason: reason.clone(),
                     retry_in_s: 0.5,
@@ -255,7 +261,10 @@ impl App {
                     *done = true;
                 }
             }
-            Event::RecordingFailed(e) => self.event(now_s, format!("recording failed: {e}")),
+            Event::RecordingFailed(e) => {
+                self.rec_failed = Some(e.to_string());
+                self.event(host_s, format!("host: recording failed: {e}"));
+            }
             Event::Data { .. } | Event::Connecting { .. } | Event::Recorded { .. } => return,
             Event::Failed(_) => {}
         }
@@ -543,6 +552,7 @@ mod tests {
                 reason: "not yet".into(),
             },
             0.0,
+            0.0,
         );
         assert!(a.events[0].text.contains("no probe yet"));
         a.on_session(
@@ -551,6 +561,7 @@ mod tests {
                 reconnects: 0,
             },
             1.0,
+            1.0,
         );
         assert!(matches!(a.source, Source::Streaming { .. }));
         a.on_session(
@@ -558,15 +569,30 @@ mod tests {
                 reason: "unplugged".into(),
             },
             2.0,
+            2.0,
         );
         assert!(matches!(a.source, Source::Lost { .. }));
+        // the probe's timeline went on 0.5 s while the host waited 4.5 s: the link's events
+        // carry the host's clock
         a.on_session(
             &Event::Connected {
                 probe,
                 reconnects: 1,
             },
-            3.0,
+            2.5,
+            6.5,
         );
+        let back = a.events.last().unwrap();
+        assert_eq!(back.at_s, 6.5);
+        assert!(back.text.starts_with("host: "), "{}", back.text);
+        a.on_session(
+            &Event::RecordingFailed(crate::record::RecordingError::Exists {
+                path: "x.smrec".into(),
+            }),
+            2.6,
+            6.6,
+        );
+        assert!(a.rec_failed.is_some());
         assert_eq!(
             a.source,
             Source::Streaming {
@@ -574,12 +600,11 @@ mod tests {
                 reconnects: 1
             }
         );
+        assert!(a.events.last().unwrap().text.contains("recording failed"));
         assert!(
             a.events
-                .last()
-                .unwrap()
-                .text
-                .contains("link back (reconnect 1)")
+                .iter()
+                .any(|e| e.text.contains("link back (reconnect 1)"))
         );
     }
 }

@@ -120,12 +120,11 @@ fn status(f: &mut Frame, app: &App, r: Rect) {
             ""
         ),
     };
-    let rec = app
-        .recording
-        .as_ref()
-        .map_or("not recording".to_string(), |(p, b)| {
-            format!("REC {p} {:.1} MB", *b as f64 / 1e6)
-        });
+    let rec = match (&app.recording, &app.rec_failed) {
+        (Some((p, b)), _) => format!("REC {p} {:.1} MB", *b as f64 / 1e6),
+        (None, Some(_)) => "REC FAILED (see events)".to_string(),
+        (None, None) => "not recording".to_string(),
+    };
     let trust = app.snapshot.as_ref().map_or(String::new(), |s| {
         let t = &s.trust;
         // complete, sampled, or what was lost
