@@ -139,5 +139,11 @@ pub fn run_with(args: impl IntoIterator<Item = impl Into<OsString> + Clone>) -> 
 
 /// The program: this process's arguments; the exit code.
 pub fn run() -> i32 {
+    // errors wrap at the terminal's width; into a pipe or a log they stay one line per
+    // sentence, so a long path does not break a message in the middle
+    let wrap = std::io::IsTerminal::is_terminal(&std::io::stderr());
+    let _ = miette::set_hook(Box::new(move |_| {
+        Box::new(miette::MietteHandlerOpts::new().wrap_lines(wrap).build())
+    }));
     run_with(std::env::args_os())
 }
