@@ -93,6 +93,7 @@ fn canvas(
     DrawingArea<SVGBackend<'_>, Shift>,
     DrawingArea<SVGBackend<'_>, Shift>,
 )> {
+    super::plots::may_write(path)?;
     let root = SVGBackend::new(path, (PLOT_W + LEGEND_W, H)).into_drawing_area();
     root.fill(&WHITE).map_err(err)?;
     Ok(root.split_horizontally(PLOT_W))

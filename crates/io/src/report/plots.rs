@@ -174,6 +174,44 @@ fn err(e: impl std::fmt::Display) -> std::io::Error {
     std::io::Error::other(e.to_string())
 }
 
+/// A plot may be written where nothing is, or over an SVG (an earlier run's plot); any other
+/// file of that name is left as it is (an error names it).
+pub(crate) fn may_write(path: &Path) -> std::io::Result<()> {
+    use std::io::Read;
+    let Ok(mut f) = std::fs::File::open(path) else {
+        return Ok(());
+    };
+    let mut head = [0u8; 5];
+    let n = f.read(&mut head)?;
+    if path.is_file() && &head[..n] == b"<svg " {
+        return Ok(());
+    }
+    Err(std::io::Error::new(
+        std::io::ErrorKind::AlreadyExists,
+        format!(
+            "{} exists and is not a plot: it is left as it is (choose another --plots folder)",
+            path.display()
+        ),
+    ))
+}
+
+#[cfg(test)]
+mod may_write_tests {
+    #[test]
+    fn only_plots_are_written_over() {
+        let dir = std::env::temp_dir().join(format!("slackmeter-plots-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join("period.svg");
+        assert!(super::may_write(&p).is_ok(), "nothing there");
+        std::fs::write(&p, "<svg width=\"1\"></svg>").unwrap();
+        assert!(super::may_write(&p).is_ok(), "an earlier plot");
+        std::fs::write(&p, "my notes").unwrap();
+        assert!(super::may_write(&p).is_err(), "someone's file");
+        assert!(super::may_write(&dir).is_err(), "a folder");
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+}
+
 fn histogram_svg(path: &Path, title: &str, h: &DevHistogram, tick_ns: f64) -> std::io::Result<()> {
     let b = h.buckets();
     if b.is_empty() {
@@ -182,6 +220,7 @@ fn histogram_svg(path: &Path, title: &str, h: &DevHistogram, tick_ns: f64) -> st
     let lo = b.first().map_or(0.0, |x| x.0 as f64 * tick_ns) - tick_ns;
     let hi = b.last().map_or(1.0, |x| x.0 as f64 * tick_ns) + tick_ns;
     let top = b.iter().map(|x| x.1).max().unwrap_or(1) as f64 * 1.1;
+    may_write(path)?;
     let root = SVGBackend::new(path, (900, 500)).into_drawing_area();
     root.fill(&WHITE).map_err(err)?;
     let mut chart = ChartBuilder::on(&root)
@@ -226,6 +265,7 @@ fn series_svg(
         hi = hi.max(l);
     }
     let pad = ((hi - lo) * 0.08).max(1e-9);
+    may_write(path)?;
     let root = SVGBackend::new(path, (900, 450)).into_drawing_area();
     root.fill(&WHITE).map_err(err)?;
     let mut chart = ChartBuilder::on(&root)
@@ -386,6 +426,7 @@ pub fn fmax_vcc_svg(
     });
     let pad = ((fhi - flo) * 0.08).max(fhi.abs() * 1e-4).max(1.0);
     let (y0, y1) = ((flo - pad) / 1e6, (fhi + pad) / 1e6);
+    may_write(path)?;
     let root = SVGBackend::new(path, (1060, 500)).into_drawing_area();
     root.fill(&WHITE).map_err(err)?;
     let (plot, side) = root.split_horizontally(760);
