@@ -361,9 +361,11 @@ pub fn recording_chunks(data: &[u8]) {
 
 /// Any text as a design file against the built-in library.
 pub fn design_file(data: &[u8]) {
+    // the built-in library is loaded once: fitting it each run would cost most of the time
+    static LIB: std::sync::OnceLock<Library> = std::sync::OnceLock::new();
+    let lib = LIB.get_or_init(Library::builtin);
     let text = String::from_utf8_lossy(data);
-    let lib = Library::builtin();
-    if let Ok(d) = Design::parse(Source::new("fuzz.toml", text.as_ref()), &lib) {
+    if let Ok(d) = Design::parse(Source::new("fuzz.toml", text.as_ref()), lib) {
         drop(d);
     }
 }
