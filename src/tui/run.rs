@@ -168,6 +168,7 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
                     && let Some(engine) = s.engine()
                 {
                     last_snap = Instant::now();
+                    app.note_lag(s.elapsed_s(), engine.snapshot_time_s());
                     let snap = engine.snapshot(app.window);
                     let margin = design
                         .as_ref()

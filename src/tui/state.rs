@@ -95,6 +95,11 @@ pub struct App {
     pub recording: Option<(String, u64)>,
     /// Why the recorder stopped, when it failed (shown as REC FAILED; printed at exit).
     pub rec_failed: Option<String>,
+    /// (host s, probe s) when figures first came in, to tell how far the figures lag.
+    lag_origin: Option<(f64, f64)>,
+    /// How far the figures trail the host's clock, s (a stream faster than this machine's
+    /// analysis, or a link that delivers late); shown when over [`LAG_SHOWN_S`].
+    pub lag_s: f64,
     /// Figures on screen.
     pub snapshot: Option<Snapshot>,
     /// Margin on screen (with a design).
@@ -169,6 +174,9 @@ impl Seen {
 /// Updates kept in a rail's history (four a second: 15 s).
 pub const HISTORY: usize = 60;
 
+/// Lag of the figures behind real time that the status line shows (s).
+pub const LAG_SHOWN_S: f64 = 1.0;
+
 /// What the loop must do after an action.
 #[derive(Clone, Debug, PartialEq)]
 pub enum Effect {
@@ -199,6 +207,8 @@ impl App {
             source,
             recording: None,
             rec_failed: None,
+            lag_origin: None,
+            lag_s: 0.0,
             snapshot: None,
             margin: None,
             design,
@@ -269,6 +279,16 @@ impl App {
             Event::Failed(_) => {}
         }
         self.dirty = true;
+    }
+
+    /// How far the figures trail real time: the host's clock against the probe's timeline,
+    /// both from when figures first came in (a replay paces itself and is not judged).
+    pub fn note_lag(&mut self, host_s: f64, probe_s: f64) {
+        if matches!(self.source, Source::Replay { .. }) || probe_s <= 0.0 {
+            return;
+        }
+        let (h0, p0) = *self.lag_origin.get_or_insert((host_s, probe_s));
+        self.lag_s = ((host_s - h0) - (probe_s - p0)).max(0.0);
     }
 
     /// New figures: list what is new in them (glitches, sags, line changes, failures), then show
@@ -593,6 +613,12 @@ mod tests {
             6.6,
         );
         assert!(a.rec_failed.is_some());
+        // figures that trail the host's clock are flagged: 10 s of host time, 7 s of probe time
+        a.note_lag(10.0, 1.0);
+        a.note_lag(20.0, 8.0);
+        assert!((a.lag_s - 3.0).abs() < 1e-9, "{}", a.lag_s);
+        a.note_lag(21.0, 9.0);
+        assert!((a.lag_s - 3.0).abs() < 1e-9, "keeping pace holds the lag");
         assert_eq!(
             a.source,
             Source::Streaming {

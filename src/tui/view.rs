@@ -143,6 +143,11 @@ fn status(f: &mut Frame, app: &App, r: Rect) {
         Window::Session => "whole session",
     };
     let frozen = if app.frozen { " | FROZEN" } else { "" };
+    let behind = if app.lag_s > super::state::LAG_SHOWN_S {
+        format!(" | BEHIND {:.1} s", app.lag_s)
+    } else {
+        String::new()
+    };
     let style = match app.source {
         Source::Lost { .. } => warn(app),
         _ => Style::default().add_modifier(Modifier::BOLD),
@@ -150,7 +155,7 @@ fn status(f: &mut Frame, app: &App, r: Rect) {
     f.render_widget(
         Paragraph::new(Line::from(vec![
             Span::styled(src, style),
-            Span::raw(format!(" | {rec}{trust} | {win}{frozen}")),
+            Span::raw(format!(" | {rec}{trust} | {win}{frozen}{behind}")),
         ])),
         r,
     );
