@@ -86,6 +86,11 @@ impl<'a> Message<'a> {
     pub fn decode(frame: &RawFrame<'a>) -> Result<Message<'a>, DecodeError> {
         use types::*;
         let body = frame.body;
+        // no frame on the wire carries more (a body built by hand could): refused, so that
+        // everything decoded also encodes
+        if body.len() > crate::frame::MAX_BODY {
+            return Err(DecodeError::BadField("body longer than a frame can carry"));
+        }
         let mut r = Reader { buf: body };
         let m = match frame.header.msg_type {
             HELLO => Message::Hello(Hello::read(&mut r)?),
