@@ -88,6 +88,7 @@ fn engine_recovers_the_driven_signal_within_its_stated_uncertainty() {
         Tally::default(),
         Tally::default(),
     );
+
     println!(
         "{:>4} {:>10} {:>5} {:>6} {:>6} | {:>9} {:>9} | {:>8} {:>8} | {:>7} {:>7} {:>5} | {:>7} {:>5} | {:>7} {:>5}",
         "seed",
@@ -523,6 +524,8 @@ fn wide_calibration_holds_beyond_the_envelope() {
         Tally::default(),
         Tally::default(),
     );
+    // cycle-to-cycle and N-cycle (N = 10 and 100): de-biased ± U, or the bound when U covers 0
+    let (mut tc, mut tn) = (Tally::default(), Tally::default());
     println!(
         "{:>4} {:>6} {:>7} {:>5} {:>6} {:>6} {:>22} | {:>8} {:>8} | {:>8} {:>8} | {:>7} {:>7} | {:>6} {:>6}",
         "seed",
@@ -568,6 +571,16 @@ fn wide_calibration_holds_beyond_the_envelope() {
                 lows.push(e[k + 2] - e[k + 1]);
             }
         }
+        // consecutive periods of the clock's own cycles (none across a stall)
+        let mut runs_p: Vec<Vec<f64>> = vec![Vec::new()];
+        for k in (0..e.len().saturating_sub(3)).step_by(2) {
+            let p = e[k + 2] - e[k];
+            if p < 2.0 * nominal {
+                runs_p.last_mut().unwrap().push(p);
+            } else {
+                runs_p.push(Vec::new());
+            }
+        }
         let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
         let mean_p = mean(&periods);
         let sd_p = (periods.iter().map(|p| (p - mean_p).powi(2)).sum::<f64>()
@@ -606,6 +619,52 @@ fn wide_calibration_holds_beyond_the_envelope() {
                 got - inner(v)
             }
         };
+        let rms = |v: &[f64]| (v.iter().map(|x| x * x).sum::<f64>() / v.len() as f64).sqrt();
+        let bounded = |t: &mut Tally, truth: f64, d: f64, u: f64, below: bool| {
+            if below {
+                t.n += 1;
+                if truth <= d + u {
+                    t.covered += 1;
+                }
+            } else {
+                t.add(d - truth, u);
+            }
+        };
+        let diffs: Vec<f64> = runs_p
+            .iter()
+            .flat_map(|r| r.windows(2).map(|w| w[1] - w[0]))
+            .collect();
+        if let (Some(d), Some(u)) = (
+            c.cycle_to_cycle_debiased_ns,
+            c.cycle_to_cycle_uncertainty_ns,
+        ) {
+            bounded(
+                &mut tc,
+                rms(&diffs),
+                d,
+                u,
+                c.cycle_to_cycle_below_resolution,
+            );
+        }
+        for nc in &c.n_cycle {
+            let n = nc.n as usize;
+            let errs: Vec<f64> = runs_p
+                .iter()
+                .flat_map(|r| {
+                    r.windows(n)
+                        .map(|w| w.iter().sum::<f64>() - n as f64 * mean_p)
+                })
+                .collect();
+            if errs.len() > 10 {
+                bounded(
+                    &mut tn,
+                    rms(&errs),
+                    nc.debiased_ns,
+                    nc.uncertainty_ns,
+                    nc.below_resolution,
+                );
+            }
+        }
         let eh = worst(c.high_min_ns.unwrap(), &highs);
         let el = worst(c.low_min_ns.unwrap(), &lows);
         th.add(eh, q);
@@ -633,6 +692,8 @@ fn wide_calibration_holds_beyond_the_envelope() {
         ("period jitter", &tj),
         ("min high", &th),
         ("min low", &tl),
+        ("cycle-to-cycle", &tc),
+        ("N-cycle", &tn),
     ];
     for (name, t) in figures {
         println!(

@@ -144,7 +144,8 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
         "cycle-to-cycle",
         format!("{} RMS", opt_ns(c.cycle_to_cycle_rms_ns)),
         format!(
-            "max |·| {} (floor {})",
+            "less quantisation {}; max |·| {} (floor {})",
+            c.cycle_to_cycle_text(),
             opt_ns(c.cycle_to_cycle_max_ns),
             ns(c.cycle_to_cycle_floor_ns)
         ),
@@ -162,7 +163,11 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
         r.push(row(
             &format!("{}-cycle error", n.n),
             format!("{} RMS", ns(n.rms_ns)),
-            format!("max |·| {}", ns(n.max_abs_ns)),
+            format!(
+                "less quantisation {}; max |·| {}",
+                n.debiased_text(),
+                ns(n.max_abs_ns)
+            ),
         ));
     }
     if !c.allan.is_empty() {
@@ -170,7 +175,7 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
             .allan
             .iter()
             .take(6)
-            .map(|a| format!("τ {:.0e} s: {:.2e}", a.tau_s, a.adev))
+            .map(|a| format!("τ {:.2e} s: {:.2e}", a.tau_s, a.adev))
             .collect();
         r.push(row("Allan deviation", pts.join("; "), String::new()));
     }

@@ -238,7 +238,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
         out,
         "  cycle-to-cycle {} RMS (less quantisation {}), max |·| {} (quantisation alone {} RMS)",
         opt_ns(c.cycle_to_cycle_rms_ns),
-        opt_ns(c.cycle_to_cycle_debiased_ns),
+        c.cycle_to_cycle_text(),
         opt_ns(c.cycle_to_cycle_max_ns),
         ns(c.cycle_to_cycle_floor_ns)
     );
@@ -255,7 +255,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
             "  {}-cycle error {} RMS (less quantisation {}), max |·| {}{spread}",
             n.n,
             ns(n.rms_ns),
-            ns(n.debiased_ns),
+            n.debiased_text(),
             ns(n.max_abs_ns)
         );
     }

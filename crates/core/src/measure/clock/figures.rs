@@ -40,6 +40,10 @@ pub struct NCycle {
     /// RMS less the quantisation of its two stamps, √(rms² − q²/6), ns (0 when quantisation
     /// explains all of it).
     pub debiased_ns: f64,
+    /// Uncertainty of the de-biased value (k = 2.5), ns.
+    pub uncertainty_ns: f64,
+    /// The uncertainty covers zero: the value is a bound (debiased + U), not an estimate.
+    pub below_resolution: bool,
 }
 
 /// An Allan deviation point.
@@ -143,6 +147,10 @@ pub struct ClockSnapshot {
     pub cycle_to_cycle_floor_ns: f64,
     /// Cycle-to-cycle RMS less that quantisation, √(rms² − q²/2) (0 when it explains all).
     pub cycle_to_cycle_debiased_ns: Option<f64>,
+    /// Uncertainty of the de-biased cycle-to-cycle value (k = 2.5), ns.
+    pub cycle_to_cycle_uncertainty_ns: Option<f64>,
+    /// The uncertainty covers zero: de-biased + U is a bound, not an estimate.
+    pub cycle_to_cycle_below_resolution: bool,
     /// TIE RMS against a least-squares ideal clock over the window.
     pub tie_rms_ns: Option<f64>,
     /// Largest TIE peak to peak within detrended records.
@@ -220,6 +228,8 @@ impl ClockSnapshot {
             cycle_to_cycle_max_ns: None,
             cycle_to_cycle_floor_ns: q / 2f64.sqrt(),
             cycle_to_cycle_debiased_ns: None,
+            cycle_to_cycle_uncertainty_ns: None,
+            cycle_to_cycle_below_resolution: false,
             tie_rms_ns: None,
             tie_pkpk_ns: None,
             tie_record_cycles,
@@ -248,6 +258,17 @@ impl ClockSnapshot {
         match self.coverage {
             Some(c) if self.observation != "continuous" => Some(format!("{} of all", percent(c))),
             _ => None,
+        }
+    }
+
+    /// The de-biased cycle-to-cycle figure in words: "X ± U" or "below resolution (< B)".
+    pub fn cycle_to_cycle_text(&self) -> String {
+        match (
+            self.cycle_to_cycle_debiased_ns,
+            self.cycle_to_cycle_uncertainty_ns,
+        ) {
+            (Some(d), Some(u)) => debiased_text(d, u, self.cycle_to_cycle_below_resolution),
+            _ => "—".into(),
         }
     }
 
@@ -309,5 +330,21 @@ fn percent(share: f64) -> String {
     } else {
         let digits = (1 - (p.max(1e-9)).log10().floor() as i32).clamp(1, 9) as usize;
         format!("{p:.digits$} %")
+    }
+}
+
+impl NCycle {
+    /// The de-biased N-cycle figure in words: "X ± U" or "below resolution (< B)".
+    pub fn debiased_text(&self) -> String {
+        debiased_text(self.debiased_ns, self.uncertainty_ns, self.below_resolution)
+    }
+}
+
+/// A de-biased spread with its uncertainty, or the bound it gives when U covers zero.
+fn debiased_text(d_ns: f64, u_ns: f64, below: bool) -> String {
+    if below {
+        format!("below resolution (< {})", ns(d_ns + u_ns))
+    } else {
+        format!("{} ± {}", ns(d_ns), ns(u_ns))
     }
 }

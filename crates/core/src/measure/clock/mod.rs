@@ -4,8 +4,9 @@
 //! By concern: `config` (settings and shared constants), `acc` (block accumulators, fit and run
 //! sums), `state` (the per-edge state machine, the reference path), `bulk` (clean stretches as
 //! arrays, identical to the per-edge path), `buffers` (their working arrays), `tie` (detrended
-//! TIE records), `count` (count windows), `figures` (what is reported) and `snapshot` (the
-//! figures and their uncertainty model).
+//! TIE records), `count` (count windows), `figures` (what is reported), `snapshot` (the
+//! figures and their uncertainty model) and `walk` (the quantisation a mean keeps when the
+//! edges sit on few phases of the tick).
 
 mod acc;
 mod buffers;
@@ -16,6 +17,7 @@ mod figures;
 mod snapshot;
 mod state;
 mod tie;
+mod walk;
 
 pub use acc::ClockAcc;
 pub(crate) use acc::ShortRun;

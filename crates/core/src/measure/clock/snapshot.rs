@@ -15,6 +15,7 @@ use super::config::{BATCH, K, MIN_TIE_STRETCH};
 use super::count::{counted_figures, counted_only};
 use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
 use super::state::ClockState;
+use super::walk::coherent_quantisation_ticks;
 
 /// A stream whose stamped cycles cover at least this share of the elapsed ones is continuous
 /// (a dropped edge or a lost frame now and then does not make it sampled; common practice, no
@@ -114,7 +115,23 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     s.period_jitter_uncertainty_ns = Some(u_j);
     let tick_s = q * 1e-9;
     if let Some(h) = PhaseTimes::of(&a.high, q, tick_s) {
-        let u_h = mean_uncertainty_ns(&a.high, q, coherent_systematic_ns(sp_ns, q));
+        // quantisation that does not average: edges on few phases of the tick (a period that
+        // is a ratio of small integers in ticks), smoothed only by jitter the spread shows
+        // beyond any quantisation at a fixed phase (up to q²/2 of the period variance)
+        // (a random walk of the phase, shown by the TIE, dithers as well)
+        let (tie_ss, tie_n) = tie_sums(a, state);
+        let tie_dither_ticks = if tie_n > 0 {
+            ((tie_ss / tie_n as f64) - 0.25).max(0.0).sqrt()
+        } else {
+            0.0
+        };
+        let dither_ticks = dither_lower_bound_ticks(sp_ns, n, q).max(tie_dither_ticks);
+        // this record's mean period (not the clock's long-run mean): each run's end stamps,
+        // quantised and jittered, over the cycles
+        let runs = a.runs.max(1) as f64;
+        let delta_ticks = K * (runs * (1.0 / 6.0 + (sp_ns / q).powi(2))).sqrt() / n;
+        let sys_ns = q * coherent_quantisation_ticks(mean_p, delta_ticks, n, dither_ticks);
+        let u_h = mean_uncertainty_ns(&a.high, q, sys_ns);
         s.duty = Some(h.mean_ns / mean_ns);
         s.duty_uncertainty = Some(duty_uncertainty(h.mean_ns, u_h, mean_ns, u_t));
         let low_ns = mean_ns - h.mean_ns;
@@ -151,15 +168,20 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
         s.cycle_to_cycle_debiased_ns = s
             .cycle_to_cycle_rms_ns
             .map(|r| (r * r - q * q / 2.0).max(0.0).sqrt());
+        if let (Some(r), Some(d)) = (s.cycle_to_cycle_rms_ns, s.cycle_to_cycle_debiased_ns) {
+            // adjacent differences are correlated (lag one, −0.5): 2/3 as many independent
+            // samples; quantisation q²/2 (three stamps); a steady clock reads up to one tick
+            let n_eff = a.c2c.n as f64 / 1.5;
+            let u = spread_uncertainty_ns(r, d, n_eff, q, 0.5, 1.0);
+            s.cycle_to_cycle_uncertainty_ns = Some(u);
+            s.cycle_to_cycle_below_resolution = d <= u;
+        }
         s.cycle_to_cycle_max_ns =
             Some(a.c2c.max.unsigned_abs().max(a.c2c.min.unsigned_abs()) as f64 * q);
     }
     // TIE only where phase is known: each contiguous stretch against its own ideal clock,
     // pooled (the stretch still open counts whole)
-    let (mut ss, mut n_tie) = a.tie_pool;
-    if let Some((s2, n2)) = state.open_stretch_tie() {
-        (ss, n_tie) = (ss + s2, n_tie + n2);
-    }
+    let (ss, n_tie) = tie_sums(a, state);
     if n_tie > 0 {
         s.tie_rms_ns = Some((ss / n_tie as f64).sqrt() * q);
     } else {
@@ -187,6 +209,16 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     s.period_percentiles = percentiles(&a.hist_period, q);
     s.high_percentiles = percentiles(&a.hist_high, q);
     s.low_percentiles = percentiles(&a.hist_low, q);
+}
+
+/// The pooled TIE residual sum of squares (ticks²) and its count: the closed stretches and the
+/// one still open (counted whole).
+fn tie_sums(a: &ClockAcc, state: &ClockState) -> (f64, u64) {
+    let (mut ss, mut n) = a.tie_pool;
+    if let Some((s2, n2)) = state.open_stretch_tie() {
+        (ss, n) = (ss + s2, n + n2);
+    }
+    (ss, n)
 }
 
 /// Mean, extremes and the worst cycle of one phase (high or low times), ns and s.
@@ -264,36 +296,47 @@ fn debiased_jitter_ns(sp_ns: f64, q: f64) -> f64 {
     (sp_ns * sp_ns - q * q / 6.0).max(0.0).sqrt()
 }
 
-/// Expanded uncertainty of the jitter estimate, ns: the chi-square spread of a standard
-/// deviation, plus the error of subtracting q²/6: at most about q²/24/σ, and vanishing as
-/// exp(−2π²σ²/q²) once the jitter dithers the quantiser (the Gaussian characteristic function
-/// at 2π/q; Widrow, Kollár & Liu 1996). A spread quantisation alone could make covers zero.
+/// Expanded uncertainty of the period jitter estimate, ns (see [`spread_uncertainty_ns`]:
+/// q²/6 of quantisation, a steady clock reads up to q/2).
 fn jitter_uncertainty_ns(sp_ns: f64, debiased: f64, n: f64, q: f64) -> f64 {
-    let stat = sp_ns / (2.0 * (n - 1.0).max(1.0)).sqrt();
+    spread_uncertainty_ns(sp_ns, debiased, n, q, 1.0 / 6.0, 0.5)
+}
+
+/// Expanded uncertainty of a spread de-biased by `qvar`·q² of quantisation, ns: the chi-square
+/// spread of a standard deviation over `n` independent samples, plus the error of subtracting
+/// the quantisation: at most about qvar·q²/(4σ), and vanishing as exp(−2π²σ²/q²) once the jitter
+/// dithers the quantiser (the Gaussian characteristic function at 2π/q; Widrow, Kollár & Liu
+/// 1996). A steady clock commensurate with the tick reads anything up to `steady_ticks`·q: a
+/// spread quantisation alone could make covers zero.
+fn spread_uncertainty_ns(
+    s_ns: f64,
+    debiased: f64,
+    n: f64,
+    q: f64,
+    qvar: f64,
+    steady_ticks: f64,
+) -> f64 {
+    let stat = s_ns / (2.0 * (n - 1.0).max(1.0)).sqrt();
     let model = if debiased > 0.0 {
-        (q * q / 24.0 / debiased)
+        (qvar * q * q / 4.0 / debiased)
             * (-2.0 * std::f64::consts::PI.powi(2) * (debiased / q).powi(2)).exp()
     } else {
-        q / 6f64.sqrt()
+        q * qvar.sqrt()
     };
     let u = K * (stat * stat + model * model).sqrt();
-    // a steady clock commensurate with the tick reads σ = q·√(p(1−p)), anywhere from 0 to q/2:
-    // a spread that quantisation alone can give leaves the true jitter anywhere from 0 to s
-    if sp_ns <= q / 2.0 + K * stat {
-        u.max(debiased).max(sp_ns - debiased)
+    if s_ns <= steady_ticks * q + K * stat {
+        u.max(debiased).max(s_ns - debiased)
     } else {
         u
     }
 }
 
-/// Coherent sampling (less spread than random phase would give): the quantisation error of a
-/// mean does not average away; a systematic term of up to half a tick remains (ns; 0 else).
-fn coherent_systematic_ns(sp_ns: f64, q: f64) -> f64 {
-    if sp_ns * sp_ns < 0.5 * q * q / 6.0 {
-        q / 12f64.sqrt()
-    } else {
-        0.0
-    }
+/// A lower bound of each edge's random jitter, ticks RMS: the period spread less its
+/// statistical uncertainty and less the most that quantisation at a fixed phase can add (q²/2),
+/// shared by the period's two edges.
+fn dither_lower_bound_ticks(sp_ns: f64, n: f64, q: f64) -> f64 {
+    let sp_low = sp_ns * (1.0 - K / (2.0 * (n - 1.0).max(1.0)).sqrt());
+    ((sp_low.max(0.0).powi(2) - q * q / 2.0).max(0.0) / 2.0).sqrt() / q
 }
 
 /// Standard uncertainty of a mean phase time, ns: its spread over √n with the systematic term.
@@ -325,11 +368,18 @@ fn n_cycle_figures(
             let sd = st.std_pop().unwrap_or(0.0);
             let max_abs = ((st.max as f64 - shift).abs()).max((st.min as f64 - shift).abs());
             let rms = (sd * sd + (m - shift).powi(2)).sqrt();
+            let debiased_ns = ((rms * rms - 1.0 / 6.0).max(0.0)).sqrt() * q;
+            // overlapping spans: about one independent sample per N cycles; two stamps
+            // (q²/6); a steady clock reads up to half a tick
+            let n_eff = st.n as f64 / f64::from(n.max(1));
+            let u = spread_uncertainty_ns(rms * q, debiased_ns, n_eff, q, 1.0 / 6.0, 0.5);
             out.push(NCycle {
                 n,
                 rms_ns: rms * q,
                 max_abs_ns: max_abs * q,
-                debiased_ns: ((rms * rms - 1.0 / 6.0).max(0.0)).sqrt() * q,
+                debiased_ns,
+                uncertainty_ns: u,
+                below_resolution: debiased_ns <= u,
             });
         }
     }

@@ -67,6 +67,8 @@ pub struct ClockState {
     /// Sums and counts of periods, highs and lows since the last refresh (their means become
     /// the typical values at the next refresh).
     pub(super) seg: [(u64, u64); 3],
+    /// Pulses set aside as glitches since the last refresh.
+    pub(super) seg_glitches: u64,
     /// Glitch thresholds for high and low pulses and the stall gap, in ticks (refreshed from
     /// the typical values every [`REFRESH`] periods, so the per-edge path compares integers).
     pub(super) glitch_high_ticks: u64,
@@ -125,6 +127,7 @@ impl ClockState {
             typ_low: 0.0,
             typ_period: 0.0,
             seg: [(0, 0); 3],
+            seg_glitches: 0,
             glitch_high_ticks: 0,
             glitch_low_ticks: 0,
             spacing_ticks: 0,
@@ -257,6 +260,15 @@ impl ClockState {
     /// The typical period, high and low become the means of the segment since the last
     /// refresh (a kind without samples keeps its value), then the thresholds follow them.
     fn refresh_thresholds(&mut self) {
+        let set_aside = std::mem::take(&mut self.seg_glitches);
+        if set_aside > 2 * self.seg[0].1.max(1) {
+            // more than two pulses set aside per cycle: the typical values describe merged
+            // phases (a stall or a slow start inside the period that seeded them), and every
+            // decision since agreed with them; seed them again from the next period
+            self.seg = [(0, 0); 3];
+            (self.typ_period, self.typ_high, self.typ_low) = (0.0, 0.0, 0.0);
+            self.segment = 1;
+        }
         let typ = [&mut self.typ_period, &mut self.typ_high, &mut self.typ_low];
         for ((sum, n), typ) in self.seg.iter_mut().zip(typ) {
             if *n > 0 {
@@ -404,6 +416,7 @@ impl ClockState {
         if self.glitch_events.len() < self.cfg.max_events {
             self.glitch_events.push(g);
         }
+        self.seg_glitches += 1;
         if let Some(a) = self.acc.as_mut() {
             a.glitches += 1;
         }
@@ -600,5 +613,39 @@ impl ClockState {
             self.allan_countdown = every;
             al.push(u as f64 * self.tick_ns);
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A clock that starts inside a stall: the first period (ten periods long) seeds wrong
+    /// typical values, every real phase then looks like a runt inside a long one; the engine
+    /// must seed again instead of setting the clock aside for good.
+    #[test]
+    fn a_stall_in_the_first_period_does_not_hold_the_thresholds() {
+        let mut st = ClockState::new(ClockConfig::default(), 8.0);
+        let (high, low) = (18u64, 18u64);
+        let mut t = 1_000u64;
+        st.edge(t, true);
+        t += high;
+        st.edge(t, false);
+        // the stall: the line stays low for ten periods
+        t += 10 * (high + low);
+        let cycles = 20_000u64;
+        for _ in 0..cycles {
+            st.edge(t, true);
+            t += high;
+            st.edge(t, false);
+            t += low;
+        }
+        let a = st.acc.as_ref().expect("a block");
+        // a clean clock: only pulses of the first refresh segment (16 periods as the wrong
+        // values count them) may have been set aside; without the new seed, nearly all are
+        assert!(a.glitches < cycles / 100, "{} pulses set aside", a.glitches);
+        assert!(a.period.n > cycles - 300, "{} periods", a.period.n);
+        let mean = a.period.mean().expect("periods");
+        assert!((mean - 36.0).abs() < 0.5, "mean period {mean} ticks");
     }
 }
