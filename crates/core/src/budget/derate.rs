@@ -411,13 +411,18 @@ fn typical(
 }
 
 /// A generic part's arc: the worst of its variants (largest for maxima and limits, smallest
-/// for minima), with every variant's notes.
+/// for minima), with every variant's notes. At the typical corner only the variants that
+/// publish a typical count (a vendor's guaranteed maximum is no typical); the maximum stands
+/// in only when no variant publishes one.
 fn worst_of_variants(lib: &Library, a: &TimingArc, corner: Corner, c: &Conditions) -> Value {
-    let vals: Vec<Value> = a
+    let mut vals: Vec<Value> = a
         .variants
         .iter()
         .map(|&(p, i)| eval(lib, p, i, corner, c))
         .collect();
+    if corner == Corner::Typ && vals.iter().any(|v| !v.notes.has(Notes::TYP_FROM_MAX)) {
+        vals.retain(|v| !v.notes.has(Notes::TYP_FROM_MAX));
+    }
     let pick = |f: fn(&Value) -> Option<f64>| -> Option<f64> {
         let mut out: Option<f64> = None;
         for v in &vals {
@@ -470,6 +475,45 @@ mod tests {
                 load_pf: None,
             },
         )
+    }
+
+    #[test]
+    fn a_generic_typical_comes_from_the_vendors_that_publish_one() {
+        // NXP 74HC04-Q100 Rev. 2 (2013): A→Y typ 9 ns at 4.5 V; the TI SN74HC04 row gives only
+        // a maximum (19 ns at 4.5 V), which is no typical
+        let lib = Library::builtin();
+        let generic = at(
+            &lib,
+            "74HC04",
+            "A->Y",
+            ArcKind::Delay,
+            Corner::Typ,
+            4.5,
+            25.0,
+        );
+        let nxp = at(
+            &lib,
+            "74HC04/nxp",
+            "A->Y",
+            ArcKind::Delay,
+            Corner::Typ,
+            4.5,
+            25.0,
+        );
+        assert_eq!(generic.ns, nxp.ns);
+        assert!((generic.ns.unwrap() - 9.0).abs() < 1e-9, "{:?}", generic.ns);
+        assert!(!generic.notes.has(Notes::TYP_FROM_MAX));
+        // the maximum corner still takes the worst vendor: TI's 19 ns over NXP's 17 ns
+        let max = at(
+            &lib,
+            "74HC04",
+            "A->Y",
+            ArcKind::Delay,
+            Corner::Max,
+            4.5,
+            25.0,
+        );
+        assert!((max.ns.unwrap() - 19.0).abs() < 1e-9, "{:?}", max.ns);
     }
 
     #[test]
