@@ -144,7 +144,7 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
         "cycle-to-cycle",
         format!("{} RMS", opt_ns(c.cycle_to_cycle_rms_ns)),
         format!(
-            "less quantisation {}; max |·| {} (floor {})",
+            "de-biased: {}; max |·| {} (floor {})",
             c.cycle_to_cycle_text(),
             opt_ns(c.cycle_to_cycle_max_ns),
             ns(c.cycle_to_cycle_floor_ns)
@@ -164,7 +164,7 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
             &format!("{}-cycle error", n.n),
             format!("{} RMS", ns(n.rms_ns)),
             format!(
-                "less quantisation {}; max |·| {}",
+                "de-biased: {}; max |·| {}",
                 n.debiased_text(),
                 ns(n.max_abs_ns)
             ),

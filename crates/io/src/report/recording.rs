@@ -236,7 +236,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     let _ = writeln!(out, "  period jitter {jitter}{spread}");
     let _ = writeln!(
         out,
-        "  cycle-to-cycle {} RMS (less quantisation {}), max |·| {} (quantisation alone {} RMS)",
+        "  cycle-to-cycle {} RMS (de-biased: {}), max |·| {} (quantisation alone {} RMS)",
         opt_ns(c.cycle_to_cycle_rms_ns),
         c.cycle_to_cycle_text(),
         opt_ns(c.cycle_to_cycle_max_ns),
@@ -252,7 +252,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     for n in &c.n_cycle {
         let _ = writeln!(
             out,
-            "  {}-cycle error {} RMS (less quantisation {}), max |·| {}{spread}",
+            "  {}-cycle error {} RMS (de-biased: {}), max |·| {}{spread}",
             n.n,
             ns(n.rms_ns),
             n.debiased_text(),

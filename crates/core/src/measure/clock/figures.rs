@@ -261,7 +261,7 @@ impl ClockSnapshot {
         }
     }
 
-    /// The de-biased cycle-to-cycle figure in words: "X ± U" or "below resolution (< B)".
+    /// The de-biased cycle-to-cycle figure in words: "X ± U" or "below resolution, < B".
     pub fn cycle_to_cycle_text(&self) -> String {
         match (
             self.cycle_to_cycle_debiased_ns,
@@ -334,7 +334,7 @@ fn percent(share: f64) -> String {
 }
 
 impl NCycle {
-    /// The de-biased N-cycle figure in words: "X ± U" or "below resolution (< B)".
+    /// The de-biased N-cycle figure in words: "X ± U" or "below resolution, < B".
     pub fn debiased_text(&self) -> String {
         debiased_text(self.debiased_ns, self.uncertainty_ns, self.below_resolution)
     }
@@ -343,7 +343,7 @@ impl NCycle {
 /// A de-biased spread with its uncertainty, or the bound it gives when U covers zero.
 fn debiased_text(d_ns: f64, u_ns: f64, below: bool) -> String {
     if below {
-        format!("below resolution (< {})", ns(d_ns + u_ns))
+        format!("below resolution, < {}", ns(d_ns + u_ns))
     } else {
         format!("{} ± {}", ns(d_ns), ns(u_ns))
     }
