@@ -27,6 +27,8 @@ pub enum Kind {
     Input,
     /// The device, the link or the system failed.
     Runtime,
+    /// Whoever read standard output stopped reading (`| head`): the command ends quietly.
+    Closed,
 }
 
 /// A command's failure: the message for the user and its kind.
@@ -67,9 +69,27 @@ impl CliError {
         }
     }
 
-    /// A failed I/O step on `what` (a file, standard output): a runtime failure.
+    /// The reader of standard output went away: no message, exit 0.
+    pub fn closed() -> CliError {
+        CliError {
+            kind: Kind::Closed,
+            report: miette::miette!("standard output was closed"),
+        }
+    }
+
+    /// A failed I/O step on `what` (a file, standard output): a runtime failure, or the quiet
+    /// end when a pipe's reader stopped reading.
     pub fn io(what: impl std::fmt::Display) -> impl FnOnce(std::io::Error) -> CliError {
-        move |e| CliError::runtime(miette::miette!("cannot write {what}: {e}"))
+        move |e| {
+            if e.kind() == std::io::ErrorKind::BrokenPipe {
+                CliError::closed()
+            } else {
+                CliError::runtime(miette::miette!(
+                    "cannot write {what}: {}",
+                    crate::cli::output::io_words(&e)
+                ))
+            }
+        }
     }
 }
 
@@ -81,6 +101,7 @@ pub fn exit_code(r: &CliResult<Outcome>) -> i32 {
         Err(e) => match e.kind {
             Kind::Input => EXIT_INPUT,
             Kind::Runtime => EXIT_RUNTIME,
+            Kind::Closed => EXIT_OK,
         },
     }
 }
@@ -154,6 +175,9 @@ impl From<LibraryError> for CliError {
 
 impl From<serde_json::Error> for CliError {
     fn from(e: serde_json::Error) -> CliError {
+        if e.io_error_kind() == Some(std::io::ErrorKind::BrokenPipe) {
+            return CliError::closed();
+        }
         CliError::runtime(miette::miette!("cannot write JSON: {e}"))
     }
 }

@@ -1,6 +1,7 @@
 //! `slackmeter failures`: the measured failure onsets of several sweeps (one per supply) beside
 //! the budget's f_max at each supply: the measured f_fail(VCC) curve.
 
+use super::output::outln;
 use std::path::PathBuf;
 
 use miette::miette;
@@ -58,13 +59,13 @@ fn fmax_at(d: &Design, lib: &Library, vcc_v: f64, o: &FaultOnset, corner: Corner
     )
 }
 
-fn print_table(rows: &[FailureRow]) {
-    println!(
+fn print_table(rows: &[FailureRow]) -> CliResult<()> {
+    outln!(
         "{:>9} {:>26} {:>12} {:>12} {:>9}  file",
         "supply", "failure onset", "f_max worst", "f_max typ", "vs typ"
     );
     for r in rows {
-        println!(
+        outln!(
             "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}",
             r.vcc_v,
             format!(
@@ -78,6 +79,7 @@ fn print_table(rows: &[FailureRow]) {
             r.file
         );
     }
+    Ok(())
 }
 
 /// `slackmeter failures`.
@@ -132,9 +134,9 @@ pub fn run(a: FailuresArgs) -> CliResult<Outcome> {
     }
     rows.sort_by(|x, y| x.vcc_v.total_cmp(&y.vcc_v));
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&rows)?);
+        outln!("{}", serde_json::to_string_pretty(&rows)?);
     } else {
-        print_table(&rows);
+        print_table(&rows)?;
     }
     if let (Some(dir), Some(d)) = (&a.plots, &design) {
         std::fs::create_dir_all(dir)

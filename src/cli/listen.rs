@@ -1,6 +1,7 @@
 //! `slackmeter listen PORT`: handshake, the probe's self-description, then a running count of
 //! what it sends with the recent window's figures.
 
+use super::output::outln;
 use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
@@ -28,8 +29,8 @@ pub struct ListenArgs {
     pub no_reconnect: bool,
 }
 
-fn print_probe(probe: &ProbeDesc) {
-    println!(
+fn print_probe(probe: &ProbeDesc) -> CliResult<()> {
+    outln!(
         "connected: {} (protocol {}), tick {} ({}/{} Hz), {} channels:",
         probe.firmware,
         probe.protocol_version,
@@ -39,8 +40,9 @@ fn print_probe(probe: &ProbeDesc) {
         probe.channels.len()
     );
     for c in &probe.channels {
-        println!("  {:>3} {:<6} {}", c.id, c.kind, c.label);
+        outln!("  {:>3} {:<6} {}", c.id, c.kind, c.label);
     }
+    Ok(())
 }
 
 /// The running count: the link's state, the counters, and the recent window's figures.
@@ -107,7 +109,7 @@ pub fn run(a: ListenArgs) -> CliResult<Outcome> {
                 reconnects = r;
                 state = "streaming".into();
                 eprintln!();
-                print_probe(&probe);
+                print_probe(&probe)?;
             }
             Next::Event(Event::Lost { reason }) => {
                 eprintln!("\nlink lost: {reason}; waiting for the device to return");
@@ -136,7 +138,7 @@ pub fn run(a: ListenArgs) -> CliResult<Outcome> {
     eprintln!();
     let c = s.counters();
     let t = s.tally();
-    println!(
+    outln!(
         "received {} frames ({} bytes): {} edges, {} line events, {} samples; {} lost frames, {} CRC errors, {} reconnects",
         c.frames,
         t.bytes,

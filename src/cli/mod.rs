@@ -131,7 +131,9 @@ pub fn run_with(args: impl IntoIterator<Item = impl Into<OsString> + Clone>) -> 
             return exit_code(&parsed);
         }
     };
-    if let Err(e) = &result {
+    if let Err(e) = &result
+        && e.kind != error::Kind::Closed
+    {
         eprintln!("{:?}", e.report);
     }
     exit_code(&result)

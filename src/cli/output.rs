@@ -1,7 +1,9 @@
-//! Files a command writes: never one of its inputs, never an existing file unless the user
-//! passes `--replace` (and never an input even then).
+//! What a command writes: files (never one of its inputs, never an existing file unless the
+//! user passes `--force`, and never an input even then), `-` for standard output where a stream
+//! makes sense, and standard output itself (a closed pipe ends the command quietly).
 
 use std::fs::{File, OpenOptions};
+use std::io::{IsTerminal, Write};
 use std::path::Path;
 
 use miette::miette;
@@ -17,9 +19,76 @@ fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
-/// Open `path` for writing, refusing an input of this command and, unless `replace`, any file
+/// The flag every writing command takes to write over a file that exists (`--replace` is kept
+/// as a hidden alias).
+pub const FORCE_HINT: &str = "choose another name, or pass --force to write over it";
+
+/// Whether an output path means standard output.
+pub fn is_stdout(path: &Path) -> bool {
+    path.as_os_str() == "-"
+}
+
+/// Open `path` for writing, or standard output when it is `-`: the stream behind `--csv -`.
+pub fn create_or_stdout(path: &Path, inputs: &[&Path], force: bool) -> CliResult<Box<dyn Write>> {
+    if is_stdout(path) {
+        return Ok(Box::new(std::io::stdout().lock()));
+    }
+    Ok(Box::new(create(path, inputs, force)?))
+}
+
+/// Refuse binary output to a terminal: it would fill the screen with control bytes.
+pub fn refuse_binary_terminal(what: &str, hint: &str) -> CliResult<()> {
+    if std::io::stdout().is_terminal() {
+        return Err(CliError::input(miette!(
+            help = hint.to_string(),
+            "{what} is binary and standard output is a terminal: nothing was written"
+        )));
+    }
+    Ok(())
+}
+
+/// `println!` for commands: one line to standard output, `?` on a closed pipe (quiet end).
+macro_rules! outln {
+    ($($t:tt)*) => {
+        $crate::cli::output::line(format_args!($($t)*))?
+    };
+}
+pub(crate) use outln;
+
+/// One line to standard output; a reader that stopped reading ends the command quietly.
+pub fn line(text: std::fmt::Arguments<'_>) -> CliResult<()> {
+    let mut out = std::io::stdout().lock();
+    writeln!(out, "{text}").map_err(CliError::io("standard output"))
+}
+
+/// Text to standard output as it is; a closed pipe ends the command quietly.
+pub fn text(text: &str) -> CliResult<()> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())
+        .and_then(|()| out.flush())
+        .map_err(CliError::io("standard output"))
+}
+
+/// An OS error in words a user can act on, with the fix where there is one.
+pub fn io_words(e: &std::io::Error) -> String {
+    let fix = match e.raw_os_error() {
+        Some(libc::ENOTTY) => "not a serial device",
+        Some(libc::EACCES) | Some(libc::EPERM) => {
+            "permission denied (serial devices belong to the `dialout` group: `sudo usermod -aG dialout $USER`, then log in again)"
+        }
+        Some(libc::ENOENT) => "no such file or device",
+        Some(libc::EBUSY) => "in use by another program (close it, or check `fuser DEVICE`)",
+        Some(libc::ENOSPC) => "the disk is full",
+        Some(libc::EROFS) => "the file system is read-only",
+        Some(libc::EISDIR) => "it is a folder",
+        _ => return e.to_string(),
+    };
+    fix.to_string()
+}
+
+/// Open `path` for writing, refusing an input of this command and, unless `force`, any file
 /// already there (created atomically, so a file appearing meanwhile is not replaced either).
-pub fn create(path: &Path, inputs: &[&Path], replace: bool) -> CliResult<File> {
+pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
     if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
         return Err(CliError::input(miette!(
             help = "write the output to another path",
@@ -30,7 +99,7 @@ pub fn create(path: &Path, inputs: &[&Path], replace: bool) -> CliResult<File> {
     }
     let mut o = OpenOptions::new();
     o.write(true);
-    if replace {
+    if force {
         o.create(true).truncate(true);
     } else {
         o.create_new(true);
@@ -38,12 +107,12 @@ pub fn create(path: &Path, inputs: &[&Path], replace: bool) -> CliResult<File> {
     o.open(path).map_err(|e| {
         if e.kind() == std::io::ErrorKind::AlreadyExists {
             CliError::input(miette!(
-                help = "choose another name, or pass --replace to write over it",
+                help = FORCE_HINT,
                 "{} exists: it is left as it is",
                 path.display()
             ))
         } else {
-            CliError::runtime(miette!("cannot create {}: {e}", path.display()))
+            CliError::runtime(miette!("cannot create {}: {}", path.display(), io_words(&e)))
         }
     })
 }

@@ -1,5 +1,6 @@
 //! `slackmeter parts`: the part library with each part's source and status.
 
+use super::output::outln;
 use miette::miette;
 
 use super::args::LibraryArgs;
@@ -39,9 +40,9 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
         };
         let sheet = crate::budget::library::sheet::sheet(&lib, i);
         if a.json {
-            println!("{}", serde_json::to_string_pretty(&sheet)?);
+            outln!("{}", serde_json::to_string_pretty(&sheet)?);
         } else {
-            print!("{}", crate::report::budget::render_part(&sheet));
+            super::output::text(&crate::report::budget::render_part(&sheet))?;
         }
         return Ok(Outcome::Done);
     }
@@ -79,10 +80,10 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
                 })
             })
             .collect();
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        outln!("{}", serde_json::to_string_pretty(&doc)?);
         return Ok(Outcome::Done);
     }
-    println!(
+    outln!(
         "{:<15} {:<7} {:<12} arcs — function — source",
         "type", "family", "status"
     );
@@ -96,7 +97,7 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
             })
             .collect();
         let status = p.status.words();
-        println!(
+        outln!(
             "{:<15} {:<7} {:<12} {} — {} — {}",
             p.type_name,
             lib.families[p.family].name,
@@ -107,7 +108,7 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
         );
     }
     for n in &lib.notes {
-        println!("note: {n}");
+        outln!("note: {n}");
     }
     Ok(Outcome::Done)
 }

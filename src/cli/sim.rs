@@ -1,5 +1,6 @@
 //! `slackmeter sim`: the virtual probe on a pseudo-terminal, into a file or to standard output.
 
+use super::output::outln;
 use std::io::Write;
 use std::path::PathBuf;
 use std::time::Instant;
@@ -74,11 +75,11 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
         ))
     })?;
     let m = probe.model();
-    println!("virtual probe on {}", server.path().display());
+    outln!("virtual probe on {}", server.path().display());
     if a.link.is_some() {
-        println!("  (device {})", server.device_path().display());
+        outln!("  (device {})", server.device_path().display());
     }
-    println!(
+    outln!(
         "  scenario {}: clock {} at {:.1} % duty, tick {}, rails {}",
         a.model.scenario,
         units::hz(m.freq_hz),
@@ -90,7 +91,7 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
             .collect::<Vec<_>>()
             .join(", ")
     );
-    println!(
+    outln!(
         "  connect with: slackmeter listen {}    (Ctrl-C stops the probe)",
         server.path().display()
     );
