@@ -23,6 +23,64 @@ fn same_file(a: &Path, b: &Path) -> bool {
 /// as a hidden alias).
 pub const FORCE_HINT: &str = "choose another name, or pass --force to write over it";
 
+/// `--force`, the one flag of every command that writes files (`--replace` is a hidden alias).
+#[derive(clap::Args, Debug, Clone, Copy, Default)]
+pub struct ForceArgs {
+    /// Write over output files that exist (never over this command's own input).
+    #[arg(long, alias = "replace")]
+    pub force: bool,
+}
+
+/// Refuse an output folder that exists and holds anything, unless `force`.
+pub fn check_folder(dir: &Path, force: bool) -> CliResult<()> {
+    let busy = std::fs::read_dir(dir).is_ok_and(|mut d| d.next().is_some());
+    if busy && !force {
+        return Err(CliError::input(miette!(
+            help = "choose another folder, or pass --force to write the plots into it (only earlier plots are written over)",
+            "{} exists and is not empty: nothing was written into it",
+            dir.display()
+        )));
+    }
+    Ok(())
+}
+
+/// Refuse an existing output file unless `force`; with `force` a regular file is removed
+/// first, so a writer that creates its file new (a recording) can write there.
+pub fn clear_for(path: &Path, inputs: &[&Path], force: bool) -> CliResult<()> {
+    if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
+        return Err(CliError::input(miette!(
+            help = "write the output to another path",
+            "{} is this command's input {}: it is not written over",
+            path.display(),
+            input.display()
+        )));
+    }
+    let Ok(meta) = std::fs::symlink_metadata(path) else {
+        return Ok(());
+    };
+    if !force {
+        return Err(CliError::input(miette!(
+            help = FORCE_HINT,
+            "{} exists: it is left as it is",
+            path.display()
+        )));
+    }
+    if !meta.is_file() {
+        return Err(CliError::input(miette!(
+            help = "choose another name",
+            "{} exists and is not a regular file: it is left as it is, even with --force",
+            path.display()
+        )));
+    }
+    std::fs::remove_file(path).map_err(|e| {
+        CliError::runtime(miette!(
+            "cannot write over {}: {}",
+            path.display(),
+            io_words(&e)
+        ))
+    })
+}
+
 /// Whether an output path means standard output.
 pub fn is_stdout(path: &Path) -> bool {
     path.as_os_str() == "-"

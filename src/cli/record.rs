@@ -24,9 +24,12 @@ pub struct RecordArgs {
     /// The design the recording stores (and --fault-on-typ fails by).
     #[command(flatten)]
     pub design: DesignArgs,
-    /// The recording to write (refuses to overwrite), e.g. run.smrec.
+    /// The recording to write, e.g. run.smrec (an existing file only with --force).
     #[arg(short = 'o', long, value_name = "FILE")]
     pub output: PathBuf,
+    /// Overwriting.
+    #[command(flatten)]
+    pub force: super::output::ForceArgs,
     /// Stop after this long, e.g. 30s (otherwise at Ctrl-C).
     #[arg(long, value_parser = args::pos_time)]
     pub duration: Option<f64>,
@@ -97,6 +100,9 @@ pub fn run(a: RecordArgs) -> CliResult<Outcome> {
             "--fast needs --duration"
         )));
     }
+    let design_file = a.design.design.clone();
+    let inputs: Vec<&std::path::Path> = design_file.iter().map(|p| p.as_path()).collect();
+    super::output::clear_for(&a.output, &inputs, a.force.force)?;
     interrupt_flag();
     let (spec, header) = source(&a)?;
     let path = a.output.display().to_string();

@@ -34,9 +34,9 @@ pub struct SimArgs {
     /// Write the frames straight to a file (as fast as possible).
     #[arg(long, value_name = "FILE")]
     pub out: Option<PathBuf>,
-    /// With --out: write over a file that exists.
-    #[arg(long, requires = "out")]
-    pub replace: bool,
+    /// Overwriting (with --out).
+    #[command(flatten)]
+    pub force: super::output::ForceArgs,
     /// Write the frames to standard output.
     #[arg(long)]
     pub stdout: bool,
@@ -56,6 +56,12 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
             help = "choose one of --pty, --out FILE, --stdout",
             "more than one output given"
         )));
+    }
+    if a.stdout {
+        super::output::refuse_binary_terminal(
+            "the probe's frame stream",
+            "send it into a file or a program: `slackmeter sim --stdout > run.bin`, `slackmeter sim --stdout | ...`, or use --out FILE",
+        )?;
     }
     interrupt_flag();
     let mut probe = SimProbe::new(setup.model, setup.notes);
@@ -127,7 +133,7 @@ fn to_file(a: &SimArgs, probe: &mut SimProbe) -> CliResult<Outcome> {
     let mut sink: Box<dyn Write> = match &a.out {
         Some(p) => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,
-            super::output::create(p, &[], a.replace)?,
+            super::output::create(p, &[], a.force.force)?,
         )),
         None => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,
