@@ -274,10 +274,10 @@ pub struct ProbeArgs {
     #[arg(long, conflicts_with = "settings")]
     pub sim: bool,
     /// The virtual probe's settings (with --sim).
-    #[command(flatten)]
+    #[command(flatten, next_help_heading = "Virtual probe (only with --sim)")]
     pub model: SimModelArgs,
     /// A real probe's port options.
-    #[command(flatten)]
+    #[command(flatten, next_help_heading = "Probe on a port (only with PORT)")]
     pub port_options: PortArgs,
 }
 

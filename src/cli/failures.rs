@@ -68,11 +68,7 @@ fn print_table(rows: &[FailureRow]) -> CliResult<()> {
         outln!(
             "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}",
             r.vcc_v,
-            format!(
-                "{} ± {}",
-                units::hz(r.fail_onset_hz),
-                units::hz(r.fail_onset_uncertainty_hz)
-            ),
+            crate::report::table::pm(r.fail_onset_hz, r.fail_onset_uncertainty_hz, "Hz"),
             units::hz(r.fmax_worst_case_hz).to_string(),
             units::hz(r.fmax_typical_hz).to_string(),
             100.0 * (r.fail_onset_hz / r.fmax_typical_hz - 1.0),

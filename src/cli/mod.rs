@@ -32,7 +32,8 @@ use self::error::{CliError, CliResult, Outcome, exit_code};
 #[derive(Parser, Debug)]
 #[command(name = "slackmeter", version, about, long_about = None)]
 #[command(
-    after_help = "Exit codes: 0 fine, 1 runtime failure (I/O, device), 2 bad command line or \
+    after_help = "try: slackmeter watch --sim   (the live view on the virtual probe, no hardware needed)\n\n\
+Exit codes: 0 fine, 1 runtime failure (I/O, device), 2 bad command line or \
 input file, 3 the clock does not fit the budget."
 )]
 pub struct Cli {

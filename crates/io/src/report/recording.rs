@@ -96,7 +96,7 @@ pub fn moving_rows(m: &Movement) -> Vec<[String; 3]> {
         m.period_jitter_detrended_uncertainty_ns,
     ) {
         _ if m.period_jitter_detrended_below_resolution => "below resolution".to_string(),
-        (Some(j), Some(u)) => format!("{} RMS ± {}", ns(j), ns(u)),
+        (Some(j), Some(u)) => format!("{} RMS", super::table::pm(j * 1e-9, u * 1e-9, "s")),
         _ => "—".into(),
     };
     vec![
@@ -112,7 +112,7 @@ pub fn moving_rows(m: &Movement) -> Vec<[String; 3]> {
         [
             "detrended jitter".into(),
             jitter,
-            "period jitter against the moving mean, from cycle-to-cycle: √((c2c² − q²/2) / 2)"
+            "period jitter against the moving mean, from cycle-to-cycle: √((c2c² - q²/2) / 2)"
                 .into(),
         ],
         [
@@ -166,8 +166,10 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     let _ = writeln!(
         out,
         "  frequency     {}   ({counted}){spread}",
-        pm(c.frequency_hz, c.frequency_uncertainty_hz, |x| hz(x)
-            .to_string())
+        match (c.frequency_hz, c.frequency_uncertainty_hz) {
+            (Some(f), Some(u)) => super::table::pm(f, u, "Hz"),
+            (f, _) => pm(f, None, |x| hz(x).to_string()),
+        }
     );
     if let Some(a) = c.frequency_accuracy_hz {
         let _ = writeln!(out, "                (timebase accuracy ± {})", hz(a));
