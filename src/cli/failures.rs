@@ -60,22 +60,22 @@ fn fmax_at(d: &Design, lib: &Library, vcc_v: f64, o: &FaultOnset, corner: Corner
 }
 
 fn print_table(rows: &[FailureRow]) -> CliResult<()> {
-    outln!(
-        "{:>9} {:>26} {:>12} {:>12} {:>9}  file",
+    let mut text = format!(
+        "{:>9} {:>26} {:>12} {:>12} {:>9}  file\n",
         "supply", "failure onset", "f_max worst", "f_max typ", "vs typ"
     );
     for r in rows {
-        outln!(
-            "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}",
+        text.push_str(&format!(
+            "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}\n",
             r.vcc_v,
             crate::report::table::pm(r.fail_onset_hz, r.fail_onset_uncertainty_hz, "Hz"),
             units::hz(r.fmax_worst_case_hz).to_string(),
             units::hz(r.fmax_typical_hz).to_string(),
             100.0 * (r.fail_onset_hz / r.fmax_typical_hz - 1.0),
             r.file
-        );
+        ));
     }
-    Ok(())
+    super::output::report_text(&text)
 }
 
 /// `slackmeter failures`.

@@ -127,6 +127,49 @@ pub fn text(text: &str) -> CliResult<()> {
         .map_err(CliError::io("standard output"))
 }
 
+/// The width text output wraps at: the terminal's when standard output is one, 100 columns
+/// otherwise (a file, a pipe, a log).
+pub fn width() -> usize {
+    if std::io::stdout().is_terminal()
+        && let Ok((cols, _)) = crossterm::terminal::size()
+        && cols >= 40
+    {
+        return usize::from(cols);
+    }
+    100
+}
+
+/// `text` with every line longer than `width` columns wrapped at spaces; a continued line is
+/// indented four columns past its own indentation, so tables and lists stay readable (a word
+/// longer than the width, such as a long path, is kept whole on its own line).
+pub fn wrapped(text: &str, width: usize) -> String {
+    let mut out = String::with_capacity(text.len() + text.len() / 16);
+    for line in text.split_inclusive('\n') {
+        let (body, end) = match line.strip_suffix('\n') {
+            Some(b) => (b, "\n"),
+            None => (line, ""),
+        };
+        if textwrap::core::display_width(body) <= width {
+            out.push_str(line);
+            continue;
+        }
+        let lead = body.len() - body.trim_start().len();
+        let indent = format!("{}    ", &body[..lead]);
+        let opts = textwrap::Options::new(width)
+            .subsequent_indent(&indent)
+            .break_words(false)
+            .word_splitter(textwrap::WordSplitter::NoHyphenation);
+        out.push_str(&textwrap::fill(body, opts));
+        out.push_str(end);
+    }
+    out
+}
+
+/// A text report to standard output, wrapped to [`width`]; a closed pipe ends quietly.
+pub fn report_text(text: &str) -> CliResult<()> {
+    self::text(&wrapped(text, width()))
+}
+
 /// An OS error in words a user can act on, with the fix where there is one.
 pub fn io_words(e: &std::io::Error) -> String {
     let fix = match e.raw_os_error() {
@@ -178,6 +221,20 @@ pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // common practice, no source: 100 columns when the width is unknown
+    #[test]
+    fn long_lines_wrap_with_a_hanging_indent() {
+        let long = format!("  head {}\nshort\n", "word ".repeat(60));
+        let w = wrapped(&long, 40);
+        assert!(w.lines().all(|l| l.chars().count() <= 40), "{w}");
+        assert!(w.lines().nth(1).unwrap().starts_with("      word"), "{w}");
+        assert!(w.ends_with("\nshort\n"), "{w}");
+        assert_eq!(wrapped("a\nb", 40), "a\nb");
+        // the words are all kept, in order
+        let words = |s: &str| s.split_whitespace().map(str::to_string).collect::<Vec<_>>();
+        assert_eq!(words(&w), words(&long));
+    }
 
     #[test]
     fn inputs_and_existing_files_are_refused() {

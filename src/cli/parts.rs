@@ -42,7 +42,7 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
         if a.json {
             outln!("{}", serde_json::to_string_pretty(&sheet)?);
         } else {
-            super::output::text(&crate::report::budget::render_part(&sheet))?;
+            super::output::report_text(&crate::report::budget::render_part(&sheet))?;
         }
         return Ok(Outcome::Done);
     }
@@ -83,8 +83,8 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
         outln!("{}", serde_json::to_string_pretty(&doc)?);
         return Ok(Outcome::Done);
     }
-    outln!(
-        "{:<15} {:<7} {:<12} arcs — function — source",
+    let mut text = format!(
+        "{:<15} {:<7} {:<12} arcs — function — source\n",
         "type", "family", "status"
     );
     for p in parts {
@@ -97,18 +97,19 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
             })
             .collect();
         let status = p.status.words();
-        outln!(
-            "{:<15} {:<7} {:<12} {} — {} — {}",
+        text.push_str(&format!(
+            "{:<15} {:<7} {:<12} {} — {} — {}\n",
             p.type_name,
             lib.families[p.family].name,
             status,
             arcs.join(", "),
             p.function,
             p.source
-        );
+        ));
     }
     for n in &lib.notes {
-        outln!("note: {n}");
+        text.push_str(&format!("note: {n}\n"));
     }
+    super::output::report_text(&text)?;
     Ok(Outcome::Done)
 }

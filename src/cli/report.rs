@@ -249,7 +249,8 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         if let Some((m, d)) = judged {
             text.push_str(&report::margin::render(m, &d.name));
         }
-        write!(out, "{text}").map_err(stdout)?;
+        drop(out);
+        super::output::report_text(&text)?;
     }
     if sum.data_bytes == 0 {
         return Err(CliError::input(miette!(
