@@ -158,6 +158,7 @@ pub fn wrapped(text: &str, width: usize) -> String {
         let opts = textwrap::Options::new(width)
             .subsequent_indent(&indent)
             .break_words(false)
+            .word_separator(textwrap::WordSeparator::AsciiSpace)
             .word_splitter(textwrap::WordSplitter::NoHyphenation);
         out.push_str(&textwrap::fill(body, opts));
         out.push_str(end);
