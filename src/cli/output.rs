@@ -4,7 +4,9 @@
 
 use std::fs::{File, OpenOptions};
 use std::io::{IsTerminal, Write};
+use std::collections::VecDeque;
 use std::path::Path;
+use std::time::{Duration, Instant};
 
 use miette::miette;
 
@@ -171,6 +173,134 @@ pub fn report_text(text: &str) -> CliResult<()> {
     self::text(&wrapped(text, width()))
 }
 
+/// `n` and its noun, singular or plural: "1 reconnect", "2 reconnects".
+pub fn count(n: impl Into<u64>, noun: &str) -> String {
+    match n.into() {
+        1 => format!("1 {noun}"),
+        n => format!("{n} {noun}s"),
+    }
+}
+
+/// How long the recent window of the progress line's rates is.
+const RATE_WINDOW_S: f64 = 5.0;
+/// How often a progress line is printed when standard error is no terminal (a log).
+const LOG_EVERY: Duration = Duration::from_secs(10);
+
+/// A progress line on standard error: on a terminal redrawn in place (carriage return, cut to
+/// the width), into a log one line every ten seconds; its rates are over the last five
+/// seconds, so an outage shows as a falling rate, not as an average over the whole run.
+pub struct Progress {
+    tty: bool,
+    width: usize,
+    every: Duration,
+    last: Option<Instant>,
+    drawn: bool,
+    recent: VecDeque<(f64, u64, u64)>,
+}
+
+impl Progress {
+    /// A progress line redrawn every `every` on a terminal.
+    pub fn new(every: Duration) -> Progress {
+        let tty = std::io::stderr().is_terminal();
+        let width = if tty {
+            match crossterm::terminal::size() {
+                Ok((c, _)) if c >= 20 => usize::from(c),
+                _ => 80,
+            }
+        } else {
+            usize::MAX
+        };
+        Progress::with(tty, width, if tty { every } else { LOG_EVERY })
+    }
+
+    fn with(tty: bool, width: usize, every: Duration) -> Progress {
+        Progress {
+            tty,
+            width,
+            every,
+            last: None,
+            drawn: false,
+            recent: VecDeque::new(),
+        }
+    }
+
+    /// Whether a line is due now (the first after one period).
+    pub fn due(&mut self) -> bool {
+        let now = Instant::now();
+        match self.last {
+            Some(t) if now.duration_since(t) < self.every => false,
+            Some(_) => {
+                self.last = Some(now);
+                true
+            }
+            None => {
+                self.last = Some(now);
+                false
+            }
+        }
+    }
+
+    /// Note the totals at `t_s` (seconds into the run); the rates per second of both over the
+    /// recent window.
+    pub fn rates(&mut self, t_s: f64, a: u64, b: u64) -> (f64, f64) {
+        self.recent.push_back((t_s, a, b));
+        while self.recent.len() > 2
+            && self.recent.get(1).is_some_and(|x| t_s - x.0 >= RATE_WINDOW_S)
+        {
+            self.recent.pop_front();
+        }
+        let (t0, a0, b0) = self.recent.front().copied().unwrap_or((t_s, a, b));
+        let dt = t_s - t0;
+        if dt <= 0.0 {
+            return (0.0, 0.0);
+        }
+        (
+            a.saturating_sub(a0) as f64 / dt,
+            b.saturating_sub(b0) as f64 / dt,
+        )
+    }
+
+    /// The text a line shows: cut to the terminal's width on a terminal.
+    fn fit(&self, line: &str) -> String {
+        let line = line.trim();
+        if self.tty && line.chars().count() >= self.width {
+            let mut cut: String = line.chars().take(self.width.saturating_sub(2)).collect();
+            cut.push('…');
+            cut
+        } else {
+            line.to_string()
+        }
+    }
+
+    /// Show `line`: in place on a terminal, as a new line into a log.
+    pub fn show(&mut self, line: &str) {
+        let text = self.fit(line);
+        if self.tty {
+            eprint!("\r{text}\x1b[K");
+            self.drawn = true;
+        } else {
+            eprintln!("{text}");
+        }
+    }
+
+    /// End the line in place, so a message that follows starts on its own line.
+    pub fn break_line(&mut self) {
+        if self.drawn {
+            eprintln!();
+            self.drawn = false;
+        }
+    }
+
+    /// The last line, whole (wrapped by the terminal if it must), ending the progress.
+    pub fn finish(&mut self, line: &str) {
+        if self.drawn {
+            eprint!("\r\x1b[K");
+            self.drawn = false;
+        }
+        eprintln!("{}", line.trim());
+    }
+}
+
 /// An OS error in words a user can act on, with the fix where there is one.
 pub fn io_words(e: &std::io::Error) -> String {
     let fix = match e.raw_os_error() {
@@ -222,6 +352,34 @@ pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // common practice, no source: a rate over a recent window
+    #[test]
+    fn rates_are_over_the_recent_window() {
+        let mut p = Progress::with(false, usize::MAX, Duration::from_secs(1));
+        for t in 0..=10u64 {
+            p.rates(t as f64, t * 1000, t);
+        }
+        // an outage: nothing arrives for 10 s; the whole-run average would still say 500/s
+        let mut last = (1.0, 1.0);
+        for t in 11..=20u64 {
+            last = p.rates(t as f64, 10_000, 10);
+        }
+        assert_eq!(last, (0.0, 0.0));
+        let (a, b) = p.rates(21.0, 15_000, 15);
+        assert!(a > 0.0 && a <= 5000.0 && b > 0.0, "{a} {b}");
+    }
+
+    #[test]
+    fn a_terminal_line_fits_its_width() {
+        let p = Progress::with(true, 30, Duration::from_secs(1));
+        let line = p.fit(&"x".repeat(100));
+        assert_eq!(line.chars().count(), 29);
+        assert_eq!(p.fit("short  "), "short");
+        assert_eq!(count(1u32, "reconnect"), "1 reconnect");
+        assert_eq!(count(0u32, "reconnect"), "0 reconnects");
+        assert_eq!(count(2u32, "reconnect"), "2 reconnects");
+    }
 
     // common practice, no source: 100 columns when the width is unknown
     #[test]
