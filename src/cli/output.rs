@@ -220,7 +220,7 @@ impl Progress {
             every,
             last: None,
             drawn: false,
-            recent: VecDeque::new(),
+            recent: VecDeque::from([(0.0, 0, 0)]),
         }
     }
 

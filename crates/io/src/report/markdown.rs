@@ -345,7 +345,12 @@ pub fn render(
         let rows: Vec<Vec<String>> = sum
             .links
             .iter()
-            .map(|l| vec![format!("{:.3} s", l.at_s), l.event.to_string()])
+            .map(|l| {
+                vec![
+                    format!("{:.3} s", l.at_s),
+                    super::recording::link_words(&l.event),
+                ]
+            })
             .collect();
         table::markdown(&mut out, &["at", "event"], &rows);
     }
