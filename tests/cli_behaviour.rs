@@ -91,13 +91,19 @@ fn the_live_view_without_a_terminal_names_the_alternatives() {
     let o = run_in(&d, &["watch", "--sim"]);
     let err = stderr(&o);
     assert_eq!(o.status.code(), Some(2), "{err}");
-    assert!(err.contains("slackmeter record") && err.contains("slackmeter listen"), "{err}");
+    assert!(
+        err.contains("slackmeter record") && err.contains("slackmeter listen"),
+        "{err}"
+    );
     assert!(!err.contains("panicked"), "{err}");
     // replay: its alternatives, and --speed takes a trailing x
     let o = run_in(&d, &["replay", "--speed", "2x", &steady()]);
     let err = stderr(&o);
     assert_eq!(o.status.code(), Some(2), "{err}");
-    assert!(err.contains("needs a terminal") && err.contains("slackmeter report"), "{err}");
+    assert!(
+        err.contains("needs a terminal") && err.contains("slackmeter report"),
+        "{err}"
+    );
     let o = run_in(&d, &["replay", "--speed", "fast", &steady()]);
     assert!(stderr(&o).contains("not a speed"), "{}", stderr(&o));
 }
@@ -110,13 +116,24 @@ fn every_output_refuses_an_existing_file_unless_forced() {
     let cases: [&[&str]; 3] = [
         &["export", &rec, "--csv", "old"],
         &["sim", "--out", "old", "--duration", "0.1s"],
-        &["record", "--sim", "--fast", "--duration", "0.2s", "-o", "old"],
+        &[
+            "record",
+            "--sim",
+            "--fast",
+            "--duration",
+            "0.2s",
+            "-o",
+            "old",
+        ],
     ];
     for args in cases {
         let o = run_in(&d, args);
         let err = stderr(&o);
         assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
-        assert!(err.contains("exists") && err.contains("--force"), "{args:?}: {err}");
+        assert!(
+            err.contains("exists") && err.contains("--force"),
+            "{args:?}: {err}"
+        );
         assert_eq!(std::fs::read(d.join("old")).unwrap(), b"mine", "{args:?}");
     }
     for args in cases {
@@ -131,7 +148,10 @@ fn every_output_refuses_an_existing_file_unless_forced() {
     let o = run_in(&d, &["export", &rec, "--csv", "old", "--replace"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let help = String::from_utf8_lossy(&run_in(&d, &["export", "--help"]).stdout).into_owned();
-    assert!(help.contains("--force") && !help.contains("--replace"), "{help}");
+    assert!(
+        help.contains("--force") && !help.contains("--replace"),
+        "{help}"
+    );
     // plots: a folder that holds files
     std::fs::create_dir_all(d.join("plots")).unwrap();
     std::fs::write(d.join("plots/notes.txt"), b"mine").unwrap();
@@ -184,7 +204,10 @@ fn one_minus_sign_in_text_reports() {
         let o = run_in(&d, &args);
         let text = String::from_utf8_lossy(&o.stdout);
         for line in text.lines() {
-            assert!(!line.contains('\u{2212}') || !line.contains('-'), "{args:?}: {line}");
+            assert!(
+                !line.contains('\u{2212}') || !line.contains('-'),
+                "{args:?}: {line}"
+            );
         }
     }
     let o = run_in(&d, &["budget", "--freq", "3MHz"]);
@@ -203,9 +226,14 @@ fn help_reads_clearly() {
     let top = String::from_utf8_lossy(&run_in(&d, &["--help"]).stdout).into_owned();
     assert!(top.contains("try: slackmeter watch --sim"), "{top}");
     let rec = String::from_utf8_lossy(&run_in(&d, &["record", "--help"]).stdout).into_owned();
-    let heading = rec.find("Virtual probe (only with --sim)").expect("a heading");
+    let heading = rec
+        .find("Virtual probe (only with --sim)")
+        .expect("a heading");
     let freq = rec.find("--freq").expect("--freq listed");
-    assert!(freq > heading, "the sim's flags under their heading:\n{rec}");
+    assert!(
+        freq > heading,
+        "the sim's flags under their heading:\n{rec}"
+    );
     let port = rec.find("Probe on a port").expect("a port heading");
     assert!(rec.find("--baud").unwrap() > port, "{rec}");
 }

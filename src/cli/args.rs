@@ -204,13 +204,14 @@ pub fn probe_setting(s: &str) -> Parsed<Setting> {
     let channel = match ch.trim() {
         "probe" => SettingChannel::Id(params::PROBE),
         "" => return Err(format!("no channel before ':' in {s:?}: {form}")),
-        c if c.starts_with(|x: char| x.is_ascii_digit()) => {
-            SettingChannel::Id(c.parse::<u8>().ok().filter(|&id| id != params::PROBE).ok_or(
-                format!(
+        c if c.starts_with(|x: char| x.is_ascii_digit()) => SettingChannel::Id(
+            c.parse::<u8>()
+                .ok()
+                .filter(|&id| id != params::PROBE)
+                .ok_or(format!(
                     "channel {c:?} is not a channel id (0…254), a channel label or `probe`: {form}"
-                ),
-            )?)
-        }
+                ))?,
+        ),
         label => SettingChannel::Label(label.to_string()),
     };
     let names = SETTINGS.map(|(n, _)| n).join(", ");
@@ -410,7 +411,11 @@ mod tests {
         let c = probe_setting("probe:gate=800000").unwrap();
         assert_eq!(
             (c.channel, c.param, c.value),
-            (SettingChannel::Id(params::PROBE), params::GATE_TICKS, 800_000)
+            (
+                SettingChannel::Id(params::PROBE),
+                params::GATE_TICKS,
+                800_000
+            )
         );
         // a label from the probe's self-description, resolved when the probe answers
         let c = probe_setting("CLK:edge-mode=count").unwrap();

@@ -42,9 +42,8 @@ pub fn run(a: ExportArgs) -> CliResult<Outcome> {
         )));
     }
     let inputs = [a.file.as_path()];
-    let create = |p: &Path| {
-        output::create_or_stdout(p, &inputs, a.force.force).map(std::io::BufWriter::new)
-    };
+    let create =
+        |p: &Path| output::create_or_stdout(p, &inputs, a.force.force).map(std::io::BufWriter::new);
     let wrote = |p: &Path, what: String| {
         if !output::is_stdout(p) {
             eprintln!("wrote {} ({what})", p.display());

@@ -14,7 +14,10 @@ use crate::tui::run::{Options, run};
 /// a CI job): the message names `alternatives`, the commands that work without one.
 fn need_terminal(alternatives: &str) -> CliResult<()> {
     use std::io::IsTerminal;
-    let which = match (std::io::stdin().is_terminal(), std::io::stdout().is_terminal()) {
+    let which = match (
+        std::io::stdin().is_terminal(),
+        std::io::stdout().is_terminal(),
+    ) {
         (true, true) => return Ok(()),
         (false, true) => "standard input is",
         (true, false) => "standard output is",

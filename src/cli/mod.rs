@@ -154,7 +154,10 @@ pub fn message(d: &(dyn miette::Diagnostic + Send + Sync + 'static)) -> String {
     // sentence, so a long path does not break a message in the middle
     let wrap = std::io::IsTerminal::is_terminal(&std::io::stderr());
     let handler = miette::MietteHandlerOpts::new().wrap_lines(wrap).build();
-    Shown(d, handler).to_string().trim_start_matches('\n').to_string()
+    Shown(d, handler)
+        .to_string()
+        .trim_start_matches('\n')
+        .to_string()
 }
 
 /// A diagnostic without its code: everything else as it is.

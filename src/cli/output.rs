@@ -2,9 +2,9 @@
 //! user passes `--force`, and never an input even then), `-` for standard output where a stream
 //! makes sense, and standard output itself (a closed pipe ends the command quietly).
 
+use std::collections::VecDeque;
 use std::fs::{File, OpenOptions};
 use std::io::{IsTerminal, Write};
-use std::collections::VecDeque;
 use std::path::Path;
 use std::time::{Duration, Instant};
 
@@ -245,7 +245,10 @@ impl Progress {
     pub fn rates(&mut self, t_s: f64, a: u64, b: u64) -> (f64, f64) {
         self.recent.push_back((t_s, a, b));
         while self.recent.len() > 2
-            && self.recent.get(1).is_some_and(|x| t_s - x.0 >= RATE_WINDOW_S)
+            && self
+                .recent
+                .get(1)
+                .is_some_and(|x| t_s - x.0 >= RATE_WINDOW_S)
         {
             self.recent.pop_front();
         }
@@ -344,7 +347,11 @@ pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
                 path.display()
             ))
         } else {
-            CliError::runtime(miette!("cannot create {}: {}", path.display(), io_words(&e)))
+            CliError::runtime(miette!(
+                "cannot create {}: {}",
+                path.display(),
+                io_words(&e)
+            ))
         }
     })
 }

@@ -1,7 +1,7 @@
 //! `slackmeter ports`: the serial ports this system lists, with their identification.
 
-use super::output::outln;
 use super::error::{CliResult, Outcome};
+use super::output::outln;
 use crate::link;
 
 /// `slackmeter ports`.

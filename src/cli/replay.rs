@@ -43,9 +43,7 @@ pub fn run(a: ReplayArgs) -> CliResult<Outcome> {
 /// A speed factor: a positive number, with or without a trailing `x` (`2`, `2.0`, `2x`, `0.5×`).
 pub fn speed_factor(s: &str) -> Result<f64, String> {
     let t = s.trim();
-    let t = t
-        .strip_suffix(['x', 'X', '×'])
-        .map_or(t, str::trim_end);
+    let t = t.strip_suffix(['x', 'X', '×']).map_or(t, str::trim_end);
     match t.parse::<f64>() {
         Ok(v) if v > 0.0 && v.is_finite() => Ok(v),
         _ => Err(format!(
@@ -60,7 +58,13 @@ mod tests {
 
     #[test]
     fn speed_takes_a_trailing_x() {
-        for (s, v) in [("2", 2.0), ("2.0", 2.0), ("2x", 2.0), ("0.5X", 0.5), ("4 ×", 4.0)] {
+        for (s, v) in [
+            ("2", 2.0),
+            ("2.0", 2.0),
+            ("2x", 2.0),
+            ("0.5X", 0.5),
+            ("4 ×", 4.0),
+        ] {
             assert_eq!(speed_factor(s), Ok(v), "{s}");
         }
         for s in ["0", "-1", "x", "fast", "inf", "NaN"] {

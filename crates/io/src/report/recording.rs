@@ -312,9 +312,9 @@ pub fn link_words(event: &serde_json::Value) -> String {
         LinkNote::Lost { reason } => format!("link lost: {reason}"),
         LinkNote::Refused { what, reason } => format!("the probe refused {what}: {reason}"),
         LinkNote::Joined => "recording joined a stream already running".into(),
-        LinkNote::RecorderOverflow { dropped_bytes } => format!(
-            "the recorder fell behind: {dropped_bytes} bytes of probe data dropped"
-        ),
+        LinkNote::RecorderOverflow { dropped_bytes } => {
+            format!("the recorder fell behind: {dropped_bytes} bytes of probe data dropped")
+        }
     }
 }
 

@@ -107,7 +107,6 @@ pub fn pm(value: f64, uncertainty: f64, symbol: &str) -> String {
     format!("{m:.d$} {unit} ± {u:.d$} {unit}")
 }
 
-
 #[cfg(test)]
 mod tests {
     use super::pm;
