@@ -29,6 +29,7 @@ fn bin() -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_slackmeter"));
     c.env("NO_COLOR", "1")
         .env_remove("SLACKMETER_PARTS")
+        .env_remove("COLUMNS")
         .stdin(Stdio::null());
     c
 }
@@ -195,6 +196,15 @@ fn text_output_fits_100_columns_off_a_terminal() {
             assert!(line.chars().count() <= 100, "{args:?}: {line}");
         }
     }
+    // COLUMNS sets another width
+    let o = bin()
+        .current_dir(&d)
+        .args(["budget"])
+        .env("COLUMNS", "300")
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.lines().any(|l| l.chars().count() > 100), "{text}");
 }
 
 #[test]

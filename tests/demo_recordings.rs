@@ -11,6 +11,8 @@ fn demo(name: &str) -> String {
 fn run(args: &[&str]) -> std::process::Output {
     Command::new(env!("CARGO_BIN_EXE_slackmeter"))
         .args(args)
+        // sentences are checked whole here; wrapping at 100 columns is tested in cli_behaviour.rs
+        .env("COLUMNS", "1000")
         .output()
         .unwrap()
 }

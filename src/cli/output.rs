@@ -129,9 +129,16 @@ pub fn text(text: &str) -> CliResult<()> {
         .map_err(CliError::io("standard output"))
 }
 
-/// The width text output wraps at: the terminal's when standard output is one, 100 columns
-/// otherwise (a file, a pipe, a log).
+/// The width text output wraps at: `COLUMNS` when set (e.g. `COLUMNS=200` for a wide log), the
+/// terminal's when standard output is one, 100 columns otherwise (a file, a pipe, a log).
 pub fn width() -> usize {
+    if let Some(cols) = std::env::var("COLUMNS")
+        .ok()
+        .and_then(|c| c.trim().parse::<usize>().ok())
+        .filter(|&c| c >= 40)
+    {
+        return cols;
+    }
     if std::io::stdout().is_terminal()
         && let Ok((cols, _)) = crossterm::terminal::size()
         && cols >= 40
