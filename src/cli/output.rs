@@ -78,7 +78,7 @@ pub fn clear_for(path: &Path, inputs: &[&Path], force: bool) -> CliResult<()> {
         CliError::runtime(miette!(
             "cannot write over {}: {}",
             path.display(),
-            io_words(&e)
+            super::error::io_words(&e)
         ))
     })
 }
@@ -311,23 +311,6 @@ impl Progress {
     }
 }
 
-/// An OS error in words a user can act on, with the fix where there is one.
-pub fn io_words(e: &std::io::Error) -> String {
-    let fix = match e.raw_os_error() {
-        Some(libc::ENOTTY) => "not a serial device",
-        Some(libc::EACCES) | Some(libc::EPERM) => {
-            "permission denied (serial devices belong to the `dialout` group: `sudo usermod -aG dialout $USER`, then log in again)"
-        }
-        Some(libc::ENOENT) => "no such file or device",
-        Some(libc::EBUSY) => "in use by another program (close it, or check `fuser DEVICE`)",
-        Some(libc::ENOSPC) => "the disk is full",
-        Some(libc::EROFS) => "the file system is read-only",
-        Some(libc::EISDIR) => "it is a folder",
-        _ => return e.to_string(),
-    };
-    fix.to_string()
-}
-
 /// Open `path` for writing, refusing an input of this command and, unless `force`, any file
 /// already there (created atomically, so a file appearing meanwhile is not replaced either).
 pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
@@ -357,7 +340,7 @@ pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
             CliError::runtime(miette!(
                 "cannot create {}: {}",
                 path.display(),
-                io_words(&e)
+                super::error::io_words(&e)
             ))
         }
     })
