@@ -267,10 +267,106 @@ fn messages_lead_with_what_happened_not_a_code() {
 
 #[test]
 fn binary_output_into_a_pipe_is_written() {
-    // a terminal is refused (checked by hand: `slackmeter sim --stdout` on a terminal says so);
-    // a pipe gets the frames
+    // a pipe gets the frames (a terminal is refused: the tmux test below)
     let d = tmp("bin");
     let o = run_in(&d, &["sim", "--stdout", "--duration", "0.05s"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     assert!(o.stdout.len() > 1000);
+}
+
+/// Binary output onto a terminal is refused with a hint: `sim --stdout` in a tmux pane.
+#[test]
+fn binary_output_onto_a_terminal_is_refused() {
+    if Command::new("tmux").arg("-V").output().is_err() {
+        eprintln!("tmux is not installed: skipped (CI installs it)");
+        return;
+    }
+    let sock = format!("slackmeter-cli-{}", std::process::id());
+    let tmux = |args: &[&str]| {
+        Command::new("tmux")
+            .args(["-L", &sock])
+            .args(args)
+            .output()
+            .expect("tmux runs")
+    };
+    let cmd = format!(
+        "{} sim --stdout --duration 1s; echo \"exit=$?\"; sleep 30",
+        env!("CARGO_BIN_EXE_slackmeter")
+    );
+    tmux(&[
+        "new-session",
+        "-d",
+        "-s",
+        "w",
+        "-x",
+        "100",
+        "-y",
+        "20",
+        &cmd,
+    ]);
+    let mut screen = String::new();
+    for _ in 0..100 {
+        std::thread::sleep(std::time::Duration::from_millis(100));
+        let o = tmux(&["capture-pane", "-p", "-t", "w"]);
+        screen = String::from_utf8_lossy(&o.stdout).into_owned();
+        if screen.contains("exit=") {
+            break;
+        }
+    }
+    tmux(&["kill-server"]);
+    assert!(screen.contains("exit=2"), "{screen}");
+    assert!(screen.contains("standard output is a terminal"), "{screen}");
+    assert!(screen.contains("--out FILE"), "{screen}");
+}
+
+/// `--set` takes a channel label from the probe's self-description, and a refusal says in words
+/// which setting, which value, which channel and why (the virtual probe on a pseudo-terminal).
+#[test]
+fn settings_by_label_and_refusals_in_words() {
+    let d = tmp("set");
+    let link = d.join("probe");
+    let mut sim = bin()
+        .args(["sim", "--pty", "--link"])
+        .arg(&link)
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .expect("sim runs");
+    for _ in 0..100 {
+        if link.exists() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    let o = bin()
+        .arg("listen")
+        .arg(&link)
+        .args([
+            "--duration",
+            "1s",
+            "--set",
+            "CLK:enable=on",
+            "--set",
+            "CLCK:enable=off",
+        ])
+        .args(["--set", "77:enable=on"])
+        .output()
+        .expect("listen runs");
+    let _ = sim.kill();
+    let _ = sim.wait();
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(0), "{err}");
+    // CLK is channel 0 of the virtual probe: accepted, so never named in a refusal
+    assert!(!err.contains("(CLK):"), "{err}");
+    assert!(
+        err.contains("the setting enable=off on channel CLCK")
+            && err.contains("no channel labelled CLCK")
+            && err.contains("CLK (0)"),
+        "{err}"
+    );
+    assert!(
+        err.contains("the setting enable=on on channel 77: no such channel"),
+        "{err}"
+    );
+    assert!(!err.contains("CONFIGURE"), "{err}");
 }
