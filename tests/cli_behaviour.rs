@@ -370,3 +370,34 @@ fn settings_by_label_and_refusals_in_words() {
     );
     assert!(!err.contains("CONFIGURE"), "{err}");
 }
+
+/// Every "value unit ± uncertainty unit" in a report has one unit on both sides.
+#[test]
+fn uncertainties_are_in_the_unit_of_their_value() {
+    let d = tmp("units");
+    let number = |t: &str| t.trim_start_matches(['+', '-']).parse::<f64>().is_ok();
+    for name in ["steady", "sagging", "sweep"] {
+        let rec = root().join(format!("recordings/larkspur-{name}.smrec"));
+        let o = bin()
+            .current_dir(&d)
+            .arg("report")
+            .arg(&rec)
+            .env("COLUMNS", "1000")
+            .output()
+            .unwrap();
+        let text = String::from_utf8_lossy(&o.stdout);
+        let mut seen = 0;
+        for line in text.lines() {
+            for (left, right) in line.split(" ± ").zip(line.split(" ± ").skip(1)) {
+                let l: Vec<&str> = left.split_whitespace().rev().take(2).collect();
+                let r: Vec<&str> = right.split_whitespace().take(2).collect();
+                if l.len() == 2 && r.len() == 2 && number(l[1]) && number(r[0]) {
+                    let unit = r[1].trim_end_matches([',', ')', ';']);
+                    assert_eq!(l[0], unit, "{name}: {line}");
+                    seen += 1;
+                }
+            }
+        }
+        assert!(seen >= 3, "{name}: {text}");
+    }
+}
