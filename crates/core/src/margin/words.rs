@@ -3,12 +3,7 @@
 //! frequency and the headroom to a failure.
 
 use crate::measure::ClockSnapshot;
-use crate::units::{hz, ns, pm};
-
-/// A frequency with its uncertainty (when known) in one unit.
-fn hz_pm(f_hz: f64, u_hz: Option<f64>) -> String {
-    u_hz.map_or(hz(f_hz).to_string(), |u| pm(f_hz, u, "Hz"))
-}
+use crate::units::{hz, ns};
 
 use super::judge::{Against, Sign, Verdict};
 use super::types::{Basis, Margin};
@@ -125,10 +120,12 @@ fn where_sentence(m: &Margin, c: &ClockSnapshot) -> String {
     };
     let at = |what: &str| {
         format!(
-            "The clock moved{range}, so whole-window frequency, jitter and TIE describe a spread, not one clock; judged at {what}, {:.3}–{:.3} s: {} at {:.1} % duty.",
+            "The clock moved{range}, so whole-window frequency, jitter and TIE describe a spread, not one clock; judged at {what}, {:.3}–{:.3} s: {}{} at {:.1} % duty.",
             m.judged.from_s,
             m.judged.to_s,
-            hz_pm(m.operating_hz, m.operating_uncertainty_hz),
+            hz(m.operating_hz),
+            m.operating_uncertainty_hz
+                .map_or(String::new(), |u| format!(" ± {}", hz(u))),
             m.duty * 100.0
         )
     };
@@ -139,8 +136,10 @@ fn where_sentence(m: &Margin, c: &ClockSnapshot) -> String {
             "The clock moved{range}, but no interval gives figures of its own: judged over the whole window, whose worst cycles may come from different frequencies."
         ),
         Basis::Session => format!(
-            "Judged over the whole window: a steady clock at {}, {:.1} % duty{}.",
-            hz_pm(m.operating_hz, m.operating_uncertainty_hz),
+            "Judged over the whole window: a steady clock at {}{}, {:.1} % duty{}.",
+            hz(m.operating_hz),
+            m.operating_uncertainty_hz
+                .map_or(String::new(), |u| format!(" ± {}", hz(u))),
             m.duty * 100.0,
             if c.count_windows > 0 && c.cycles == 0 {
                 " (counted)"
@@ -193,8 +192,9 @@ pub(super) fn paragraph(m: &Margin, c: &ClockSnapshot) -> String {
     if m.moving || m.judged.basis != Basis::Session {
         out.push(match (m.highest_clean_hz, m.highest_clean_uncertainty_hz) {
             (Some(f), u) => format!(
-                "The highest frequency that ran clean (no problem, every slack positive) was {}{}.",
-                hz_pm(f, u),
+                "The highest frequency that ran clean (no problem, every slack positive) was {}{}{}.",
+                hz(f),
+                u.map_or(String::new(), |u| format!(" ± {}", hz(u))),
                 m.highest_clean_at_s
                     .map_or(String::new(), |t| format!(" at {t:.3} s"))
             ),
@@ -204,9 +204,10 @@ pub(super) fn paragraph(m: &Margin, c: &ClockSnapshot) -> String {
     if let Some(f) = &m.failure {
         let o = &f.onset;
         out.push(format!(
-            "Measured failure onset ({}) {}{}: from the operating point {} that is {} headroom.",
+            "Measured failure onset ({}) {} ± {}{}: from the operating point {} that is {} headroom.",
             o.cause,
-            pm(o.frequency_hz, o.frequency_uncertainty_hz, "Hz"),
+            hz(o.frequency_hz),
+            hz(o.frequency_uncertainty_hz),
             o.rail.as_ref().map_or(String::new(), |(n, mv)| format!(
                 " at {n} {:.3} V",
                 mv / 1000.0
