@@ -329,7 +329,8 @@ fn settings_reach_the_probe_through_the_pty() {
         &["--set", "0:edge-mode=timestamps", "--set", "probe:gate=5"],
     );
     assert!(
-        err.contains("probe refused") && err.contains("param 3 = 5"),
+        err.contains("probe refused the setting gate=5 on the whole probe")
+            && err.contains("value not accepted"),
         "{err}"
     );
     let j = report_json(&rec, &[]);

@@ -6,6 +6,8 @@ fn slackmeter(args: &[&str]) -> (i32, String, String) {
     let out = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
         .args(args)
         .env("NO_COLOR", "1")
+        // rows are checked whole here; wrapping at 100 columns is tested in cli_behaviour.rs
+        .env("COLUMNS", "1000")
         .output()
         .expect("binary runs");
     (

@@ -58,7 +58,7 @@ fn handshake_configure_stream_and_reconnect_over_a_pty() {
     let mut sim = spawn_sim(&path);
     let mut cfg = LinkConfig::new(&path);
     cfg.retry_every = Duration::from_millis(100);
-    cfg.configure = vec![
+    cfg.configure = [
         Configure {
             channel: params::PROBE,
             param: params::STATUS_INTERVAL_MS,
@@ -69,7 +69,9 @@ fn handshake_configure_stream_and_reconnect_over_a_pty() {
             param: params::ENABLE,
             value: 1,
         }, // no such channel: refused
-    ];
+    ]
+    .map(Into::into)
+    .to_vec();
     let mut link = Link::start(cfg, 1024);
 
     let mut decoder = StreamDecoder::new();

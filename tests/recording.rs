@@ -285,7 +285,7 @@ fn record_refuses_a_missing_port_and_an_existing_file() {
         .expect("run");
     let err = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{err}");
-    assert!(err.contains("already exists"), "{err}");
+    assert!(err.contains("exists") && err.contains("--force"), "{err}");
     assert_eq!(std::fs::read(&out_path).expect("read"), b"precious");
     let _ = std::fs::remove_file(&out_path);
 }

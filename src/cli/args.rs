@@ -4,7 +4,8 @@
 
 use std::path::PathBuf;
 
-use firmware_protocol::{Configure, params};
+use crate::link::{Setting, SettingChannel};
+use firmware_protocol::params;
 
 use miette::miette;
 
@@ -190,9 +191,10 @@ const SETTINGS: [(&str, u8); 8] = [
     ("status-interval", params::STATUS_INTERVAL_MS),
 ];
 
-/// `CHANNEL:NAME=VALUE` (channel a number or `probe`) into a CONFIGURE command.
-pub fn probe_setting(s: &str) -> Parsed<Configure> {
-    let form = "write CHANNEL:NAME=VALUE, e.g. 0:edge-mode=timestamps or 8:cal-scale=6622417";
+/// `CHANNEL:NAME=VALUE` (channel a number, a label from the probe's HELLO such as `CLK`, or
+/// `probe`) into a setting the link sends as a CONFIGURE.
+pub fn probe_setting(s: &str) -> Parsed<Setting> {
+    let form = "write CHANNEL:NAME=VALUE, e.g. CLK:edge-mode=timestamps, 0:edge-mode=count or 8:cal-scale=6622417";
     let (ch, rest) = s
         .split_once(':')
         .ok_or(format!("no ':' in {s:?}: {form}"))?;
@@ -200,10 +202,17 @@ pub fn probe_setting(s: &str) -> Parsed<Configure> {
         .split_once('=')
         .ok_or(format!("no '=' in {s:?}: {form}"))?;
     let channel = match ch.trim() {
-        "probe" => params::PROBE,
-        c => c
-            .parse::<u8>()
-            .map_err(|_| format!("channel {c:?} is not a channel id (0…254) or `probe`: {form}"))?,
+        "probe" => SettingChannel::Id(params::PROBE),
+        "" => return Err(format!("no channel before ':' in {s:?}: {form}")),
+        c if c.starts_with(|x: char| x.is_ascii_digit()) => SettingChannel::Id(
+            c.parse::<u8>()
+                .ok()
+                .filter(|&id| id != params::PROBE)
+                .ok_or(format!(
+                    "channel {c:?} is not a channel id (0…254), a channel label or `probe`: {form}"
+                ))?,
+        ),
+        label => SettingChannel::Label(label.to_string()),
     };
     let names = SETTINGS.map(|(n, _)| n).join(", ");
     let param = SETTINGS
@@ -235,10 +244,11 @@ pub fn probe_setting(s: &str) -> Parsed<Configure> {
             format!("{v:?} is not a value for {n}{hint}")
         })?,
     };
-    Ok(Configure {
+    Ok(Setting {
         channel,
         param,
         value,
+        words: format!("{}={v}", name.trim()),
     })
 }
 
@@ -248,11 +258,12 @@ pub struct PortArgs {
     /// Baud rate of the port (pseudo-terminals and USB-CDC ignore it).
     #[arg(long, default_value_t = 1_000_000)]
     pub baud: u32,
-    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable): enable,
-    /// edge-mode (timestamps, count, both), gate and sample-interval (probe ticks),
-    /// duty-samples, cal-scale, cal-offset (µV), status-interval (ms); channel `probe` for all.
+    /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; CHANNEL an
+    /// id, a label such as CLK, or `probe` for all): enable, edge-mode (timestamps, count,
+    /// both), gate and sample-interval (probe ticks), duty-samples, cal-scale, cal-offset (µV),
+    /// status-interval (ms).
     #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = probe_setting)]
-    pub settings: Vec<Configure>,
+    pub settings: Vec<Setting>,
 }
 
 impl PortArgs {
@@ -274,10 +285,10 @@ pub struct ProbeArgs {
     #[arg(long, conflicts_with = "settings")]
     pub sim: bool,
     /// The virtual probe's settings (with --sim).
-    #[command(flatten)]
+    #[command(flatten, next_help_heading = "Virtual probe (only with --sim)")]
     pub model: SimModelArgs,
     /// A real probe's port options.
-    #[command(flatten)]
+    #[command(flatten, next_help_heading = "Probe on a port (only with PORT)")]
     pub port_options: PortArgs,
 }
 
@@ -392,11 +403,25 @@ mod tests {
     #[test]
     fn settings_parse_by_name_and_value() {
         let c = probe_setting("0:edge-mode=timestamps").unwrap();
-        assert_eq!((c.channel, c.param, c.value), (0, params::EDGE_MODE, 0));
+        assert_eq!(
+            (c.channel, c.param, c.value),
+            (SettingChannel::Id(0), params::EDGE_MODE, 0)
+        );
+        assert_eq!(c.words, "edge-mode=timestamps");
         let c = probe_setting("probe:gate=800000").unwrap();
         assert_eq!(
             (c.channel, c.param, c.value),
-            (params::PROBE, params::GATE_TICKS, 800_000)
+            (
+                SettingChannel::Id(params::PROBE),
+                params::GATE_TICKS,
+                800_000
+            )
+        );
+        // a label from the probe's self-description, resolved when the probe answers
+        let c = probe_setting("CLK:edge-mode=count").unwrap();
+        assert_eq!(
+            (c.channel, c.param, c.value),
+            (SettingChannel::Label("CLK".into()), params::EDGE_MODE, 1)
         );
         let c = probe_setting("9:cal-offset=-1500").unwrap();
         assert_eq!((c.param, c.value as i32), (params::CAL_OFFSET_UV, -1500));
@@ -409,7 +434,9 @@ mod tests {
         for (s, want) in [
             ("0edge-mode=1", "no ':'"),
             ("0:edge-mode", "no '='"),
-            ("x:gate=1", "not a channel id"),
+            ("9x:gate=1", "not a channel id"),
+            ("255:gate=1", "not a channel id"),
+            (":gate=1", "no channel"),
             ("0:speed=1", "the settings are: enable, edge-mode"),
             ("0:gate=1ms", "in the probe's ticks"),
             ("0:edge-mode=fast", "timestamps, count or both"),

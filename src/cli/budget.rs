@@ -104,13 +104,14 @@ fn operating_point(a: &BudgetArgs, design: &Design) -> CliResult<OperatingPoint>
     Ok(op)
 }
 
-/// Print to standard output (a closed pipe is a runtime failure, not a panic).
+/// Print JSON or text to standard output (text wrapped to the terminal, or 100 columns); a
+/// closed pipe ends quietly.
 fn emit(text: &str) -> CliResult<()> {
-    use std::io::Write;
-    std::io::stdout()
-        .lock()
-        .write_all(text.as_bytes())
-        .map_err(CliError::io("standard output"))
+    if text.starts_with(['{', '[']) {
+        super::output::text(text)
+    } else {
+        super::output::report_text(text)
+    }
 }
 
 /// The design given, else the one embedded in the recording, else the demo; with its name.

@@ -27,6 +27,8 @@ pub enum Kind {
     Input,
     /// The device, the link or the system failed.
     Runtime,
+    /// Whoever read standard output stopped reading (`| head`): the command ends quietly.
+    Closed,
 }
 
 /// A command's failure: the message for the user and its kind.
@@ -67,10 +69,42 @@ impl CliError {
         }
     }
 
-    /// A failed I/O step on `what` (a file, standard output): a runtime failure.
-    pub fn io(what: impl std::fmt::Display) -> impl FnOnce(std::io::Error) -> CliError {
-        move |e| CliError::runtime(miette::miette!("cannot write {what}: {e}"))
+    /// The reader of standard output went away: no message, exit 0.
+    pub fn closed() -> CliError {
+        CliError {
+            kind: Kind::Closed,
+            report: miette::miette!("standard output was closed"),
+        }
     }
+
+    /// A failed I/O step on `what` (a file, standard output): a runtime failure, or the quiet
+    /// end when a pipe's reader stopped reading.
+    pub fn io(what: impl std::fmt::Display) -> impl FnOnce(std::io::Error) -> CliError {
+        move |e| {
+            if e.kind() == std::io::ErrorKind::BrokenPipe {
+                CliError::closed()
+            } else {
+                CliError::runtime(miette::miette!("cannot write {what}: {}", io_words(&e)))
+            }
+        }
+    }
+}
+
+/// An OS error in words a user can act on, with the fix where there is one.
+pub fn io_words(e: &std::io::Error) -> String {
+    let fix = match e.raw_os_error() {
+        Some(libc::ENOTTY) => "not a serial device",
+        Some(libc::EACCES) | Some(libc::EPERM) => {
+            "permission denied (serial devices belong to the `dialout` group: `sudo usermod -aG dialout $USER`, then log in again)"
+        }
+        Some(libc::ENOENT) => "no such file or device",
+        Some(libc::EBUSY) => "in use by another program (close it, or check `fuser DEVICE`)",
+        Some(libc::ENOSPC) => "the disk is full",
+        Some(libc::EROFS) => "the file system is read-only",
+        Some(libc::EISDIR) => "it is a folder",
+        _ => return e.to_string(),
+    };
+    fix.to_string()
 }
 
 /// The exit code of a command's result: the one place codes are chosen.
@@ -81,6 +115,7 @@ pub fn exit_code(r: &CliResult<Outcome>) -> i32 {
         Err(e) => match e.kind {
             Kind::Input => EXIT_INPUT,
             Kind::Runtime => EXIT_RUNTIME,
+            Kind::Closed => EXIT_OK,
         },
     }
 }
@@ -154,6 +189,9 @@ impl From<LibraryError> for CliError {
 
 impl From<serde_json::Error> for CliError {
     fn from(e: serde_json::Error) -> CliError {
+        if e.io_error_kind() == Some(std::io::ErrorKind::BrokenPipe) {
+            return CliError::closed();
+        }
         CliError::runtime(miette::miette!("cannot write JSON: {e}"))
     }
 }
@@ -161,6 +199,24 @@ impl From<serde_json::Error> for CliError {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // errno meanings: POSIX.1-2017 <errno.h>; the fixes are the project's own
+    #[test]
+    fn os_errors_read_as_words_with_a_fix() {
+        let words = |n| io_words(&std::io::Error::from_raw_os_error(n));
+        assert_eq!(words(libc::ENOTTY), "not a serial device");
+        assert!(words(libc::EACCES).contains("dialout"));
+        assert!(words(libc::ENOENT).contains("no such"));
+        assert!(words(libc::EBUSY).contains("in use"));
+        assert!(!words(libc::ENOTTY).contains("typewriter"));
+    }
+
+    #[test]
+    fn a_closed_pipe_is_a_quiet_exit_0() {
+        let e = CliError::io("standard output")(std::io::ErrorKind::BrokenPipe.into());
+        assert_eq!(e.kind, Kind::Closed);
+        assert_eq!(exit_code(&Err(e)), 0);
+    }
 
     #[test]
     fn each_kind_has_its_code() {

@@ -14,15 +14,15 @@ use crate::record::Recording;
 pub struct ExportArgs {
     /// The recording.
     pub file: PathBuf,
-    /// Write a value change dump (IEEE 1364 VCD) here.
+    /// Write a value change dump (IEEE 1364 VCD) here (`-` for standard output).
     #[arg(long, value_name = "OUT")]
     pub vcd: Option<PathBuf>,
-    /// Write a CSV here (time_s, channel, label, kind, value).
+    /// Write a CSV here (time_s, channel, label, kind, value; `-` for standard output).
     #[arg(long, value_name = "OUT")]
     pub csv: Option<PathBuf>,
-    /// Write over output files that exist (never over the recording itself).
-    #[arg(long)]
-    pub replace: bool,
+    /// Overwriting.
+    #[command(flatten)]
+    pub force: output::ForceArgs,
 }
 
 /// `slackmeter export`.
@@ -42,7 +42,13 @@ pub fn run(a: ExportArgs) -> CliResult<Outcome> {
         )));
     }
     let inputs = [a.file.as_path()];
-    let create = |p: &Path| output::create(p, &inputs, a.replace).map(std::io::BufWriter::new);
+    let create =
+        |p: &Path| output::create_or_stdout(p, &inputs, a.force.force).map(std::io::BufWriter::new);
+    let wrote = |p: &Path, what: String| {
+        if !output::is_stdout(p) {
+            eprintln!("wrote {} ({what})", p.display());
+        }
+    };
     let mut rec = Recording::open(&a.file)?;
     let s = export::collect(&mut rec)?;
     if s.signals.is_empty() {
@@ -53,12 +59,19 @@ pub fn run(a: ExportArgs) -> CliResult<Outcome> {
     }
     if let Some(p) = &a.vcd {
         export::write_vcd(&s, create(p)?).map_err(CliError::io(p.display()))?;
-        eprintln!("wrote {} ({} events)", p.display(), s.events.len());
+        wrote(p, format!("{} events", s.events.len()));
     }
     if let Some(p) = &a.csv {
-        export::write_csv(&s, create(p)?)
-            .map_err(|e| CliError::runtime(miette!("cannot write {}: {e}", p.display())))?;
-        eprintln!("wrote {} ({} rows)", p.display(), s.events.len());
+        export::write_csv(&s, create(p)?).map_err(|e| closed_or(e, p))?;
+        wrote(p, format!("{} rows", s.events.len()));
     }
     Ok(Outcome::Done)
+}
+
+/// A CSV writer's failure: the quiet end when standard output's reader went away.
+fn closed_or(e: csv::Error, p: &Path) -> CliError {
+    match e.into_kind() {
+        csv::ErrorKind::Io(io) => CliError::io(p.display())(io),
+        other => CliError::runtime(miette!("cannot write {}: {other:?}", p.display())),
+    }
 }

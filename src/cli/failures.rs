@@ -1,6 +1,7 @@
 //! `slackmeter failures`: the measured failure onsets of several sweeps (one per supply) beside
 //! the budget's f_max at each supply: the measured f_fail(VCC) curve.
 
+use super::output::outln;
 use std::path::PathBuf;
 
 use miette::miette;
@@ -58,26 +59,23 @@ fn fmax_at(d: &Design, lib: &Library, vcc_v: f64, o: &FaultOnset, corner: Corner
     )
 }
 
-fn print_table(rows: &[FailureRow]) {
-    println!(
-        "{:>9} {:>26} {:>12} {:>12} {:>9}  file",
+fn print_table(rows: &[FailureRow]) -> CliResult<()> {
+    let mut text = format!(
+        "{:>9} {:>26} {:>12} {:>12} {:>9}  file\n",
         "supply", "failure onset", "f_max worst", "f_max typ", "vs typ"
     );
     for r in rows {
-        println!(
-            "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}",
+        text.push_str(&format!(
+            "{:>7.3} V {:>26} {:>12} {:>12} {:>+8.1} %  {}\n",
             r.vcc_v,
-            format!(
-                "{} ± {}",
-                units::hz(r.fail_onset_hz),
-                units::hz(r.fail_onset_uncertainty_hz)
-            ),
+            crate::report::table::pm(r.fail_onset_hz, r.fail_onset_uncertainty_hz, "Hz"),
             units::hz(r.fmax_worst_case_hz).to_string(),
             units::hz(r.fmax_typical_hz).to_string(),
             100.0 * (r.fail_onset_hz / r.fmax_typical_hz - 1.0),
             r.file
-        );
+        ));
     }
+    super::output::report_text(&text)
 }
 
 /// `slackmeter failures`.
@@ -132,9 +130,9 @@ pub fn run(a: FailuresArgs) -> CliResult<Outcome> {
     }
     rows.sort_by(|x, y| x.vcc_v.total_cmp(&y.vcc_v));
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&rows)?);
+        outln!("{}", serde_json::to_string_pretty(&rows)?);
     } else {
-        print_table(&rows);
+        print_table(&rows)?;
     }
     if let (Some(dir), Some(d)) = (&a.plots, &design) {
         std::fs::create_dir_all(dir)

@@ -1,6 +1,7 @@
 //! `slackmeter listen PORT`: handshake, the probe's self-description, then a running count of
 //! what it sends with the recent window's figures.
 
+use super::output::{Progress, count, outln};
 use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
@@ -28,8 +29,8 @@ pub struct ListenArgs {
     pub no_reconnect: bool,
 }
 
-fn print_probe(probe: &ProbeDesc) {
-    println!(
+fn print_probe(probe: &ProbeDesc) -> CliResult<()> {
+    outln!(
         "connected: {} (protocol {}), tick {} ({}/{} Hz), {} channels:",
         probe.firmware,
         probe.protocol_version,
@@ -39,15 +40,17 @@ fn print_probe(probe: &ProbeDesc) {
         probe.channels.len()
     );
     for c in &probe.channels {
-        println!("  {:>3} {:<6} {}", c.id, c.kind, c.label);
+        outln!("  {:>3} {:<6} {}", c.id, c.kind, c.label);
     }
+    Ok(())
 }
 
 /// The running count: the link's state, the counters, and the recent window's figures.
-fn progress(s: &Session, state: &str, reconnects: u32) -> String {
+fn progress(s: &Session, state: &str, reconnects: u32, p: &mut Progress) -> String {
     let c = s.counters();
     let t = s.tally();
     let secs = s.elapsed_s();
+    let (bytes_per_s, _) = p.rates(secs, t.bytes, c.frames);
     let snap = s.engine().map(|e| e.snapshot(Window::Recent));
     let clock = snap
         .as_ref()
@@ -72,14 +75,14 @@ fn progress(s: &Session, state: &str, reconnects: u32) -> String {
             format!(", lowest rail {n} {:.3} V", mv / 1000.0)
         });
     format!(
-        "\r{state}: {:.0} s, {} frames, {:.2} MB/s, {} edges, lost {} frames, {} CRC errors, {} reconnects{clock}{rail}   ",
+        "{state}: {:.0} s, {} frames, {:.2} MB/s, {} edges, lost {}, {}, {}{clock}{rail}",
         secs,
         c.frames,
-        t.bytes as f64 / 1e6 / secs.max(1e-9),
+        bytes_per_s / 1e6,
         t.edges,
-        c.lost_frames,
-        c.crc_errors,
-        reconnects
+        count(c.lost_frames, "frame"),
+        count(c.crc_errors, "CRC error"),
+        count(reconnects, "reconnect")
     )
 }
 
@@ -92,7 +95,7 @@ pub fn run(a: ListenArgs) -> CliResult<Outcome> {
     let mut s = Session::start(SourceSpec::Port(cfg), header, Some(EngineConfig::default()))?;
     let deadline = a.duration.map(|ns| Duration::from_nanos(ns as u64));
     let started = Instant::now();
-    let mut last_print = Instant::now();
+    let mut bar = Progress::new(Duration::from_millis(500));
     let mut reconnects = 0;
     let mut state = "connecting".to_string();
     loop {
@@ -106,11 +109,12 @@ pub fn run(a: ListenArgs) -> CliResult<Outcome> {
             }) => {
                 reconnects = r;
                 state = "streaming".into();
-                eprintln!();
-                print_probe(&probe);
+                bar.break_line();
+                print_probe(&probe)?;
             }
             Next::Event(Event::Lost { reason }) => {
-                eprintln!("\nlink lost: {reason}; waiting for the device to return");
+                bar.break_line();
+                eprintln!("link lost: {reason}; waiting for the device to return");
                 state = format!("lost: {reason}");
             }
             Next::Event(Event::Retrying { retry_in, .. }) => {
@@ -119,33 +123,34 @@ pub fn run(a: ListenArgs) -> CliResult<Outcome> {
                 }
             }
             Next::Event(Event::Refused { what, reason }) => {
-                eprintln!("\nprobe refused {what}: {reason}")
+                bar.break_line();
+                eprintln!("probe refused {what}: {reason}")
             }
             Next::Event(Event::Failed(e)) => {
-                eprintln!();
+                bar.break_line();
                 return Err(e.into());
             }
             Next::Ended => break,
             Next::Event(_) | Next::Idle => {}
         }
-        if last_print.elapsed() >= Duration::from_millis(500) {
-            last_print = Instant::now();
-            eprint!("{}", progress(&s, &state, reconnects));
+        if bar.due() {
+            let line = progress(&s, &state, reconnects, &mut bar);
+            bar.show(&line);
         }
     }
-    eprintln!();
+    bar.break_line();
     let c = s.counters();
     let t = s.tally();
-    println!(
-        "received {} frames ({} bytes): {} edges, {} line events, {} samples; {} lost frames, {} CRC errors, {} reconnects",
+    outln!(
+        "received {} frames ({} bytes): {} edges, {} line events, {} samples; {} lost, {}, {}",
         c.frames,
         t.bytes,
         t.edges,
         t.line_events,
         t.samples,
-        c.lost_frames,
-        c.crc_errors,
-        reconnects
+        count(c.lost_frames, "frame"),
+        count(c.crc_errors, "CRC error"),
+        count(reconnects, "reconnect")
     );
     Ok(Outcome::Done)
 }

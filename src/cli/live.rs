@@ -4,22 +4,45 @@
 use std::path::PathBuf;
 
 use super::design::embedded;
-use super::error::{CliResult, Outcome};
+use super::error::{CliError, CliResult, Outcome};
 use crate::budget::{Design, Library};
 use crate::measure::EngineConfig;
 use crate::session::{self, Session, SourceSpec};
 use crate::tui::run::{Options, run};
 
-/// Start `source` (shown as `what`) and run the live view on it until quit.
+/// Refuse to start the view when standard input or output is no terminal (a pipe, a service,
+/// a CI job): the message names `alternatives`, the commands that work without one.
+fn need_terminal(alternatives: &str) -> CliResult<()> {
+    use std::io::IsTerminal;
+    let which = match (
+        std::io::stdin().is_terminal(),
+        std::io::stdout().is_terminal(),
+    ) {
+        (true, true) => return Ok(()),
+        (false, true) => "standard input is",
+        (true, false) => "standard output is",
+        (false, false) => "standard input and output are",
+    };
+    Err(CliError::input(miette::miette!(
+        help = format!("run it in a terminal, or use {alternatives}"),
+        "the live view needs a terminal, and {which} not one"
+    )))
+}
+
+/// Start `source` (shown as `what`) and run the live view on it until quit; without a terminal
+/// the message names `alternatives`.
 pub fn show(
     source: SourceSpec,
     what: String,
     design: Option<Design>,
     library: Library,
     record: Option<PathBuf>,
+    alternatives: &str,
 ) -> CliResult<Outcome> {
     let header = session::header(what, vec![], design.as_ref().map(embedded), None);
     let session = Session::start(source, header, Some(EngineConfig::default()))?;
+    // after the start, so a missing port or file is still named first
+    need_terminal(alternatives)?;
     run(Options {
         session,
         design,

@@ -32,7 +32,8 @@ use self::error::{CliError, CliResult, Outcome, exit_code};
 #[derive(Parser, Debug)]
 #[command(name = "slackmeter", version, about, long_about = None)]
 #[command(
-    after_help = "Exit codes: 0 fine, 1 runtime failure (I/O, device), 2 bad command line or \
+    after_help = "try: slackmeter watch --sim   (the live view on the virtual probe, no hardware needed)\n\n\
+Exit codes: 0 fine, 1 runtime failure (I/O, device), 2 bad command line or \
 input file, 3 the clock does not fit the budget."
 )]
 pub struct Cli {
@@ -131,10 +132,77 @@ pub fn run_with(args: impl IntoIterator<Item = impl Into<OsString> + Clone>) -> 
             return exit_code(&parsed);
         }
     };
-    if let Err(e) = &result {
-        eprintln!("{:?}", e.report);
+    if let Err(e) = &result
+        && e.kind != error::Kind::Closed
+    {
+        eprintln!("{}", message(e.report.as_ref()));
     }
     exit_code(&result)
+}
+
+/// An error as the user reads it: what happened first, then how to fix it; the library's
+/// diagnostic codes (`slackmeter::link::…`) are for programs and are not printed.
+pub fn message(d: &(dyn miette::Diagnostic + Send + Sync + 'static)) -> String {
+    use miette::ReportHandler;
+    struct Shown<'a>(&'a dyn miette::Diagnostic, miette::MietteHandler);
+    impl std::fmt::Display for Shown<'_> {
+        fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+            self.1.debug(&Uncoded(self.0), f)
+        }
+    }
+    // errors wrap at the terminal's width; into a pipe or a log they stay one line per
+    // sentence, so a long path does not break a message in the middle
+    let wrap = std::io::IsTerminal::is_terminal(&std::io::stderr());
+    let handler = miette::MietteHandlerOpts::new().wrap_lines(wrap).build();
+    Shown(d, handler)
+        .to_string()
+        .trim_start_matches('\n')
+        .to_string()
+}
+
+/// A diagnostic without its code: everything else as it is.
+struct Uncoded<'a>(&'a dyn miette::Diagnostic);
+
+impl std::fmt::Debug for Uncoded<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        std::fmt::Debug::fmt(self.0, f)
+    }
+}
+
+impl std::fmt::Display for Uncoded<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        std::fmt::Display::fmt(self.0, f)
+    }
+}
+
+impl std::error::Error for Uncoded<'_> {
+    fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
+        self.0.source()
+    }
+}
+
+impl miette::Diagnostic for Uncoded<'_> {
+    fn severity(&self) -> Option<miette::Severity> {
+        self.0.severity()
+    }
+    fn help<'a>(&'a self) -> Option<Box<dyn std::fmt::Display + 'a>> {
+        self.0.help()
+    }
+    fn url<'a>(&'a self) -> Option<Box<dyn std::fmt::Display + 'a>> {
+        self.0.url()
+    }
+    fn source_code(&self) -> Option<&dyn miette::SourceCode> {
+        self.0.source_code()
+    }
+    fn labels(&self) -> Option<Box<dyn Iterator<Item = miette::LabeledSpan> + '_>> {
+        self.0.labels()
+    }
+    fn related<'a>(&'a self) -> Option<Box<dyn Iterator<Item = &'a dyn miette::Diagnostic> + 'a>> {
+        self.0.related()
+    }
+    fn diagnostic_source(&self) -> Option<&dyn miette::Diagnostic> {
+        self.0.diagnostic_source()
+    }
 }
 
 /// The program: this process's arguments; the exit code.

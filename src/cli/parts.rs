@@ -1,5 +1,6 @@
 //! `slackmeter parts`: the part library with each part's source and status.
 
+use super::output::outln;
 use miette::miette;
 
 use super::args::LibraryArgs;
@@ -39,9 +40,9 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
         };
         let sheet = crate::budget::library::sheet::sheet(&lib, i);
         if a.json {
-            println!("{}", serde_json::to_string_pretty(&sheet)?);
+            outln!("{}", serde_json::to_string_pretty(&sheet)?);
         } else {
-            print!("{}", crate::report::budget::render_part(&sheet));
+            super::output::report_text(&crate::report::budget::render_part(&sheet))?;
         }
         return Ok(Outcome::Done);
     }
@@ -79,11 +80,11 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
                 })
             })
             .collect();
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        outln!("{}", serde_json::to_string_pretty(&doc)?);
         return Ok(Outcome::Done);
     }
-    println!(
-        "{:<15} {:<7} {:<12} arcs — function — source",
+    let mut text = format!(
+        "{:<15} {:<7} {:<12} arcs — function — source\n",
         "type", "family", "status"
     );
     for p in parts {
@@ -96,18 +97,19 @@ pub fn run(a: PartsArgs) -> CliResult<Outcome> {
             })
             .collect();
         let status = p.status.words();
-        println!(
-            "{:<15} {:<7} {:<12} {} — {} — {}",
+        text.push_str(&format!(
+            "{:<15} {:<7} {:<12} {} — {} — {}\n",
             p.type_name,
             lib.families[p.family].name,
             status,
             arcs.join(", "),
             p.function,
             p.source
-        );
+        ));
     }
     for n in &lib.notes {
-        println!("note: {n}");
+        text.push_str(&format!("note: {n}\n"));
     }
+    super::output::report_text(&text)?;
     Ok(Outcome::Done)
 }

@@ -1,7 +1,6 @@
 //! `slackmeter record`: a probe (or the virtual probe) into a recording, headless, with a
 //! progress line.
 
-use std::io::IsTerminal;
 use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
@@ -11,6 +10,7 @@ use super::args::{self, ProbeArgs};
 use super::design::{DesignArgs, embedded};
 use super::error::{CliError, CliResult, Outcome};
 use super::model::build_model;
+use super::output::{Progress, count};
 use super::signal::{interrupt_flag, interrupted};
 use crate::record::{Header, RecCounts};
 use crate::session::{self, Event, Next, Pace, Session, SimSpec, SourceSpec};
@@ -24,9 +24,12 @@ pub struct RecordArgs {
     /// The design the recording stores (and --fault-on-typ fails by).
     #[command(flatten)]
     pub design: DesignArgs,
-    /// The recording to write (refuses to overwrite), e.g. run.smrec.
+    /// The recording to write, e.g. run.smrec (an existing file only with --force).
     #[arg(short = 'o', long, value_name = "FILE")]
     pub output: PathBuf,
+    /// Overwriting.
+    #[command(flatten)]
+    pub force: super::output::ForceArgs,
     /// Stop after this long, e.g. 30s (otherwise at Ctrl-C).
     #[arg(long, value_parser = args::pos_time)]
     pub duration: Option<f64>,
@@ -39,17 +42,26 @@ pub struct RecordArgs {
     pub fast: bool,
 }
 
-fn progress_line(path: &str, s: &Session, rec: RecCounts) -> String {
+/// The progress line: rates over the recent window, or with `p` None over the whole run (the
+/// last line).
+fn progress_line(path: &str, s: &Session, rec: RecCounts, p: Option<&mut Progress>) -> String {
     let c = s.counters();
     let secs = s.elapsed_s();
+    let (bytes_per_s, frames_per_s) = match p {
+        Some(p) => p.rates(secs, rec.data_bytes, c.frames),
+        None => (
+            rec.data_bytes as f64 / secs.max(1e-9),
+            c.frames as f64 / secs.max(1e-9),
+        ),
+    };
     format!(
-        "\rrecording {path}: {secs:.1} s, {:.2} MB ({:.0} kB/s), {} frames ({:.0}/s), {} lost, {} CRC errors, backlog {} kB{}   ",
+        "recording {path}: {secs:.1} s, {:.2} MB ({:.0} kB/s), {} frames ({:.0}/s), {} lost, {}, backlog {} kB{}",
         rec.file_bytes as f64 / 1e6,
-        rec.data_bytes as f64 / 1e3 / secs.max(1e-9),
+        bytes_per_s / 1e3,
         c.frames,
-        c.frames as f64 / secs.max(1e-9),
+        frames_per_s,
         c.lost_frames,
-        c.crc_errors,
+        count(c.crc_errors, "CRC error"),
         rec.backlog / 1000,
         if rec.dropped > 0 {
             format!(", RECORDER DROPPED {} bytes", rec.dropped)
@@ -97,10 +109,13 @@ pub fn run(a: RecordArgs) -> CliResult<Outcome> {
             "--fast needs --duration"
         )));
     }
+    let design_file = a.design.design.clone();
+    let inputs: Vec<&std::path::Path> = design_file.iter().map(|p| p.as_path()).collect();
+    super::output::clear_for(&a.output, &inputs, a.force.force)?;
     interrupt_flag();
     let (spec, header) = source(&a)?;
     let path = a.output.display().to_string();
-    let show = std::io::stderr().is_terminal() || std::env::var_os("SLACKMETER_PROGRESS").is_some();
+    let mut progress = Progress::new(Duration::from_secs(1));
     let mut s = Session::start(spec, header, None)?;
     s.start_recording(&a.output)?;
     // a port's duration is wall time; the virtual probe ends itself after its duration
@@ -108,16 +123,18 @@ pub fn run(a: RecordArgs) -> CliResult<Outcome> {
         .duration
         .filter(|_| !sim)
         .map(|ns| Instant::now() + Duration::from_nanos(ns as u64));
-    let mut last_print = Instant::now();
     while !interrupted() && deadline.is_none_or(|d| Instant::now() < d) {
         match s.next_within(Duration::from_millis(20)) {
             Next::Event(Event::Lost { reason }) => {
-                eprintln!("\nlink lost: {reason}; recording goes on when it returns")
+                progress.break_line();
+                eprintln!("link lost: {reason}; recording goes on when it returns")
             }
             Next::Event(Event::Refused { what, reason }) => {
-                eprintln!("\nprobe refused {what}: {reason}")
+                progress.break_line();
+                eprintln!("probe refused {what}: {reason}")
             }
             Next::Event(Event::Failed(e)) => {
+                progress.break_line();
                 // a file that holds only its header (the probe never answered) is not kept
                 if let Some(Ok((p, c))) = s.stop_recording()
                     && c.data_bytes == 0
@@ -128,7 +145,7 @@ pub fn run(a: RecordArgs) -> CliResult<Outcome> {
                 return Err(e.into());
             }
             Next::Event(Event::RecordingFailed(e)) => {
-                eprintln!();
+                progress.break_line();
                 return Err(CliError::runtime(miette!(
                     help = "the file holds what was written before the failure; free space or choose another place with -o",
                     "recording stopped: {e}"
@@ -137,19 +154,17 @@ pub fn run(a: RecordArgs) -> CliResult<Outcome> {
             Next::Event(Event::End) | Next::Ended => break,
             Next::Event(_) | Next::Idle => {}
         }
-        if show && last_print.elapsed() >= Duration::from_secs(1) {
-            last_print = Instant::now();
-            if let Some((_, c)) = s.recording() {
-                eprint!("{}", progress_line(&path, &s, c));
-            }
+        if progress.due()
+            && let Some((_, c)) = s.recording()
+        {
+            let line = progress_line(&path, &s, c, Some(&mut progress));
+            progress.show(&line);
         }
     }
     match s.stop_recording() {
         Some(Ok((_, counts))) => {
-            eprintln!(
-                "{}",
-                progress_line(&path, &s, counts).trim_start_matches('\r')
-            );
+            let line = progress_line(&path, &s, counts, None);
+            progress.finish(&line);
             Ok(Outcome::Done)
         }
         Some(Err(e)) => Err(e.into()),

@@ -2,10 +2,8 @@
 
 use std::path::PathBuf;
 
-use miette::miette;
-
 use super::design::DesignArgs;
-use super::error::{CliError, CliResult, Outcome};
+use super::error::{CliResult, Outcome};
 use super::live::show;
 use crate::record::Recording;
 use crate::session::SourceSpec;
@@ -18,18 +16,13 @@ pub struct ReplayArgs {
     /// The design the slack is shown against.
     #[command(flatten)]
     pub design: DesignArgs,
-    /// Speed factor (1 = real time).
-    #[arg(long, default_value_t = 1.0)]
+    /// Speed factor (1 = real time), e.g. 2, 2.0 or 2x.
+    #[arg(long, default_value = "1", value_parser = speed_factor)]
     pub speed: f64,
 }
 
 /// `slackmeter replay`.
 pub fn run(a: ReplayArgs) -> CliResult<Outcome> {
-    if !(a.speed > 0.0 && a.speed.is_finite()) {
-        return Err(CliError::input(miette!(
-            "--speed must be a positive number"
-        )));
-    }
     let library = a.design.library()?;
     let header = Recording::open(&a.file)?.parsed.header;
     let design = a.design.or_embedded(&header, &a.file, &library)?;
@@ -37,5 +30,45 @@ pub fn run(a: ReplayArgs) -> CliResult<Outcome> {
         path: a.file.clone(),
         speed: a.speed,
     };
-    show(spec, a.file.display().to_string(), design, library, None)
+    show(
+        spec,
+        a.file.display().to_string(),
+        design,
+        library,
+        None,
+        "`slackmeter report FILE` (the figures as text) or `slackmeter export`",
+    )
+}
+
+/// A speed factor: a positive number, with or without a trailing `x` (`2`, `2.0`, `2x`, `0.5×`).
+pub fn speed_factor(s: &str) -> Result<f64, String> {
+    let t = s.trim();
+    let t = t.strip_suffix(['x', 'X', '×']).map_or(t, str::trim_end);
+    match t.parse::<f64>() {
+        Ok(v) if v > 0.0 && v.is_finite() => Ok(v),
+        _ => Err(format!(
+            "`{s}` is not a speed: give a positive factor, e.g. 2, 0.5 or 4x"
+        )),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::speed_factor;
+
+    #[test]
+    fn speed_takes_a_trailing_x() {
+        for (s, v) in [
+            ("2", 2.0),
+            ("2.0", 2.0),
+            ("2x", 2.0),
+            ("0.5X", 0.5),
+            ("4 ×", 4.0),
+        ] {
+            assert_eq!(speed_factor(s), Ok(v), "{s}");
+        }
+        for s in ["0", "-1", "x", "fast", "inf", "NaN"] {
+            assert!(speed_factor(s).is_err(), "{s}");
+        }
+    }
 }

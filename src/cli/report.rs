@@ -41,6 +41,9 @@ pub struct ReportArgs {
     /// minima over time; with a design f_max against supply).
     #[arg(long, value_name = "DIR")]
     pub plots: Option<PathBuf>,
+    /// Overwriting (with --plots: a folder that holds files).
+    #[command(flatten)]
+    pub force: super::output::ForceArgs,
     /// The design the clock is judged against.
     #[command(flatten)]
     pub design: DesignArgs,
@@ -184,6 +187,9 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         to_s: a.to,
         speed: None,
     };
+    if let Some(dir) = &a.plots {
+        super::output::check_folder(dir, a.force.force)?;
+    }
     let plots = a.plots.as_ref().map(|_| PlotCollector::new());
     let an = analyse(&a.file, opts, plots)?;
     let file = a.file.display().to_string();
@@ -243,7 +249,8 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         if let Some((m, d)) = judged {
             text.push_str(&report::margin::render(m, &d.name));
         }
-        write!(out, "{text}").map_err(stdout)?;
+        drop(out);
+        super::output::report_text(&text)?;
     }
     if sum.data_bytes == 0 {
         return Err(CliError::input(miette!(

@@ -1,5 +1,6 @@
 //! `slackmeter sim`: the virtual probe on a pseudo-terminal, into a file or to standard output.
 
+use super::output::outln;
 use std::io::Write;
 use std::path::PathBuf;
 use std::time::Instant;
@@ -33,9 +34,9 @@ pub struct SimArgs {
     /// Write the frames straight to a file (as fast as possible).
     #[arg(long, value_name = "FILE")]
     pub out: Option<PathBuf>,
-    /// With --out: write over a file that exists.
-    #[arg(long, requires = "out")]
-    pub replace: bool,
+    /// Overwriting (with --out).
+    #[command(flatten)]
+    pub force: super::output::ForceArgs,
     /// Write the frames to standard output.
     #[arg(long)]
     pub stdout: bool,
@@ -56,6 +57,12 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
             "more than one output given"
         )));
     }
+    if a.stdout {
+        super::output::refuse_binary_terminal(
+            "the probe's frame stream",
+            "send it into a file or a program: `slackmeter sim --stdout > run.bin`, `slackmeter sim --stdout | ...`, or use --out FILE",
+        )?;
+    }
     interrupt_flag();
     let mut probe = SimProbe::new(setup.model, setup.notes);
     if a.out.is_some() || a.stdout {
@@ -74,11 +81,11 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
         ))
     })?;
     let m = probe.model();
-    println!("virtual probe on {}", server.path().display());
+    outln!("virtual probe on {}", server.path().display());
     if a.link.is_some() {
-        println!("  (device {})", server.device_path().display());
+        outln!("  (device {})", server.device_path().display());
     }
-    println!(
+    outln!(
         "  scenario {}: clock {} at {:.1} % duty, tick {}, rails {}",
         a.model.scenario,
         units::hz(m.freq_hz),
@@ -90,7 +97,7 @@ pub fn run(a: SimArgs) -> CliResult<Outcome> {
             .collect::<Vec<_>>()
             .join(", ")
     );
-    println!(
+    outln!(
         "  connect with: slackmeter listen {}    (Ctrl-C stops the probe)",
         server.path().display()
     );
@@ -126,7 +133,7 @@ fn to_file(a: &SimArgs, probe: &mut SimProbe) -> CliResult<Outcome> {
     let mut sink: Box<dyn Write> = match &a.out {
         Some(p) => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,
-            super::output::create(p, &[], a.replace)?,
+            super::output::create(p, &[], a.force.force)?,
         )),
         None => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,

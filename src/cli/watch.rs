@@ -49,5 +49,12 @@ pub fn run(a: WatchArgs) -> CliResult<Outcome> {
         }
     };
     let design = (!a.no_design).then_some(design);
-    show(spec, what, design, library, a.record)
+    show(
+        spec,
+        what,
+        design,
+        library,
+        a.record,
+        "`slackmeter record` (into a file, with a progress line) or `slackmeter listen` (running counts as text)",
+    )
 }

@@ -351,6 +351,53 @@ impl fmt::Display for Si {
     }
 }
 
+/// A value and its uncertainty in one unit (the value's prefix): "2.0000000 MHz ± 0.0000017 MHz",
+/// "250.00 ns ± 0.80 ns". The value keeps four significant digits, or as many decimals as the
+/// uncertainty needs for two significant digits; `symbol` is the base unit ("Hz", "s").
+pub fn pm(value: f64, uncertainty: f64, symbol: &str) -> String {
+    const STEPS: &[(f64, &str)] = &[
+        (1e9, "G"),
+        (1e6, "M"),
+        (1e3, "k"),
+        (1.0, ""),
+        (1e-3, "m"),
+        (1e-6, "µ"),
+        (1e-9, "n"),
+        (1e-12, "p"),
+    ];
+    if !value.is_finite() || !uncertainty.is_finite() {
+        return format!("{value} {symbol} ± {uncertainty} {symbol}");
+    }
+    let lead = if value != 0.0 { value } else { uncertainty };
+    let (scale, prefix) = STEPS
+        .iter()
+        .copied()
+        .find(|(s, _)| lead.abs() >= *s * 0.999_999_5)
+        .unwrap_or(STEPS[STEPS.len() - 1]);
+    let (m, u) = (value / scale, uncertainty.abs() / scale);
+    let int_digits = if m.abs() >= 99.999_5 {
+        3
+    } else if m.abs() >= 9.999_5 {
+        2
+    } else {
+        1
+    };
+    let value_decimals = 4 - int_digits;
+    let unc_decimals = if u > 0.0 {
+        (1 - u.log10().floor() as i32).max(0) as usize
+    } else {
+        0
+    };
+    let d = value_decimals.max(unc_decimals).min(12);
+    // a time that is zero reads best in ns, as `units::ns` prints it
+    let unit = if prefix.is_empty() && symbol == "s" && value == 0.0 && uncertainty == 0.0 {
+        "ns".to_string()
+    } else {
+        format!("{prefix}{symbol}")
+    };
+    format!("{m:.d$} {unit} ± {u:.d$} {unit}")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -11,7 +11,7 @@ use tokio::sync::mpsc;
 use super::port::Port;
 use slackmeter_core::probe::ProbeDesc;
 
-use super::types::{LinkConfig, LinkError, LinkEvent, host_ns_now};
+use super::types::{LinkConfig, LinkError, LinkEvent, Setting, SettingChannel, host_ns_now};
 
 pub(super) struct Connection {
     port: Port,
@@ -185,14 +185,18 @@ impl Connection {
                 false,
             ));
         }
-        for c in cfg.configure.clone() {
-            let what = format!(
-                "CONFIGURE channel {} param {} = {}",
-                c.channel, c.param, c.value
-            );
+        for setting in cfg.configure.clone() {
+            let (c, what) = match resolve(&setting, &probe) {
+                Ok(resolved) => resolved,
+                Err((what, reason)) => {
+                    let _ = self.tx.blocking_send(LinkEvent::Refused { what, reason });
+                    continue;
+                }
+            };
             match self.command(&Message::Configure(c), cfg, &mut buf) {
                 Ok(_) => {}
                 Err(Some(reason)) => {
+                    let reason = refusal_words(&reason);
                     let _ = self.tx.blocking_send(LinkEvent::Refused { what, reason });
                 }
                 Err(None) => {
@@ -244,6 +248,59 @@ impl Connection {
         }
         Err(None)
     }
+}
+
+/// A setting against the probe's self-description: the CONFIGURE to send and the setting in
+/// words ("edge-mode=count on channel 0 (CLK)"), or, for a label the probe does not have, the
+/// words and why.
+fn resolve(s: &Setting, probe: &ProbeDesc) -> Result<(proto::Configure, String), (String, String)> {
+    let id = match &s.channel {
+        SettingChannel::Id(id) => *id,
+        SettingChannel::Label(label) => match probe.channel_by_label(label) {
+            Some(c) => c.id,
+            None => {
+                let have: Vec<String> = probe
+                    .channels
+                    .iter()
+                    .map(|c| format!("{} ({})", c.label, c.id))
+                    .collect();
+                return Err((
+                    format!("the setting {} on channel {label}", s.words),
+                    format!(
+                        "this probe has no channel labelled {label}; its channels are {}",
+                        have.join(", ")
+                    ),
+                ));
+            }
+        },
+    };
+    let on = if id == proto::params::PROBE {
+        "the whole probe".to_string()
+    } else {
+        match probe.channel(id) {
+            Some(c) => format!("channel {id} ({})", c.label),
+            None => format!("channel {id}"),
+        }
+    };
+    Ok((
+        proto::Configure {
+            channel: id,
+            param: s.param,
+            value: s.value,
+        },
+        format!("the setting {} on {on}", s.words),
+    ))
+}
+
+/// Why the probe refused a setting, with what to do about it.
+fn refusal_words(reason: &str) -> String {
+    let fix = match reason {
+        "no such channel" => "; `slackmeter listen PORT` lists the probe's channels",
+        "parameter not supported" => "; this channel (or this firmware) has no such setting",
+        "value not accepted" => "; the value is outside what the probe takes for it",
+        _ => "",
+    };
+    format!("{reason}{fix}")
 }
 
 /// The meaning of an ACK result code.

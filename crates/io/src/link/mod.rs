@@ -18,7 +18,7 @@ use tokio::sync::mpsc;
 
 pub use connection::result_text;
 pub use port::{check_present, list_ports};
-pub use types::{LinkConfig, LinkError, LinkEvent, host_ns_now};
+pub use types::{LinkConfig, LinkError, LinkEvent, Setting, SettingChannel, host_ns_now};
 
 /// A running link: events arrive on `events`; dropping or [`Link::stop`] ends it.
 pub struct Link {

@@ -124,6 +124,11 @@ pub(super) fn open_port(cfg: &LinkConfig) -> Result<Port, LinkError> {
                 path: path.clone(),
                 hint: ports_hint(),
             },
+            serialport::ErrorKind::Io(io::ErrorKind::ResourceBusy) => LinkError::Open {
+                path: path.clone(),
+                reason: "the port is in use by another program (close it; `fuser PATH` names it)"
+                    .into(),
+            },
             _ => LinkError::Open {
                 path: path.clone(),
                 reason: e.description,

@@ -17,8 +17,8 @@ pub struct LinkConfig {
     pub hello_timeout: Duration,
     /// How long to wait for each ACK.
     pub ack_timeout: Duration,
-    /// Commands sent after HELLO, before START.
-    pub configure: Vec<Configure>,
+    /// Settings sent after HELLO, before START (a channel by id or by its HELLO label).
+    pub configure: Vec<Setting>,
     /// Keep trying when the device goes away.
     pub reconnect: bool,
     /// Pause between reconnection attempts.
@@ -39,6 +39,40 @@ impl LinkConfig {
             reconnect: true,
             retry_every: Duration::from_millis(500),
             silence: Duration::from_secs(5),
+        }
+    }
+}
+
+/// The channel a setting is for: an id, or a label the probe's HELLO gives.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum SettingChannel {
+    /// A channel id, or [`firmware_protocol::params::PROBE`] for the whole probe.
+    Id(u8),
+    /// A channel label (exact, then ignoring case), resolved against each HELLO.
+    Label(String),
+}
+
+/// One probe setting as the user gave it: sent as a CONFIGURE, and named in words when the
+/// probe refuses it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Setting {
+    /// Which channel.
+    pub channel: SettingChannel,
+    /// The parameter code (firmware_protocol::params).
+    pub param: u8,
+    /// The value sent.
+    pub value: u32,
+    /// The setting in the user's words, e.g. "edge-mode=count".
+    pub words: String,
+}
+
+impl From<Configure> for Setting {
+    fn from(c: Configure) -> Setting {
+        Setting {
+            channel: SettingChannel::Id(c.channel),
+            param: c.param,
+            value: c.value,
+            words: format!("parameter {} = {}", c.param, c.value),
         }
     }
 }

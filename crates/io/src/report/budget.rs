@@ -36,7 +36,7 @@ fn signed_ns(v: f64) -> String {
     if v >= 0.0 {
         format!("+{}", ns(v))
     } else {
-        format!("−{}", ns(-v))
+        format!("-{}", ns(-v))
     }
 }
 
@@ -44,7 +44,7 @@ fn pct(v: Option<f64>) -> String {
     v.map_or_else(|| "—".to_string(), |p| format!("{p:+.1} %"))
 }
 
-/// An error range in words: "−76 … +113 %".
+/// An error range in words: "-76 … +113 %".
 fn range(low: f64, high: f64) -> String {
     format!("{low:+.0} … {high:+.0} %")
 }

@@ -27,7 +27,7 @@ fn rows(a: &Against) -> Vec<Vec<String>> {
             vec![
                 p.phase.to_string(),
                 ns(p.required_ns).to_string(),
-                format!("{} ± {}", ns(p.measured_ns), ns(p.uncertainty_ns)),
+                super::table::pm(p.measured_ns * 1e-9, p.uncertainty_ns * 1e-9, "s"),
                 format!("{:+.1} ns", p.slack_ns),
                 p.slack_pct.map_or("—".into(), |x| format!("{x:+.0} %")),
                 match p.sign {
@@ -76,11 +76,10 @@ fn facts(m: &Margin) -> Vec<String> {
     if let Some(f) = &m.failure {
         let o = &f.onset;
         v.push(format!(
-            "measured failure onset ({}) at {:.3} s: {} ± {}, duty {:.1} %, worst high {}, worst low {}{}; headroom from the operating point {}",
+            "measured failure onset ({}) at {:.3} s: {}, duty {:.1} %, worst high {}, worst low {}{}; headroom from the operating point {}",
             o.cause,
             o.at_s,
-            hz(o.frequency_hz),
-            hz(o.frequency_uncertainty_hz),
+            super::table::pm(o.frequency_hz, o.frequency_uncertainty_hz, "Hz"),
             o.duty * 100.0,
             ns(o.high_min_ns),
             ns(o.low_min_ns),
@@ -94,10 +93,9 @@ fn facts(m: &Margin) -> Vec<String> {
     }
     if let Some(f) = m.highest_clean_hz.filter(|_| m.moving) {
         v.push(format!(
-            "highest clean frequency (no problem, every slack positive): {}{}{}",
-            hz(f),
+            "highest clean frequency (no problem, every slack positive): {}{}",
             m.highest_clean_uncertainty_hz
-                .map_or(String::new(), |u| format!(" ± {}", hz(u))),
+                .map_or(hz(f).to_string(), |u| super::table::pm(f, u, "Hz")),
             m.highest_clean_at_s
                 .map_or(String::new(), |t| format!(" at {t:.3} s"))
         ));
@@ -122,10 +120,13 @@ fn facts(m: &Margin) -> Vec<String> {
 
 fn clock_line(m: &Margin) -> String {
     format!(
-        "clock {}{} at {:.2} % duty; budget derated at {:.3} V ({}), {} °C; guard band {:.0} %",
-        hz(m.operating_hz),
+        "clock {} at {:.2} % duty; budget derated at {:.3} V ({}), {} °C; guard band {:.0} %",
         m.operating_uncertainty_hz
-            .map_or(String::new(), |u| format!(" ± {}", hz(u))),
+            .map_or(hz(m.operating_hz).to_string(), |u| super::table::pm(
+                m.operating_hz,
+                u,
+                "Hz"
+            )),
         m.duty * 100.0,
         m.vcc_used_v,
         m.vcc_source,

@@ -67,9 +67,10 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
     let mut r = vec![
         row(
             "frequency",
-            pm(c.frequency_hz, c.frequency_uncertainty_hz, |x| {
-                hz(x).to_string()
-            }),
+            match (c.frequency_hz, c.frequency_uncertainty_hz) {
+                (Some(f), Some(u)) => table::pm(f, u, "Hz"),
+                (f, _) => pm(f, None, |x| hz(x).to_string()),
+            },
             counted,
         ),
         row(
@@ -128,11 +129,10 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
     } else {
         row(
             "period jitter",
-            format!(
-                "{} RMS ± {}",
-                opt_ns(c.period_jitter_rms_ns),
-                opt_ns(c.period_jitter_uncertainty_ns)
-            ),
+            match (c.period_jitter_rms_ns, c.period_jitter_uncertainty_ns) {
+                (Some(j), Some(u)) => format!("{} RMS", table::pm(j * 1e-9, u * 1e-9, "s")),
+                (j, _) => format!("{} RMS", opt_ns(j)),
+            },
             format!(
                 "pk-pk {} over N = {}",
                 opt_ns(c.period_jitter_pkpk_ns),
@@ -350,7 +350,12 @@ pub fn render(
         let rows: Vec<Vec<String>> = sum
             .links
             .iter()
-            .map(|l| vec![format!("{:.3} s", l.at_s), l.event.to_string()])
+            .map(|l| {
+                vec![
+                    format!("{:.3} s", l.at_s),
+                    super::recording::link_words(&l.event),
+                ]
+            })
             .collect();
         table::markdown(&mut out, &["at", "event"], &rows);
     }

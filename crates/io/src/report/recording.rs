@@ -96,7 +96,7 @@ pub fn moving_rows(m: &Movement) -> Vec<[String; 3]> {
         m.period_jitter_detrended_uncertainty_ns,
     ) {
         _ if m.period_jitter_detrended_below_resolution => "below resolution".to_string(),
-        (Some(j), Some(u)) => format!("{} RMS ± {}", ns(j), ns(u)),
+        (Some(j), Some(u)) => format!("{} RMS", super::table::pm(j * 1e-9, u * 1e-9, "s")),
         _ => "—".into(),
     };
     vec![
@@ -112,7 +112,7 @@ pub fn moving_rows(m: &Movement) -> Vec<[String; 3]> {
         [
             "detrended jitter".into(),
             jitter,
-            "period jitter against the moving mean, from cycle-to-cycle: √((c2c² − q²/2) / 2)"
+            "period jitter against the moving mean, from cycle-to-cycle: √((c2c² - q²/2) / 2)"
                 .into(),
         ],
         [
@@ -166,8 +166,10 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
     let _ = writeln!(
         out,
         "  frequency     {}   ({counted}){spread}",
-        pm(c.frequency_hz, c.frequency_uncertainty_hz, |x| hz(x)
-            .to_string())
+        match (c.frequency_hz, c.frequency_uncertainty_hz) {
+            (Some(f), Some(u)) => super::table::pm(f, u, "Hz"),
+            (f, _) => pm(f, None, |x| hz(x).to_string()),
+        }
     );
     if let Some(a) = c.frequency_accuracy_hz {
         let _ = writeln!(out, "                (timebase accuracy ± {})", hz(a));
@@ -290,6 +292,34 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
 
 /// What the figures stand on: *complete* (every cycle stamped, nothing lost), *sampled* (the
 /// probe stamped a share of the cycles: bursts or count windows) or *lost* (data went missing).
+/// A recorded link event in words ("link lost: device gone"); an event this build does not
+/// know is shown as it was written.
+pub fn link_words(event: &serde_json::Value) -> String {
+    use crate::record::LinkNote;
+    let Ok(note) = serde_json::from_value::<LinkNote>(event.clone()) else {
+        return event.to_string();
+    };
+    let firmware = |f: &Option<String>| f.as_ref().map_or(String::new(), |f| format!(" ({f})"));
+    match &note {
+        LinkNote::Connected {
+            reconnects: 0,
+            firmware: f,
+        } => format!("probe connected{}", firmware(f)),
+        LinkNote::Connected {
+            reconnects: n,
+            firmware: f,
+        } => format!("link back{}: reconnect {n}", firmware(f)),
+        LinkNote::Lost { reason } => format!("link lost: {reason}"),
+        LinkNote::Refused { what, reason } => format!("the probe refused {what}: {reason}"),
+        LinkNote::Joined => "recording joined a stream already running".into(),
+        LinkNote::RecorderOverflow { dropped_bytes } => {
+            format!("the recorder fell behind: {dropped_bytes} bytes of probe data dropped")
+        }
+    }
+}
+
+/// The trust line's verdict: "nothing lost" only when nothing was lost and the link never
+/// went away (an outage is named: its time is not measured).
 pub fn trust_summary(snap: &Snapshot) -> String {
     let sampled: Vec<String> = snap
         .clocks
@@ -311,6 +341,22 @@ pub fn trust_summary(snap: &Snapshot) -> String {
         "lost" => " — lost: data went missing, figures cover incomplete data".to_string(),
         _ => " — sampled: nothing lost, but not every cycle stamped".to_string(),
     };
+    let outages = snap.trust.reconnects;
+    if outages > 0 && snap.completeness() != "lost" {
+        out = format!(
+            " — {}: nothing damaged arrived, but the time the link was down is not measured{}",
+            if outages == 1 {
+                "the link was down once".to_string()
+            } else {
+                format!("the link was down {outages} times")
+            },
+            if snap.completeness() == "sampled" {
+                "; not every cycle stamped"
+            } else {
+                ""
+            }
+        );
+    }
     if !sampled.is_empty() {
         out.push_str(&format!(" ({})", sampled.join("; ")));
     }
@@ -392,7 +438,7 @@ pub fn render(
     let t = &snap.trust;
     let _ = writeln!(
         out,
-        "\nTrust: {} frames, {} lost (sequence gaps), {} CRC errors, {} other rejects, probe drops {} edges / {} samples, {} reconnects{}",
+        "\nTrust: {} frames, {} lost (sequence gaps), {} CRC errors, {} other rejects, probe drops {} edges / {} samples, {} reconnect{}{}",
         t.frames,
         t.lost_frames,
         t.crc_errors,
@@ -400,6 +446,7 @@ pub fn render(
         t.probe_edges_dropped,
         t.probe_samples_dropped,
         t.reconnects,
+        if t.reconnects == 1 { "" } else { "s" },
         trust_summary(snap)
     );
     if !sum.marks.is_empty() {
@@ -411,7 +458,7 @@ pub fn render(
     if !sum.links.is_empty() {
         let _ = writeln!(out, "\nLink events");
         for l in &sum.links {
-            let _ = writeln!(out, "  {:>9.3} s  {}", l.at_s, l.event);
+            let _ = writeln!(out, "  {:>9.3} s  {}", l.at_s, link_words(&l.event));
         }
     }
     if !sum.damage.is_empty() {
@@ -425,4 +472,34 @@ pub fn render(
         }
     }
     out
+}
+
+#[cfg(test)]
+mod words_tests {
+    use super::*;
+    use slackmeter_core::measure::{EngineConfig, Feed, Window};
+
+    // common practice, no source: events and verdicts in words
+    #[test]
+    fn link_events_read_as_words() {
+        let lost = serde_json::json!({"event": "lost", "reason": "device gone"});
+        assert_eq!(link_words(&lost), "link lost: device gone");
+        let back = serde_json::json!({"event": "connected", "reconnects": 1});
+        assert_eq!(link_words(&back), "link back: reconnect 1");
+        let joined = serde_json::json!({"event": "joined"});
+        assert!(!link_words(&joined).contains('{'));
+        let unknown = serde_json::json!({"event": "unheard-of"});
+        assert!(link_words(&unknown).contains("unheard-of"));
+    }
+
+    #[test]
+    fn an_outage_is_named_not_called_nothing_lost() {
+        let mut feed = Feed::new(EngineConfig::default());
+        let clean = trust_summary(&feed.engine.snapshot(Window::Session));
+        assert!(clean.contains("nothing lost"), "{clean}");
+        feed.note_reconnect();
+        let after = trust_summary(&feed.engine.snapshot(Window::Session));
+        assert!(!after.contains("nothing lost"), "{after}");
+        assert!(after.contains("the link was down once"), "{after}");
+    }
 }

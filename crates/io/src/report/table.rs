@@ -60,3 +60,21 @@ pub fn markdown(out: &mut String, head: &[&str], rows: &[Vec<String>]) {
     }
     let _ = writeln!(out);
 }
+/// A value and its uncertainty in one unit (the value's prefix).
+pub use slackmeter_core::units::pm;
+
+#[cfg(test)]
+mod tests {
+    use super::pm;
+
+    // Rounding rule: the uncertainty to two significant digits and the value to the same
+    // decimal place (GUM, JCGM 100:2008, 7.2.6; from memory).
+    #[test]
+    fn value_and_uncertainty_share_one_unit() {
+        assert_eq!(pm(2.0e6, 1.686, "Hz"), "2.0000000 MHz ± 0.0000017 MHz");
+        assert_eq!(pm(250e-9, 0.8e-9, "s"), "250.00 ns ± 0.80 ns");
+        assert_eq!(pm(250e-9, 8e-9, "s"), "250.0 ns ± 8.0 ns");
+        assert_eq!(pm(1.5e6, 20e3, "Hz"), "1.500 MHz ± 0.020 MHz");
+        assert_eq!(pm(-3e-9, 1e-9, "s"), "-3.000 ns ± 1.000 ns");
+    }
+}

@@ -192,7 +192,7 @@ pub(super) fn models(design: &Design, lib: &Library) -> Vec<ModelNote> {
                 (DeratingKind::AlphaPower, Some(s)) => ModelNote {
                     family: f.name.clone(),
                     model: format!(
-                        "estimate: alpha-power law t = k·V/(V − {:.2} V)^{:.2}, fitted on {} rows of {} ({} rows that do not follow it left out of the fit, not of the error figures)",
+                        "estimate: alpha-power law t = k·V/(V - {:.2} V)^{:.2}, fitted on {} rows of {} ({} rows that do not follow it left out of the fit, not of the error figures)",
                         s.vt_v, s.alpha, s.rows, s.fitted_on, s.excluded
                     ),
                     fit_rms_pct: Some(s.rms_pct),

@@ -2,7 +2,7 @@
 
 use serde::Serialize;
 
-use crate::units::ns;
+use crate::units::{ns, pm};
 
 /// A figure the probe could not observe, and why.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -292,17 +292,15 @@ impl ClockSnapshot {
         }
         if self.period_jitter_below_resolution {
             format!(
-                "below resolution (< {}); de-biased {} ± {}, raw {} RMS",
+                "below resolution (< {}); de-biased {}, raw {} RMS",
                 ns(d + u),
-                ns(d),
-                ns(u),
+                pm(d * 1e-9, u * 1e-9, "s"),
                 ns(raw)
             )
         } else {
             format!(
-                "{} ± {} RMS (de-biased), raw {}, pk-pk {} over N = {}",
-                ns(d),
-                ns(u),
+                "{} RMS (de-biased), raw {}, pk-pk {} over N = {}",
+                pm(d * 1e-9, u * 1e-9, "s"),
                 ns(raw),
                 self.period_jitter_pkpk_ns
                     .map_or("—".into(), |v| ns(v).to_string()),
