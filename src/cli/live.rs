@@ -10,13 +10,24 @@ use crate::measure::EngineConfig;
 use crate::session::{self, Session, SourceSpec};
 use crate::tui::run::{Options, run};
 
+/// Where the view records and what it replays beside the source.
+#[derive(Default)]
+pub struct ViewFiles {
+    /// Record from the start into this file.
+    pub record: Option<PathBuf>,
+    /// The folder `R` offers (None: the current one).
+    pub record_dir: Option<PathBuf>,
+    /// Marks of a replayed recording, s since its start.
+    pub replay_marks: Vec<f64>,
+}
+
 /// Start `source` (shown as `what`) and run the live view on it until quit.
 pub fn show(
     source: SourceSpec,
     what: String,
     design: Option<Design>,
     library: Library,
-    record: Option<PathBuf>,
+    files: ViewFiles,
 ) -> CliResult<Outcome> {
     let header = session::header(what, vec![], design.as_ref().map(embedded), None);
     let session = Session::start(source, header, Some(EngineConfig::default()))?;
@@ -24,7 +35,9 @@ pub fn show(
         session,
         design,
         library,
-        record,
+        record: files.record,
+        record_dir: files.record_dir.unwrap_or_default(),
+        replay_marks: files.replay_marks,
     })?;
     Ok(Outcome::Done)
 }

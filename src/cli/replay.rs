@@ -6,8 +6,9 @@ use miette::miette;
 
 use super::design::DesignArgs;
 use super::error::{CliError, CliResult, Outcome};
-use super::live::show;
+use super::live::{ViewFiles, show};
 use crate::record::Recording;
+use crate::record::format::ChunkKind;
 use crate::session::SourceSpec;
 
 /// Options of `replay`.
@@ -31,11 +32,24 @@ pub fn run(a: ReplayArgs) -> CliResult<Outcome> {
         )));
     }
     let library = a.design.library()?;
-    let header = Recording::open(&a.file)?.parsed.header;
+    let mut rec = Recording::open(&a.file)?;
+    let header = rec.parsed.header.clone();
+    let t0 = header.start_unix_ns;
+    // the marks' times, for `n` (a damaged end stops the scan; the replay reports it)
+    let mut replay_marks = Vec::new();
+    while let Ok(Some(c)) = rec.chunk_reader().next_chunk() {
+        if c.kind == ChunkKind::Mark {
+            replay_marks.push(c.host_ns.saturating_sub(t0) as f64 * 1e-9);
+        }
+    }
     let design = a.design.or_embedded(&header, &a.file, &library)?;
     let spec = SourceSpec::Replay {
         path: a.file.clone(),
         speed: a.speed,
     };
-    show(spec, a.file.display().to_string(), design, library, None)
+    let files = ViewFiles {
+        replay_marks,
+        ..ViewFiles::default()
+    };
+    show(spec, a.file.display().to_string(), design, library, files)
 }
