@@ -174,8 +174,14 @@ fn assert_priorities(s: &str, w: u16, h: u16) {
 fn busy_app() -> App {
     let mut a = app(streaming(), true);
     a.apply(Action::Freeze);
-    a.note_recording(Some(("slackmeter-2026-12-03_16-20-05.smrec".into(), 4_200_000)), 1.0);
-    a.note_recording(Some(("slackmeter-2026-12-03_16-20-05.smrec".into(), 5_200_000)), 2.0);
+    a.note_recording(
+        Some(("slackmeter-2026-12-03_16-20-05.smrec".into(), 4_200_000)),
+        1.0,
+    );
+    a.note_recording(
+        Some(("slackmeter-2026-12-03_16-20-05.smrec".into(), 5_200_000)),
+        2.0,
+    );
     a
 }
 
@@ -185,7 +191,10 @@ fn every_priority_item_at_80x24_100x30_160x50() {
     for (w, h) in [(80, 24), (100, 30), (160, 50)] {
         let s = draw(&a, w, h);
         assert_priorities(&s, w, h);
-        assert!(s.contains("1.00 MB/s"), "the recording's rate at {w}×{h}:\n{s}");
+        assert!(
+            s.contains("1.00 MB/s"),
+            "the recording's rate at {w}×{h}:\n{s}"
+        );
         insta::assert_snapshot!(format!("priorities_{w}x{h}"), s);
     }
 }
@@ -224,7 +233,10 @@ fn without_a_design_the_clock_takes_the_slack_area() {
     let s = draw(&a, 80, 24);
     assert!(!s.contains("slack against"), "{s}");
     assert!(!s.contains("no design loaded"), "{s}");
-    assert!(s.contains("edges"), "the clock's lower rows come back:\n{s}");
+    assert!(
+        s.contains("edges"),
+        "the clock's lower rows come back:\n{s}"
+    );
 }
 
 #[test]
@@ -241,8 +253,14 @@ fn replay_offers_no_mark_or_record_keys() {
     );
     let s = draw(&a, 160, 50);
     let footer = s.lines().last().unwrap();
-    assert!(footer.contains("p pause") && footer.contains("n next mark"), "{footer}");
-    assert!(!footer.contains("m mark") && !footer.contains("R record"), "{footer}");
+    assert!(
+        footer.contains("p pause") && footer.contains("n next mark"),
+        "{footer}"
+    );
+    assert!(
+        !footer.contains("m mark") && !footer.contains("R record"),
+        "{footer}"
+    );
 }
 
 #[test]
@@ -253,7 +271,10 @@ fn long_events_wrap_and_the_list_scrolls() {
         "mark: a very long note about the decoupling capacitors on the far board section and the new ground strap",
     );
     let s = draw(&a, 80, 24);
-    assert!(s.contains("ground strap"), "the end of a long line wraps into view:\n{s}");
+    assert!(
+        s.contains("ground strap"),
+        "the end of a long line wraps into view:\n{s}"
+    );
     a.apply(Action::Up);
     let s = draw(&a, 80, 24);
     assert!(s.contains("newer below (End)"), "{s}");
@@ -262,5 +283,8 @@ fn long_events_wrap_and_the_list_scrolls() {
     assert!(s.contains("events: all "), "{s}");
     a.apply(Action::Filter);
     let s = draw(&a, 80, 24);
-    assert!(s.contains("events: marks") && !s.contains("sag on VCC_FAR"), "{s}");
+    assert!(
+        s.contains("events: marks") && !s.contains("sag on VCC_FAR"),
+        "{s}"
+    );
 }

@@ -75,14 +75,44 @@ impl Offered {
 /// (key, short label for the key bar, what it does, where offered).
 pub const KEYS: &[(&str, &str, &str, Offered)] = &[
     ("q", "quit", "quit", Offered::Always),
-    ("space", "freeze", "freeze / unfreeze the figures", Offered::Always),
+    (
+        "space",
+        "freeze",
+        "freeze / unfreeze the figures",
+        Offered::Always,
+    ),
     ("r", "reset", "reset the statistics", Offered::Always),
     ("m", "mark", "add a mark (type text, Enter)", Offered::Live),
-    ("R", "record", "record to a file (asks its name) / stop", Offered::Live),
-    ("w", "window", "recent 10 s / whole session", Offered::Always),
-    ("d", "picture", "next picture: frequency / slack / rails", Offered::Always),
-    ("f", "filter", "events: all / marks / clock / rails / lines / failures / host", Offered::Always),
-    ("↑ ↓ End", "scroll", "scroll the events; End follows the newest", Offered::Always),
+    (
+        "R",
+        "record",
+        "record to a file (asks its name) / stop",
+        Offered::Live,
+    ),
+    (
+        "w",
+        "window",
+        "recent 10 s / whole session",
+        Offered::Always,
+    ),
+    (
+        "d",
+        "picture",
+        "next picture: frequency / slack / rails",
+        Offered::Always,
+    ),
+    (
+        "f",
+        "filter",
+        "events: all / marks / clock / rails / lines / failures / host",
+        Offered::Always,
+    ),
+    (
+        "↑ ↓ End",
+        "scroll",
+        "scroll the events; End follows the newest",
+        Offered::Always,
+    ),
     ("?", "help", "this help", Offered::Always),
     ("p", "pause", "pause / resume the replay", Offered::Replay),
     ("+ -", "speed", "replay faster / slower", Offered::Replay),
@@ -143,7 +173,11 @@ mod tests {
         assert_eq!(action(k('d'), false, false), Action::Picture);
         assert_eq!(action(k('f'), false, false), Action::Filter);
         assert_eq!(
-            action(KeyEvent::new(KeyCode::End, KeyModifiers::NONE), false, false),
+            action(
+                KeyEvent::new(KeyCode::End, KeyModifiers::NONE),
+                false,
+                false
+            ),
             Action::End
         );
         assert_eq!(action(k('?'), false, false), Action::Help);

@@ -93,7 +93,8 @@ fn stop_recording(s: &mut Session, app: &mut App) {
                     c.file_bytes as f64 / 1e6
                 ),
             );
-            app.recorded.push((path.display().to_string(), c.file_bytes));
+            app.recorded
+                .push((path.display().to_string(), c.file_bytes));
         }
         Some(Err(e)) => app.event_of(EventKind::Host, at, format!("host: recording failed: {e}")),
         None => {}
@@ -254,7 +255,9 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
     ratatui::restore();
     match s.stop_recording() {
         Some(Err(e)) => eprintln!("{e}"),
-        Some(Ok((path, c))) => app.recorded.push((path.display().to_string(), c.file_bytes)),
+        Some(Ok((path, c))) => app
+            .recorded
+            .push((path.display().to_string(), c.file_bytes)),
         None => {}
     }
     if let Some(e) = &app.rec_failed {

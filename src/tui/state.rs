@@ -366,7 +366,11 @@ impl App {
         match ev {
             Event::Connected { probe, reconnects } => {
                 if *reconnects > 0 {
-                    self.event_of(EventKind::Host, host_s, format!("host: link back (reconnect {reconnects})"));
+                    self.event_of(
+                        EventKind::Host,
+                        host_s,
+                        format!("host: link back (reconnect {reconnects})"),
+                    );
                 }
                 if !replay {
                     self.source = Source::Streaming {
@@ -376,7 +380,11 @@ impl App {
                 }
             }
             Event::Lost { reason } => {
-                self.event_of(EventKind::Host, host_s, format!("host: link lost: {reason}"));
+                self.event_of(
+                    EventKind::Host,
+                    host_s,
+                    format!("host: link lost: {reason}"),
+                );
                 self.source = Source::Lost {
                     reason: reason.clone(),
                     retry_in_s: 0.5,
@@ -384,14 +392,18 @@ impl App {
             }
             Event::Retrying { retry_in, reason } => match &mut self.source {
                 Source::Lost { retry_in_s, .. } => *retry_in_s = retry_in.as_secs_f64(),
-                Source::Connecting { .. } => {
-                    self.event_of(EventKind::Host, host_s, format!("host: no probe yet: {reason}"))
-                }
+                Source::Connecting { .. } => self.event_of(
+                    EventKind::Host,
+                    host_s,
+                    format!("host: no probe yet: {reason}"),
+                ),
                 _ => {}
             },
-            Event::Refused { what, reason } => {
-                self.event_of(EventKind::Host, now_s, format!("probe refused {what}: {reason}"))
-            }
+            Event::Refused { what, reason } => self.event_of(
+                EventKind::Host,
+                now_s,
+                format!("probe refused {what}: {reason}"),
+            ),
             Event::Mark { at_s, text } => {
                 self.event_of(EventKind::Mark, *at_s, format!("mark: {text}"))
             }
@@ -409,7 +421,11 @@ impl App {
             Event::RecordingFailed(e) => {
                 self.rec_failed = Some(e.to_string());
                 self.recording = None;
-                self.event_of(EventKind::Host, host_s, format!("host: recording failed: {e}"));
+                self.event_of(
+                    EventKind::Host,
+                    host_s,
+                    format!("host: recording failed: {e}"),
+                );
             }
             Event::Data { .. } | Event::Connecting { .. } | Event::Recorded { .. } => return,
             Event::Failed(_) => {}
@@ -450,7 +466,11 @@ impl App {
                 "—".into()
             };
             let es = if n == 1 { "" } else { "es" };
-            self.event_of(EventKind::Clock, at, format!("{n} glitch{es} (shortest {shortest})"));
+            self.event_of(
+                EventKind::Clock,
+                at,
+                format!("{n} glitch{es} (shortest {shortest})"),
+            );
         }
         for (rail, sag) in s.sag_events.iter().filter(|x| x.1.start_s > seen.sag_at_s) {
             let text = format!(
@@ -757,7 +777,7 @@ mod tests {
         a.update(s[0].clone(), None);
         let first = a.events.len();
         assert!(count(&a, "glitch") == 1, "{:?}", a.events);
-        assert!(count(&a, "RESET high") >= 1, "{:?}", a.events);
+        assert!(count(&a, "RESET went high") >= 1, "{:?}", a.events);
         a.update(s[0].clone(), None);
         assert_eq!(a.events.len(), first, "the same figures list nothing new");
         // frozen: the figures on screen stay, what is new is still listed, once
@@ -868,5 +888,68 @@ mod tests {
                 .iter()
                 .any(|e| e.text.contains("link back (reconnect 1)"))
         );
+    }
+
+    #[test]
+    fn events_stay_in_time_order_and_filter_by_kind() {
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        a.event(2.0, "mark: second");
+        a.event(1.0, "sag on VCC: −100 mV for 3 ms");
+        a.event_of(EventKind::Host, 1.5, "host: link lost: unplugged");
+        let at: Vec<f64> = a.events.iter().map(|e| e.at_s).collect();
+        assert_eq!(at, vec![1.0, 1.5, 2.0]);
+        a.apply(Action::Filter);
+        assert_eq!(a.event_filter, Some(EventKind::Mark));
+        let listed: Vec<_> = a.listed_events().map(|e| e.text.as_str()).collect();
+        assert_eq!(listed, vec!["mark: second"]);
+        a.event_filter = None;
+        a.apply(Action::Up);
+        assert_eq!(a.event_scroll, Some(1));
+        a.apply(Action::Down);
+        assert_eq!(a.event_scroll, None, "down to the newest follows again");
+        a.apply(Action::Up);
+        a.apply(Action::End);
+        assert_eq!(a.event_scroll, None);
+    }
+
+    #[test]
+    fn next_mark_says_when_there_is_none() {
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        assert_eq!(a.next_mark(0.0), None);
+        assert!(
+            a.events
+                .last()
+                .unwrap()
+                .text
+                .contains("no marks in this recording")
+        );
+        a.replay_marks = vec![1.0, 3.0];
+        assert_eq!(a.next_mark(1.0), Some(3.0));
+        assert_eq!(a.next_mark(3.5), None);
+        assert!(
+            a.events
+                .last()
+                .unwrap()
+                .text
+                .contains("no marks after this point")
+        );
+    }
+
+    #[test]
+    fn r_asks_for_a_file_then_starts_and_stops() {
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        assert_eq!(a.apply(Action::Record), Effect::AskRecordFile);
+        a.ask(Ask::RecordFile, "bench.smrec");
+        assert_eq!(
+            a.apply(Action::MarkDone),
+            Effect::StartRecord("bench.smrec".into())
+        );
+        a.note_recording(Some(("bench.smrec".into(), 1_000)), 10.0);
+        a.note_recording(Some(("bench.smrec".into(), 2_001_000)), 12.0);
+        let r = a.recording.clone().unwrap();
+        assert_eq!(r.bytes, 2_001_000);
+        // 2 MB in 2 s (arithmetic)
+        assert_eq!(r.rate_bytes_per_s, Some(1e6));
+        assert_eq!(a.apply(Action::Record), Effect::StopRecord);
     }
 }

@@ -270,7 +270,11 @@ fn status_parts(app: &App) -> Vec<(u8, String, String)> {
             let base = std::path::Path::new(&r.path)
                 .file_name()
                 .map_or(r.path.clone(), |n| n.to_string_lossy().into_owned());
-            parts.push((0, format!("REC {base} {size}{rate}"), format!("REC {size}{rate}")));
+            parts.push((
+                0,
+                format!("REC {base} {size}{rate}"),
+                format!("REC {size}{rate}"),
+            ));
         }
         (None, Some(_)) => parts.push((0, "REC FAILED (see events)".into(), "REC FAILED".into())),
         (None, None) => {
@@ -415,14 +419,21 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
         ),
     ];
     if let Some(share) = c.observed_share() {
-        rows.push(row(3, fit(&[format!("  of the observed cycles ({share})")], w), fs));
+        rows.push(row(
+            3,
+            fit(&[format!("  of the observed cycles ({share})")], w),
+            fs,
+        ));
     }
     let glitch_style = if c.glitches > 0 { warn(app) } else { fs };
     rows.push(row(
         1,
         fit(
             &[
-                format!("glitches   {}   stalls {}   tick {tick}", c.glitches, c.stalls),
+                format!(
+                    "glitches   {}   stalls {}   tick {tick}",
+                    c.glitches, c.stalls
+                ),
                 format!("glitches {}  stalls {}", c.glitches, c.stalls),
             ],
             w,
@@ -485,7 +496,12 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
                             ns(p.p99),
                             ns(p.p99_9)
                         ),
-                        format!("{name:<6} 1% {}  50% {}  99% {}", ns(p.p1), ns(p.p50), ns(p.p99)),
+                        format!(
+                            "{name:<6} 1% {}  50% {}  99% {}",
+                            ns(p.p1),
+                            ns(p.p50),
+                            ns(p.p99)
+                        ),
                         format!("{name:<6} 50% {}", ns(p.p50)),
                     ],
                     w,
@@ -571,7 +587,11 @@ fn rails(f: &mut Frame, app: &App, r: Rect) {
                         rail.ripple_pkpk_mv
                             .map_or("—".into(), |m| format!("{m:.0} mV"))
                     ),
-                    format!("  limit {:.2} V, {} sags", rail.limit_mv / 1000.0, rail.sag_events),
+                    format!(
+                        "  limit {:.2} V, {} sags",
+                        rail.limit_mv / 1000.0,
+                        rail.sag_events
+                    ),
                 ],
                 w,
             ),
@@ -583,7 +603,10 @@ fn rails(f: &mut Frame, app: &App, r: Rect) {
         rows.push(row(
             1,
             fit(
-                &[format!("{:<9} {words}", l.name), format!("{} {words}", l.name)],
+                &[
+                    format!("{:<9} {words}", l.name),
+                    format!("{} {words}", l.name),
+                ],
                 w,
             ),
             fs,
@@ -719,7 +742,10 @@ fn events(f: &mut Frame, app: &App, r: Rect) {
     let listed: Vec<_> = app.listed_events().collect();
     let filter = app.event_filter.map_or("all", |k| k.name());
     let title = match app.event_scroll {
-        Some(i) => format!("events: {filter}, {} newer below (End)", listed.len() - i - 1),
+        Some(i) => format!(
+            "events: {filter}, {} newer below (End)",
+            listed.len() - i - 1
+        ),
         None => format!("events: {filter}"),
     };
     let block = Block::default()
@@ -801,7 +827,9 @@ fn picture(f: &mut Frame, app: &App, r: Rect) {
         .points
         .iter()
         .fold(None, |acc: Option<[f64; 2]>, p| {
-            Some(acc.map_or([p.from_s, p.to_s], |[a, b]| [a.min(p.from_s), b.max(p.to_s)]))
+            Some(acc.map_or([p.from_s, p.to_s], |[a, b]| {
+                [a.min(p.from_s), b.max(p.to_s)]
+            }))
         })
         .filter(|[a, b]| b > a)
         .unwrap_or([0.0, 1.0]);
@@ -951,7 +979,13 @@ fn picture(f: &mut Frame, app: &App, r: Rect) {
                     .series
                     .points
                     .iter()
-                    .filter_map(|p| p.rail_min_mv.get(i).copied().flatten().map(|v| (mid(p), v / 1000.0)))
+                    .filter_map(|p| {
+                        p.rail_min_mv
+                            .get(i)
+                            .copied()
+                            .flatten()
+                            .map(|v| (mid(p), v / 1000.0))
+                    })
                     .collect();
                 sets.push((name.clone(), pts));
             }
@@ -1097,4 +1131,67 @@ fn prompt(f: &mut Frame, ask: Ask, text: &str, area: Rect) {
             .block(Block::default().borders(Borders::ALL).title(title)),
         r,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn line(
+        role: LineRole,
+        level: Option<bool>,
+        rate: Option<f64>,
+        since: Option<f64>,
+    ) -> LineSnapshot {
+        LineSnapshot {
+            channel: 4,
+            name: "L".into(),
+            role,
+            level,
+            edges: u64::from(since.is_some()),
+            rises: 0,
+            rate_hz: rate,
+            pulse_mean_ms: None,
+            pulse_min_ms: None,
+            since_change_s: since,
+            events: vec![],
+        }
+    }
+
+    #[test]
+    fn lines_in_words() {
+        assert_eq!(
+            line_words(&line(LineRole::Fault, Some(false), None, None)),
+            "low, no change seen"
+        );
+        assert_eq!(
+            line_words(&line(LineRole::Reset, None, None, None)),
+            "no change seen"
+        );
+        assert_eq!(
+            line_words(&line(LineRole::Reset, Some(true), None, Some(2.5))),
+            "high, changed 2.5 s ago"
+        );
+        assert_eq!(
+            line_words(&line(LineRole::Heartbeat, Some(true), Some(2.0), Some(0.1))),
+            "beating (2.0 beats/s)"
+        );
+        // silent for more than three half-periods: stopped
+        assert_eq!(
+            line_words(&line(LineRole::Heartbeat, Some(true), Some(2.0), Some(4.0))),
+            "stopped 4 s ago"
+        );
+    }
+
+    #[test]
+    fn fit_never_cuts_a_number() {
+        let v = vec![
+            "frequency 500.0 kHz ± 19.67 mHz".to_string(),
+            "freq 500.0 kHz".into(),
+        ];
+        assert_eq!(fit(&v, 40), v[0]);
+        assert_eq!(fit(&v, 20), "freq 500.0 kHz");
+        assert_eq!(fit(&v, 12), "freq 500.0…");
+        assert_eq!(wrap("one two three", 7), vec!["one two", "three"]);
+    }
 }
