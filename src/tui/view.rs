@@ -9,20 +9,22 @@
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Direction, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
-use ratatui::symbols::Marker;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Axis, Block, Borders, Chart, Clear, Dataset, GraphType, Paragraph, Wrap};
+use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 
-use super::keys::KEYS;
-use super::state::{App, Ask, Picture, Source};
-use crate::measure::{LineSnapshot, Window};
+use super::bars::{help, keybar, prompt, status};
+use super::picture::picture;
+use super::state::App;
+use super::text::{Row, by_priority, row, width_of};
+pub use super::text::{fit, wrap};
+use crate::measure::LineSnapshot;
 use crate::probe::LineRole;
 use crate::units::{hz, ns};
 
 /// Smallest terminal the full view needs.
 pub const MIN_SIZE: (u16, u16) = (80, 24);
 
-fn st(app: &App, color: Color) -> Style {
+pub(super) fn st(app: &App, color: Color) -> Style {
     if app.color {
         Style::default().fg(color)
     } else {
@@ -30,7 +32,7 @@ fn st(app: &App, color: Color) -> Style {
     }
 }
 
-fn warn(app: &App) -> Style {
+pub(super) fn warn(app: &App) -> Style {
     if app.color {
         Style::default().fg(Color::Red).add_modifier(Modifier::BOLD)
     } else {
@@ -38,7 +40,7 @@ fn warn(app: &App) -> Style {
     }
 }
 
-fn bold() -> Style {
+pub(super) fn bold() -> Style {
     Style::default().add_modifier(Modifier::BOLD)
 }
 
@@ -46,90 +48,7 @@ fn opt_ns(v: Option<f64>) -> String {
     v.map_or("—".into(), |x| ns(x).to_string())
 }
 
-fn width_of(s: &str) -> usize {
-    s.chars().count()
-}
-
-/// The first of `variants` (longest first) that fits `width`; else the last one shortened at a
-/// space, with "…" (a number is never cut in two).
-pub fn fit(variants: &[String], width: usize) -> String {
-    if let Some(v) = variants.iter().find(|v| width_of(v) <= width) {
-        return v.clone();
-    }
-    let last = variants.last().map_or("", |s| s.as_str());
-    let mut out = String::new();
-    for word in last.split(' ') {
-        let next = if out.is_empty() {
-            word.to_string()
-        } else {
-            format!("{out} {word}")
-        };
-        if width_of(&next) + 1 > width {
-            break;
-        }
-        out = next;
-    }
-    out.push('…');
-    out
-}
-
-/// Words of `text` in lines of at most `width` characters (a longer word is split).
-pub fn wrap(text: &str, width: usize) -> Vec<String> {
-    let width = width.max(1);
-    let mut lines = Vec::new();
-    let mut cur = String::new();
-    for word in text.split_whitespace() {
-        let mut word = word.to_string();
-        while width_of(&word) > width {
-            if !cur.is_empty() {
-                lines.push(std::mem::take(&mut cur));
-            }
-            let head: String = word.chars().take(width).collect();
-            word = word.chars().skip(width).collect();
-            lines.push(head);
-        }
-        if cur.is_empty() {
-            cur = word;
-        } else if width_of(&cur) + 1 + width_of(&word) <= width {
-            cur.push(' ');
-            cur.push_str(&word);
-        } else {
-            lines.push(std::mem::replace(&mut cur, word));
-        }
-    }
-    if !cur.is_empty() || lines.is_empty() {
-        lines.push(cur);
-    }
-    lines
-}
-
-/// One row of a panel: its priority (0 is kept longest) and what it shows.
-struct Row {
-    prio: u8,
-    line: Line<'static>,
-}
-
-fn row(prio: u8, text: String, style: Style) -> Row {
-    Row {
-        prio,
-        line: Line::from(Span::styled(text, style)),
-    }
-}
-
-/// The rows that fit `n` lines: the lowest priorities give way first; order is kept.
-fn by_priority(rows: Vec<Row>, n: usize) -> Vec<Line<'static>> {
-    let mut keep: Vec<(usize, u8)> = rows.iter().enumerate().map(|(i, r)| (i, r.prio)).collect();
-    keep.sort_by_key(|&(i, p)| (p, i));
-    keep.truncate(n);
-    let mut idx: Vec<usize> = keep.into_iter().map(|(i, _)| i).collect();
-    idx.sort_unstable();
-    let mut rows: Vec<Option<Row>> = rows.into_iter().map(Some).collect();
-    idx.into_iter()
-        .filter_map(|i| rows[i].take().map(|r| r.line))
-        .collect()
-}
-
-fn panel(app: &App, title: &str) -> Block<'static> {
+pub(super) fn panel(app: &App, title: &str) -> Block<'static> {
     let t = if app.stale() {
         format!(" {title} — STALE (link down) ")
     } else {
@@ -217,140 +136,6 @@ fn body(f: &mut Frame, app: &App, r: Rect) {
         .split(parts[2]);
     events(f, app, bottom[0]);
     picture(f, app, bottom[1]);
-}
-
-/// The status line's parts: (priority, long form, short form).
-fn status_parts(app: &App) -> Vec<(u8, String, String)> {
-    let mut parts = Vec::new();
-    let src = match &app.source {
-        Source::Connecting { what } => (format!("CONNECTING to {what}"), "CONNECTING".into()),
-        Source::Streaming { probe, .. } => (format!("STREAMING from {probe}"), "STREAMING".into()),
-        Source::Lost { reason, retry_in_s } => (
-            format!("LINK LOST ({reason}), retry in {retry_in_s:.1} s"),
-            "LINK LOST".into(),
-        ),
-        Source::Replay {
-            file,
-            at_s,
-            paused,
-            speed,
-            done,
-        } => {
-            let state = if *done {
-                "finished".to_string()
-            } else if *paused {
-                "PAUSED".to_string()
-            } else {
-                format!("×{speed}")
-            };
-            let base = std::path::Path::new(file)
-                .file_name()
-                .map_or(file.clone(), |n| n.to_string_lossy().into_owned());
-            (
-                format!("REPLAY {file} at {at_s:.1} s {state}"),
-                format!("REPLAY {base} {at_s:.0} s {state}"),
-            )
-        }
-    };
-    parts.push((0, src.0, src.1));
-    if let Source::Streaming { reconnects, .. } = app.source
-        && reconnects > 0
-    {
-        parts.push((2, format!("{reconnects} reconnections"), String::new()));
-    }
-    if app.stale() {
-        parts.push((0, "figures STALE".into(), "STALE".into()));
-    }
-    match (&app.recording, &app.rec_failed) {
-        (Some(r), _) => {
-            let rate = r
-                .rate_bytes_per_s
-                .map_or(String::new(), |b| format!(" {:.2} MB/s", b / 1e6));
-            let size = format!("{:.1} MB", r.bytes as f64 / 1e6);
-            let base = std::path::Path::new(&r.path)
-                .file_name()
-                .map_or(r.path.clone(), |n| n.to_string_lossy().into_owned());
-            parts.push((
-                0,
-                format!("REC {base} {size}{rate}"),
-                format!("REC {size}{rate}"),
-            ));
-        }
-        (None, Some(_)) => parts.push((0, "REC FAILED (see events)".into(), "REC FAILED".into())),
-        (None, None) => {
-            if !matches!(app.source, Source::Replay { .. }) {
-                parts.push((3, "not recording".into(), String::new()));
-            }
-        }
-    }
-    if let Some(s) = &app.snapshot {
-        let t = &s.trust;
-        match s.completeness() {
-            "lost" => parts.push((
-                1,
-                format!(
-                    "LOST {} frames, {} crc, {} drops",
-                    t.lost_frames,
-                    t.crc_errors,
-                    t.probe_edges_dropped + t.probe_samples_dropped
-                ),
-                "DATA LOST".into(),
-            )),
-            word => parts.push((3, word.to_string(), String::new())),
-        }
-    }
-    let win = match app.window {
-        Window::Recent => ("recent 10 s", "recent 10 s"),
-        Window::Session => ("whole session", "session"),
-    };
-    parts.push((0, win.0.into(), win.1.into()));
-    if app.frozen {
-        parts.push((0, "FROZEN".into(), "FROZEN".into()));
-    }
-    if app.lag_s > super::state::LAG_SHOWN_S {
-        parts.push((
-            1,
-            format!("BEHIND {:.1} s", app.lag_s),
-            format!("BEHIND {:.0} s", app.lag_s),
-        ));
-    }
-    parts
-}
-
-/// The status line that fits `width`: every part, then without the lowest priorities, then
-/// the short forms.
-pub fn status_text(app: &App, width: usize) -> String {
-    let parts = status_parts(app);
-    let join = |max_prio: u8, short_from: u8| {
-        parts
-            .iter()
-            .filter(|p| p.0 <= max_prio)
-            .map(|p| if p.0 >= short_from { &p.2 } else { &p.1 })
-            .filter(|s| !s.is_empty())
-            .cloned()
-            .collect::<Vec<_>>()
-            .join(" | ")
-    };
-    let tries = [
-        join(9, 9),
-        join(2, 9),
-        join(1, 9),
-        join(1, 1),
-        join(0, 9),
-        join(0, 0),
-    ];
-    fit(&tries, width)
-}
-
-fn status(f: &mut Frame, app: &App, r: Rect) {
-    let style = if app.stale() { warn(app) } else { bold() };
-    f.render_widget(
-        Paragraph::new(Line::from(Span::styled(
-            status_text(app, r.width as usize),
-            style,
-        ))),
-        r,
-    );
 }
 
 /// Whether the clock's TIE means something: a clock that holds its frequency (a moving clock's
@@ -795,344 +580,6 @@ fn events(f: &mut Frame, app: &App, r: Rect) {
     f.render_widget(Paragraph::new(rows).block(block), r);
 }
 
-/// (lowest, highest) of `values`, widened so a flat line has room.
-fn bounds(values: impl Iterator<Item = f64>) -> Option<[f64; 2]> {
-    let (lo, hi) = values
-        .filter(|v| v.is_finite())
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
-            (lo.min(v), hi.max(v))
-        });
-    if !lo.is_finite() {
-        return None;
-    }
-    let pad = ((hi - lo) * 0.1).max(hi.abs() * 1e-6).max(1e-9);
-    Some([lo - pad, hi + pad])
-}
-
-fn time_axis(t: [f64; 2]) -> Axis<'static> {
-    Axis::default()
-        .bounds(t)
-        .labels([format!("{:.1} s", t[0]), format!("{:.1} s", t[1])])
-}
-
-fn picture(f: &mut Frame, app: &App, r: Rect) {
-    let Some(s) = &app.snapshot else {
-        let block = panel(app, app.picture.name());
-        f.render_widget(Paragraph::new("waiting for figures…").block(block), r);
-        return;
-    };
-    let mid = |p: &crate::measure::SeriesPoint| (p.from_s + p.to_s) / 2.0;
-    let t = s
-        .series
-        .points
-        .iter()
-        .fold(None, |acc: Option<[f64; 2]>, p| {
-            Some(acc.map_or([p.from_s, p.to_s], |[a, b]| {
-                [a.min(p.from_s), b.max(p.to_s)]
-            }))
-        })
-        .filter(|[a, b]| b > a)
-        .unwrap_or([0.0, 1.0]);
-    let span = t[1] - t[0];
-    let what = match app.picture {
-        Picture::Frequency => "frequency".to_string(),
-        Picture::Slack => format!(
-            "slack in % of need: low, high, period; zero and the {:.0} % guard band",
-            app.margin.as_ref().map_or(0.0, |m| m.guard_band * 100.0)
-        ),
-        Picture::Rails => "each rail's lowest against its limit".to_string(),
-    };
-    let w = r.width.saturating_sub(4) as usize;
-    let title = fit(
-        &[
-            format!("{what}, last {span:.1} s (d: next picture)"),
-            format!("{what}, last {span:.1} s (d)"),
-            format!("{}, last {span:.1} s (d)", app.picture.name()),
-            format!("{} (d)", app.picture.name()),
-        ],
-        w,
-    );
-    let block = panel(app, &title);
-    let msg = |text: &str| Paragraph::new(text.to_string()).block(panel(app, &title));
-    let color = |c: Color| st(app, c);
-    match app.picture {
-        Picture::Frequency => {
-            let pts: Vec<(f64, f64)> = s
-                .series
-                .clock_points()
-                .filter_map(|p| p.frequency_hz.map(|v| (mid(p), v)))
-                .collect();
-            let Some(y) = bounds(pts.iter().map(|p| p.1)) else {
-                f.render_widget(msg("no clock intervals yet"), r);
-                return;
-            };
-            let data = [Dataset::default()
-                .name("frequency")
-                .marker(Marker::Braille)
-                .graph_type(GraphType::Line)
-                .style(color(Color::Cyan))
-                .data(&pts)];
-            // a steady clock moves in its last digits: the axis is labelled from the middle
-            let centre = (y[0] + y[1]) / 2.0;
-            let half = (y[1] - y[0]) / 2.0;
-            let chart = Chart::new(data.to_vec())
-                .block(block)
-                .x_axis(time_axis(t))
-                .y_axis(Axis::default().bounds(y).labels([
-                    format!("−{}", hz(half)),
-                    hz(centre).to_string(),
-                    format!("+{}", hz(half)),
-                ]))
-                .hidden_legend_constraints((Constraint::Ratio(0, 1), Constraint::Ratio(0, 1)));
-            f.render_widget(chart, r);
-        }
-        Picture::Slack => {
-            let Some(m) = &app.margin else {
-                let text = if app.design.is_some() {
-                    "waiting for cycles…"
-                } else {
-                    "slack needs a design (--design)"
-                };
-                f.render_widget(msg(text), r);
-                return;
-            };
-            let need = |name: &str| {
-                m.worst_case
-                    .phases
-                    .iter()
-                    .find(|p| p.phase == name)
-                    .map(|p| p.required_ns)
-                    .filter(|r| *r > 0.0)
-            };
-            let series = |name: &str, get: fn(&crate::measure::SeriesPoint) -> Option<f64>| {
-                let Some(req) = need(name) else {
-                    return Vec::new();
-                };
-                s.series
-                    .clock_points()
-                    .filter_map(|p| get(p).map(|v| (mid(p), (v - req) / req * 100.0)))
-                    .collect::<Vec<_>>()
-            };
-            let low = series("low", |p| p.low_min_ns);
-            let high = series("high", |p| p.high_min_ns);
-            let period = series("period", |p| p.period_min_ns);
-            let guard = m.guard_band * 100.0;
-            let zero = vec![(t[0], 0.0), (t[1], 0.0)];
-            let band = vec![(t[0], guard), (t[1], guard)];
-            let Some(y) = bounds(
-                low.iter()
-                    .chain(&high)
-                    .chain(&period)
-                    .map(|p| p.1)
-                    .chain([0.0, guard]),
-            ) else {
-                f.render_widget(msg("no clock intervals yet"), r);
-                return;
-            };
-            let data = vec![
-                Dataset::default()
-                    .name("zero")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Dot)
-                    .style(color(Color::Red))
-                    .data(&zero),
-                Dataset::default()
-                    .name(format!("guard {guard:.0} %"))
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Dot)
-                    .style(color(Color::Yellow))
-                    .data(&band),
-                Dataset::default()
-                    .name("low")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Braille)
-                    .style(color(Color::Cyan))
-                    .data(&low),
-                Dataset::default()
-                    .name("high")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Braille)
-                    .style(color(Color::Magenta))
-                    .data(&high),
-                Dataset::default()
-                    .name("period")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Braille)
-                    .style(color(Color::Green))
-                    .data(&period),
-            ];
-            let chart = Chart::new(data)
-                .block(block)
-                .x_axis(time_axis(t))
-                .y_axis(
-                    Axis::default()
-                        .bounds(y)
-                        .labels([format!("{:+.0}%", y[0]), format!("{:+.0}%", y[1])]),
-                )
-                .hidden_legend_constraints((Constraint::Ratio(1, 1), Constraint::Ratio(1, 1)));
-            f.render_widget(chart, r);
-        }
-        Picture::Rails => {
-            let mut sets: Vec<(String, Vec<(f64, f64)>)> = Vec::new();
-            for (i, name) in s.series.rails.iter().enumerate() {
-                let pts: Vec<(f64, f64)> = s
-                    .series
-                    .points
-                    .iter()
-                    .filter_map(|p| {
-                        p.rail_min_mv
-                            .get(i)
-                            .copied()
-                            .flatten()
-                            .map(|v| (mid(p), v / 1000.0))
-                    })
-                    .collect();
-                sets.push((name.clone(), pts));
-            }
-            let limits: Vec<(f64, Vec<(f64, f64)>)> = s
-                .series
-                .rail_limits_mv
-                .iter()
-                .map(|l| (l / 1000.0, vec![(t[0], l / 1000.0), (t[1], l / 1000.0)]))
-                .collect();
-            let Some(y) = bounds(
-                sets.iter()
-                    .flat_map(|s| s.1.iter().map(|p| p.1))
-                    .chain(limits.iter().map(|l| l.0)),
-            ) else {
-                f.render_widget(msg("no rail samples yet"), r);
-                return;
-            };
-            const COLOURS: [Color; 4] = [Color::Cyan, Color::Green, Color::Magenta, Color::Blue];
-            let mut data: Vec<Dataset> = Vec::new();
-            let mut shown_limits: Vec<f64> = Vec::new();
-            for (l, pts) in &limits {
-                if shown_limits.iter().any(|x| (x - l).abs() < 1e-6) {
-                    continue;
-                }
-                shown_limits.push(*l);
-                data.push(
-                    Dataset::default()
-                        .name(format!("limit {l:.2} V"))
-                        .graph_type(GraphType::Line)
-                        .marker(Marker::Dot)
-                        .style(color(Color::Red))
-                        .data(pts),
-                );
-            }
-            for (i, (name, pts)) in sets.iter().enumerate() {
-                data.push(
-                    Dataset::default()
-                        .name(format!("{name} min"))
-                        .graph_type(GraphType::Line)
-                        .marker(Marker::Braille)
-                        .style(color(COLOURS[i % COLOURS.len()]))
-                        .data(pts),
-                );
-            }
-            let chart = Chart::new(data)
-                .block(block)
-                .x_axis(time_axis(t))
-                .y_axis(
-                    Axis::default()
-                        .bounds(y)
-                        .labels([format!("{:.2} V", y[0]), format!("{:.2} V", y[1])]),
-                )
-                .hidden_legend_constraints((Constraint::Ratio(1, 1), Constraint::Ratio(1, 1)));
-            f.render_widget(chart, r);
-        }
-    }
-}
-
-fn keybar(f: &mut Frame, app: &App, r: Rect) {
-    let replay = matches!(app.source, Source::Replay { .. });
-    let keys: Vec<String> = KEYS
-        .iter()
-        .filter(|k| k.3.in_view(replay))
-        .map(|(k, short, _, _)| format!("{k} {short}"))
-        .collect();
-    // as many as fit, help always
-    let w = r.width as usize;
-    let mut text = String::new();
-    for k in &keys {
-        let next = if text.is_empty() {
-            k.clone()
-        } else {
-            format!("{text}  {k}")
-        };
-        if width_of(&next) + "  ? help".len() > w && !k.starts_with('?') {
-            continue;
-        }
-        text = next;
-    }
-    f.render_widget(
-        Paragraph::new(text).style(Style::default().add_modifier(Modifier::DIM)),
-        r,
-    );
-}
-
-/// What the help overlay explains beside the keys.
-pub const HELP_NOTES: &[&str] = &[
-    "STALE: the link is down; the figures are the last ones that came.",
-    "TIE (time interval error): each edge against an ideal clock; shown only when the clock",
-    "  holds its frequency and its jitter is above the probe's resolution.",
-    "Lines: their level, and \"no change seen\" or when they last changed;",
-    "  the heartbeat is beating or \"stopped N s ago\".",
-    "Event times are probe time; \"host:\" events carry the host's clock.",
-];
-
-fn help(f: &mut Frame, app: &App, area: Rect) {
-    let replay = matches!(app.source, Source::Replay { .. });
-    let mut lines: Vec<Line> = KEYS
-        .iter()
-        .filter(|k| k.3.in_view(replay))
-        .map(|(k, _, d, _)| Line::from(format!(" {k:<8} {d}")))
-        .collect();
-    lines.push(Line::from(""));
-    lines.extend(HELP_NOTES.iter().map(|n| Line::from(format!(" {n}"))));
-    let h = (lines.len() as u16 + 2).min(area.height);
-    let w = 92.min(area.width);
-    let r = Rect {
-        x: (area.width - w) / 2,
-        y: (area.height.saturating_sub(h)) / 2,
-        width: w,
-        height: h,
-    };
-    f.render_widget(Clear, r);
-    f.render_widget(
-        Paragraph::new(lines).wrap(Wrap { trim: false }).block(
-            Block::default()
-                .borders(Borders::ALL)
-                .title(" keys (? closes) "),
-        ),
-        r,
-    );
-}
-
-fn prompt(f: &mut Frame, ask: Ask, text: &str, area: Rect) {
-    let w = 72.min(area.width - 4);
-    let r = Rect {
-        x: (area.width - w) / 2,
-        y: area.height / 2 - 1,
-        width: w,
-        height: 3,
-    };
-    let title = match ask {
-        Ask::Mark => " mark text (Enter stores, Esc cancels) ",
-        Ask::RecordFile => " record to file (Enter starts, Esc cancels) ",
-    };
-    // the end of a long text stays in sight
-    let room = w.saturating_sub(3) as usize;
-    let n = width_of(text);
-    let shown: String = text.chars().skip(n.saturating_sub(room)).collect();
-    f.render_widget(Clear, r);
-    f.render_widget(
-        Paragraph::new(format!("{shown}_"))
-            .block(Block::default().borders(Borders::ALL).title(title)),
-        r,
-    );
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1181,17 +628,5 @@ mod tests {
             line_words(&line(LineRole::Heartbeat, Some(true), Some(2.0), Some(4.0))),
             "stopped 4 s ago"
         );
-    }
-
-    #[test]
-    fn fit_never_cuts_a_number() {
-        let v = vec![
-            "frequency 500.0 kHz ± 19.67 mHz".to_string(),
-            "freq 500.0 kHz".into(),
-        ];
-        assert_eq!(fit(&v, 40), v[0]);
-        assert_eq!(fit(&v, 20), "freq 500.0 kHz");
-        assert_eq!(fit(&v, 12), "freq 500.0…");
-        assert_eq!(wrap("one two three", 7), vec!["one two", "three"]);
     }
 }
