@@ -9,8 +9,8 @@ use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
 
 use super::keys::KEYS;
 use super::state::{App, Ask, Source};
+use super::style::{bold, warn};
 use super::text::{fit, width_of};
-use super::view::{bold, warn};
 use crate::measure::Window;
 
 /// The status line's parts: (priority, long form, short form).

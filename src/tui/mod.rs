@@ -8,5 +8,6 @@ pub mod keys;
 pub mod picture;
 pub mod run;
 pub mod state;
+pub mod style;
 pub mod text;
 pub mod view;

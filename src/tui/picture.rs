@@ -9,8 +9,8 @@ use ratatui::symbols::Marker;
 use ratatui::widgets::{Axis, Chart, Dataset, GraphType, Paragraph};
 
 use super::state::{App, Picture};
+use super::style::{panel, st};
 use super::text::fit;
-use super::view::{panel, st};
 use crate::units::hz;
 
 /// (lowest, highest) of `values`, widened so a flat line has room.

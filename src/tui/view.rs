@@ -8,13 +8,14 @@
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Direction, Layout, Rect};
-use ratatui::style::{Color, Modifier, Style};
+use ratatui::style::Color;
 use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 
 use super::bars::{help, keybar, prompt, status};
 use super::picture::picture;
 use super::state::App;
+use super::style::{bold, figures_style, panel, st, warn};
 use super::text::{Row, by_priority, row, width_of};
 pub use super::text::{fit, wrap};
 use crate::measure::LineSnapshot;
@@ -24,45 +25,8 @@ use crate::units::{hz, ns};
 /// Smallest terminal the full view needs.
 pub const MIN_SIZE: (u16, u16) = (80, 24);
 
-pub(super) fn st(app: &App, color: Color) -> Style {
-    if app.color {
-        Style::default().fg(color)
-    } else {
-        Style::default()
-    }
-}
-
-pub(super) fn warn(app: &App) -> Style {
-    if app.color {
-        Style::default().fg(Color::Red).add_modifier(Modifier::BOLD)
-    } else {
-        Style::default().add_modifier(Modifier::BOLD | Modifier::REVERSED)
-    }
-}
-
-pub(super) fn bold() -> Style {
-    Style::default().add_modifier(Modifier::BOLD)
-}
-
 fn opt_ns(v: Option<f64>) -> String {
     v.map_or("—".into(), |x| ns(x).to_string())
-}
-
-pub(super) fn panel(app: &App, title: &str) -> Block<'static> {
-    let t = if app.stale() {
-        format!(" {title} — STALE (link down) ")
-    } else {
-        format!(" {title} ")
-    };
-    Block::default().borders(Borders::ALL).title(t)
-}
-
-fn figures_style(app: &App) -> Style {
-    if app.stale() {
-        Style::default().add_modifier(Modifier::DIM)
-    } else {
-        Style::default()
-    }
 }
 
 /// Draw the whole view.
