@@ -7,7 +7,7 @@ use ratatui::style::{Modifier, Style};
 use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
 
-use super::keys::KEYS;
+use super::keys::{KEYS, Offered};
 use super::state::{App, Ask, Source};
 use super::style::{bold, warn};
 use super::text::{fit, width_of};
@@ -151,9 +151,15 @@ pub fn status(f: &mut Frame, app: &App, r: Rect) {
 /// Draw the key bar: the keys this view offers, as many as fit (`?` always).
 pub fn keybar(f: &mut Frame, app: &App, r: Rect) {
     let replay = matches!(app.source, Source::Replay { .. });
-    let keys: Vec<String> = KEYS
+    // in a replay its own keys come right after quit, so they fit first
+    let mut offered: Vec<_> = KEYS.iter().filter(|k| k.3.in_view(replay)).collect();
+    offered.sort_by_key(|k| match (k.0, k.3) {
+        ("q", _) => 0,
+        (_, Offered::Replay) => 1,
+        _ => 2,
+    });
+    let keys: Vec<String> = offered
         .iter()
-        .filter(|k| k.3.in_view(replay))
         .map(|(k, short, _, _)| format!("{k} {short}"))
         .collect();
     // as many as fit, help always
@@ -179,10 +185,8 @@ pub fn keybar(f: &mut Frame, app: &App, r: Rect) {
 /// What the help overlay explains beside the keys.
 pub const HELP_NOTES: &[&str] = &[
     "STALE: the link is down; the figures are the last ones that came.",
-    "TIE (time interval error): each edge against an ideal clock; shown only when the clock",
-    "  holds its frequency and its jitter is above the probe's resolution.",
-    "Lines: their level, and \"no change seen\" or when they last changed;",
-    "  the heartbeat is beating or \"stopped N s ago\".",
+    "TIE (time interval error): each edge against an ideal clock; shown only when the clock holds its frequency and its jitter is above the probe's resolution.",
+    "Lines: their level, and \"no change seen\" or when they last changed; the heartbeat is beating or \"stopped N s ago\".",
     "Event times are probe time; \"host:\" events carry the host's clock.",
 ];
 

@@ -447,7 +447,7 @@ impl App {
             } else {
                 "no marks after this point"
             };
-            self.event_of(EventKind::Host, at_s, format!("replay: {text}"));
+            self.event_of(EventKind::Mark, at_s, format!("replay: {text}"));
         }
         next
     }
