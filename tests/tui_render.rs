@@ -202,13 +202,24 @@ fn every_priority_item_at_80x24_100x30_160x50() {
 #[test]
 fn pictures_cycle_with_d_and_say_what_they_show() {
     let mut a = app(streaming(), true);
-    for (word, _) in [("frequency", 0), ("slack", 1), ("rails", 2)] {
+    for word in [
+        "frequency, last",
+        "slack in % of need",
+        "high time histogram",
+        "low time histogram",
+        "period time histogram",
+        "each rail's lowest",
+    ] {
         let s = draw(&a, 160, 50);
-        assert!(s.contains(word) && s.contains("(d"), "{s}");
+        assert!(s.contains(word) && s.contains("(d"), "{word}:\n{s}");
         a.apply(Action::Picture);
     }
     let s = draw(&a, 160, 50);
     assert!(s.contains("frequency, last"), "back to the first:\n{s}");
+    // the histograms draw the budget's requirement beside the cycles
+    a.picture = slackmeter::tui::state::Picture::High;
+    let s = draw(&a, 160, 50);
+    assert!(s.contains("needs 245.0 ns"), "{s}");
 }
 
 #[test]

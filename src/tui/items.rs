@@ -8,19 +8,35 @@ pub enum Picture {
     Frequency,
     /// Each phase's slack over time, in % of its requirement, with zero and the guard band.
     Slack,
+    /// Histogram of the high times, with the high phase's requirement.
+    High,
+    /// Histogram of the low times, with the low phase's requirement.
+    Low,
+    /// Histogram of the periods, with the period's requirement.
+    Period,
     /// Each rail's lowest value over time against its limit.
     Rails,
 }
 
 impl Picture {
     /// All, in the order `d` shows them.
-    pub const ALL: [Picture; 3] = [Picture::Frequency, Picture::Slack, Picture::Rails];
+    pub const ALL: [Picture; 6] = [
+        Picture::Frequency,
+        Picture::Slack,
+        Picture::High,
+        Picture::Low,
+        Picture::Period,
+        Picture::Rails,
+    ];
 
     /// Its name on screen (the footer and the help use the same words).
     pub fn name(self) -> &'static str {
         match self {
             Picture::Frequency => "frequency",
             Picture::Slack => "slack",
+            Picture::High => "high",
+            Picture::Low => "low",
+            Picture::Period => "period",
             Picture::Rails => "rails",
         }
     }
@@ -28,7 +44,10 @@ impl Picture {
     pub(super) fn next(self) -> Picture {
         match self {
             Picture::Frequency => Picture::Slack,
-            Picture::Slack => Picture::Rails,
+            Picture::Slack => Picture::High,
+            Picture::High => Picture::Low,
+            Picture::Low => Picture::Period,
+            Picture::Period => Picture::Rails,
             Picture::Rails => Picture::Frequency,
         }
     }

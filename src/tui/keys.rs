@@ -98,7 +98,7 @@ pub const KEYS: &[(&str, &str, &str, Offered)] = &[
     (
         "d",
         "picture",
-        "next picture: frequency / slack / rails",
+        "next picture: frequency / slack / high / low / period / rails",
         Offered::Always,
     ),
     (

@@ -11,7 +11,7 @@ use ratatui::widgets::{Axis, Chart, Dataset, GraphType, Paragraph};
 use super::state::{App, Picture};
 use super::style::{panel, st};
 use super::text::fit;
-use crate::units::hz;
+use crate::units::{hz, ns};
 
 /// (lowest, highest) of `values`, widened so a flat line has room.
 fn bounds(values: impl Iterator<Item = f64>) -> Option<[f64; 2]> {
@@ -60,6 +60,10 @@ pub fn picture(f: &mut Frame, app: &App, r: Rect) {
             app.margin.as_ref().map_or(0.0, |m| m.guard_band * 100.0)
         ),
         Picture::Rails => "each rail's lowest against its limit".to_string(),
+        Picture::High | Picture::Low | Picture::Period => format!(
+            "{} time histogram, | = what the budget needs",
+            app.picture.name()
+        ),
     };
     let w = r.width.saturating_sub(4) as usize;
     let title = fit(
@@ -191,6 +195,67 @@ pub fn picture(f: &mut Frame, app: &App, r: Rect) {
                 .hidden_legend_constraints((Constraint::Ratio(1, 1), Constraint::Ratio(1, 1)));
             f.render_widget(chart, r);
         }
+        Picture::High | Picture::Low | Picture::Period => {
+            let (i, phase) = match app.picture {
+                Picture::Period => (0, "period"),
+                Picture::High => (1, "high"),
+                _ => (2, "low"),
+            };
+            let Some(c) = s.clock() else {
+                f.render_widget(msg("no clock yet"), r);
+                return;
+            };
+            let need = app.margin.as_ref().and_then(|m| {
+                m.worst_case
+                    .phases
+                    .iter()
+                    .find(|p| p.phase == phase)
+                    .map(|p| p.required_ns)
+            });
+            let bars = bins(&c.histograms[i], r.width.saturating_sub(12) as usize);
+            let Some(top) = bars.iter().map(|b| b.1).reduce(f64::max) else {
+                f.render_widget(msg("no cycles yet"), r);
+                return;
+            };
+            let Some(x) = bounds(bars.iter().map(|b| b.0).chain(need)) else {
+                f.render_widget(msg("no cycles yet"), r);
+                return;
+            };
+            let marker: Vec<(f64, f64)> =
+                need.map_or(Vec::new(), |n| vec![(n, 0.0), (n, top * 1.05)]);
+            let mut data = vec![
+                Dataset::default()
+                    .name("cycles")
+                    .graph_type(GraphType::Bar)
+                    .marker(Marker::Braille)
+                    .style(color(Color::Cyan))
+                    .data(&bars),
+            ];
+            if let Some(n) = need {
+                data.push(
+                    Dataset::default()
+                        .name(format!("needs {}", ns(n)))
+                        .graph_type(GraphType::Line)
+                        .marker(Marker::Braille)
+                        .style(color(Color::Red))
+                        .data(&marker),
+                );
+            }
+            let chart = Chart::new(data)
+                .block(block)
+                .x_axis(
+                    Axis::default()
+                        .bounds(x)
+                        .labels([ns(x[0]).to_string(), ns(x[1]).to_string()]),
+                )
+                .y_axis(
+                    Axis::default()
+                        .bounds([0.0, top * 1.05])
+                        .labels(["0".to_string(), format!("{top:.0}")]),
+                )
+                .hidden_legend_constraints((Constraint::Ratio(1, 1), Constraint::Ratio(1, 1)));
+            f.render_widget(chart, r);
+        }
         Picture::Rails => {
             let mut sets: Vec<(String, Vec<(f64, f64)>)> = Vec::new();
             for (i, name) in s.series.rails.iter().enumerate() {
@@ -260,5 +325,43 @@ pub fn picture(f: &mut Frame, app: &App, r: Rect) {
                 .hidden_legend_constraints((Constraint::Ratio(1, 1), Constraint::Ratio(1, 1)));
             f.render_widget(chart, r);
         }
+    }
+}
+
+/// Tick buckets (ns, cycles) merged into at most `n` bins of equal width (ns at the bin's
+/// middle, cycles), so a wide spread still fits the picture.
+pub fn bins(buckets: &[(f64, u64)], n: usize) -> Vec<(f64, f64)> {
+    let n = n.max(1);
+    let (Some(first), Some(last)) = (buckets.first(), buckets.last()) else {
+        return Vec::new();
+    };
+    if buckets.len() <= n {
+        return buckets.iter().map(|&(v, c)| (v, c as f64)).collect();
+    }
+    let (lo, hi) = (first.0, last.0);
+    let w = ((hi - lo) / n as f64).max(f64::MIN_POSITIVE);
+    let mut out = vec![0.0; n];
+    for &(v, c) in buckets {
+        let i = (((v - lo) / w) as usize).min(n - 1);
+        out[i] += c as f64;
+    }
+    out.into_iter()
+        .enumerate()
+        .filter(|(_, c)| *c > 0.0)
+        .map(|(i, c)| (lo + (i as f64 + 0.5) * w, c))
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn bins_keep_every_cycle() {
+        let b: Vec<(f64, u64)> = (0..100).map(|i| (f64::from(i) * 8.0, 2)).collect();
+        let merged = bins(&b, 10);
+        assert_eq!(merged.len(), 10);
+        assert_eq!(merged.iter().map(|x| x.1).sum::<f64>(), 200.0);
+        assert_eq!(bins(&b[..3], 10), vec![(0.0, 2.0), (8.0, 2.0), (16.0, 2.0)]);
     }
 }

@@ -187,6 +187,13 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     s.period_percentiles = percentiles(&a.hist_period, q);
     s.high_percentiles = percentiles(&a.hist_high, q);
     s.low_percentiles = percentiles(&a.hist_low, q);
+    let ns = |h: &DevHistogram| {
+        h.buckets()
+            .into_iter()
+            .map(|(v, c)| (v as f64 * q, c))
+            .collect::<Vec<_>>()
+    };
+    s.histograms = [ns(&a.hist_period), ns(&a.hist_high), ns(&a.hist_low)];
 }
 
 /// Mean, extremes and the worst cycle of one phase (high or low times), ns and s.
