@@ -12,7 +12,7 @@ fn main() {
     divan::main();
 }
 
-#[divan::bench(args = ["frequency", "slack", "rails"])]
+#[divan::bench(args = ["frequency", "slack", "high", "period", "rails"])]
 fn full_frame_160x50(bencher: divan::Bencher, picture: &str) {
     let lib = Library::builtin();
     let d = Design::demo(&lib);
