@@ -1,4 +1,4 @@
-//! Live view speed: one full frame at 160×50. Run: `cargo bench --bench tui`.
+//! Live view speed: one full frame at 160×50 with each picture. Run: `cargo bench --bench tui`.
 
 use ratatui::Terminal;
 use ratatui::backend::TestBackend;
@@ -12,8 +12,8 @@ fn main() {
     divan::main();
 }
 
-#[divan::bench]
-fn full_frame_160x50(bencher: divan::Bencher) {
+#[divan::bench(args = ["frequency", "slack", "high", "period", "rails"])]
+fn full_frame_160x50(bencher: divan::Bencher, picture: &str) {
     let lib = Library::builtin();
     let d = Design::demo(&lib);
     let mut p = SimProbe::new(BenchModel::scenario("sagging").unwrap(), vec![]);
@@ -36,6 +36,9 @@ fn full_frame_160x50(bencher: divan::Bencher) {
         app.event(i as f64, format!("event {i}"));
     }
     app.show(snap, margin);
+    while app.picture.name() != picture {
+        app.apply(slackmeter::tui::keys::Action::Picture);
+    }
     let mut t = Terminal::new(TestBackend::new(160, 50)).unwrap();
     bencher.bench_local(|| {
         t.draw(|fr| slackmeter::tui::view::render(fr, &app))

@@ -202,3 +202,23 @@ fn a_failed_recorder_stops_record_at_once() {
     assert!(sum.data_bytes > 0);
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// `watch --record` onto an existing file is refused before the view opens, as bad input.
+#[test]
+fn watch_refuses_an_existing_record_file_before_the_view() {
+    let d = tmp("watch-record");
+    let old = d.join("old.smrec");
+    std::fs::write(&old, b"keep me").unwrap();
+    let (c, err) = code(&["watch".into(), "--sim".into(), "--record".into(), s(&old)]);
+    assert_eq!(c, 2, "{err}");
+    assert!(err.contains("the file exists"), "{err}");
+    assert_eq!(std::fs::read(&old).unwrap(), b"keep me");
+    let (c, err) = code(&[
+        "watch".into(),
+        "--sim".into(),
+        "--record-dir".into(),
+        s(&d.join("no-such-folder")),
+    ]);
+    assert_eq!(c, 2, "{err}");
+    assert!(err.contains("no such folder"), "{err}");
+}

@@ -29,6 +29,17 @@ fn need_terminal(alternatives: &str) -> CliResult<()> {
     )))
 }
 
+/// Where the view records and what it replays beside the source.
+#[derive(Default)]
+pub struct ViewFiles {
+    /// Record from the start into this file.
+    pub record: Option<PathBuf>,
+    /// The folder `R` offers (None: the current one).
+    pub record_dir: Option<PathBuf>,
+    /// Marks of a replayed recording, s since its start.
+    pub replay_marks: Vec<f64>,
+}
+
 /// Start `source` (shown as `what`) and run the live view on it until quit; without a terminal
 /// the message names `alternatives`.
 pub fn show(
@@ -36,7 +47,7 @@ pub fn show(
     what: String,
     design: Option<Design>,
     library: Library,
-    record: Option<PathBuf>,
+    files: ViewFiles,
     alternatives: &str,
 ) -> CliResult<Outcome> {
     let header = session::header(what, vec![], design.as_ref().map(embedded), None);
@@ -47,7 +58,9 @@ pub fn show(
         session,
         design,
         library,
-        record,
+        record: files.record,
+        record_dir: files.record_dir.unwrap_or_default(),
+        replay_marks: files.replay_marks,
     })?;
     Ok(Outcome::Done)
 }

@@ -3,9 +3,10 @@
 use std::path::PathBuf;
 
 use super::design::DesignArgs;
-use super::error::{CliResult, Outcome};
-use super::live::show;
+use super::error::{CliError, CliResult, Outcome};
+use super::live::{ViewFiles, show};
 use crate::record::Recording;
+use crate::record::format::ChunkKind;
 use crate::session::SourceSpec;
 
 /// Options of `replay`.
@@ -24,18 +25,31 @@ pub struct ReplayArgs {
 /// `slackmeter replay`.
 pub fn run(a: ReplayArgs) -> CliResult<Outcome> {
     let library = a.design.library()?;
-    let header = Recording::open(&a.file)?.parsed.header;
+    let mut rec = Recording::open(&a.file)?;
+    let header = rec.parsed.header.clone();
+    let t0 = header.start_unix_ns;
+    // the marks' times, for `n` (a damaged end stops the scan; the replay reports it)
+    let mut replay_marks = Vec::new();
+    while let Ok(Some(c)) = rec.chunk_reader().next_chunk() {
+        if c.kind == ChunkKind::Mark {
+            replay_marks.push(c.host_ns.saturating_sub(t0) as f64 * 1e-9);
+        }
+    }
     let design = a.design.or_embedded(&header, &a.file, &library)?;
     let spec = SourceSpec::Replay {
         path: a.file.clone(),
         speed: a.speed,
+    };
+    let files = ViewFiles {
+        replay_marks,
+        ..ViewFiles::default()
     };
     show(
         spec,
         a.file.display().to_string(),
         design,
         library,
-        None,
+        files,
         "`slackmeter report FILE` (the figures as text) or `slackmeter export`",
     )
 }

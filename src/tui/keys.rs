@@ -25,8 +25,16 @@ pub enum Action {
     Record,
     /// Switch between the recent window and the whole session.
     Window,
-    /// Switch the distribution shown in the clock area.
-    Detail,
+    /// Show the next picture.
+    Picture,
+    /// List the next kind of event only (then all again).
+    Filter,
+    /// Scroll the events back by one.
+    Up,
+    /// Scroll the events on by one.
+    Down,
+    /// Follow the newest event again.
+    End,
     /// Show or hide the key help.
     Help,
     /// Replay: pause or resume.
@@ -41,20 +49,74 @@ pub enum Action {
     None,
 }
 
+/// Where a key is offered.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Offered {
+    /// Watching and replaying.
+    Always,
+    /// Only on a live source (marks and recordings of a replay would make useless files).
+    Live,
+    /// Only in a replay.
+    Replay,
+}
+
+impl Offered {
+    /// Whether the key is offered in a replay (`replay`) or on a live source.
+    pub fn in_view(self, replay: bool) -> bool {
+        match self {
+            Offered::Always => true,
+            Offered::Live => !replay,
+            Offered::Replay => replay,
+        }
+    }
+}
+
 /// The keys as shown on screen and in the help overlay:
-/// (key, short label for the key bar, what it does, replay only).
-pub const KEYS: &[(&str, &str, &str, bool)] = &[
-    ("q", "quit", "quit", false),
-    ("space", "freeze", "freeze / unfreeze the figures", false),
-    ("r", "reset", "reset the statistics", false),
-    ("m", "mark", "add a mark (type text, Enter)", false),
-    ("R", "record", "start / stop recording", false),
-    ("w", "window", "recent window / whole session", false),
-    ("d", "detail", "distribution: period / high / low", false),
-    ("?", "help", "this help", false),
-    ("p", "pause", "pause / resume the replay", true),
-    ("+ -", "speed", "replay faster / slower", true),
-    ("n", "next mark", "jump to the next mark", true),
+/// (key, short label for the key bar, what it does, where offered).
+pub const KEYS: &[(&str, &str, &str, Offered)] = &[
+    ("q", "quit", "quit", Offered::Always),
+    (
+        "space",
+        "freeze",
+        "freeze / unfreeze the figures",
+        Offered::Always,
+    ),
+    ("r", "reset", "reset the statistics", Offered::Always),
+    ("m", "mark", "add a mark (type text, Enter)", Offered::Live),
+    (
+        "R",
+        "record",
+        "record to a file (asks its name) / stop",
+        Offered::Live,
+    ),
+    (
+        "w",
+        "window",
+        "recent 10 s / whole session",
+        Offered::Always,
+    ),
+    (
+        "d",
+        "picture",
+        "next picture: frequency / slack / high / low / period / rails",
+        Offered::Always,
+    ),
+    (
+        "f",
+        "filter",
+        "events: all / marks / clock / rails / lines / failures / host",
+        Offered::Always,
+    ),
+    (
+        "↑ ↓ End",
+        "scroll",
+        "scroll the events; End follows the newest",
+        Offered::Always,
+    ),
+    ("?", "help", "this help", Offered::Always),
+    ("p", "pause", "pause / resume the replay", Offered::Replay),
+    ("+ -", "speed", "replay faster / slower", Offered::Replay),
+    ("n", "next mark", "jump to the next mark", Offered::Replay),
 ];
 
 /// Map a key press to an action. `typing` is true while a mark's text is being typed.
@@ -75,10 +137,14 @@ pub fn action(key: KeyEvent, typing: bool, replay: bool) -> Action {
         KeyCode::Char('q') | KeyCode::Esc => Action::Quit,
         KeyCode::Char(' ') => Action::Freeze,
         KeyCode::Char('r') => Action::Reset,
-        KeyCode::Char('m') => Action::MarkStart,
-        KeyCode::Char('R') => Action::Record,
+        KeyCode::Char('m') if !replay => Action::MarkStart,
+        KeyCode::Char('R') if !replay => Action::Record,
         KeyCode::Char('w') => Action::Window,
-        KeyCode::Char('d') => Action::Detail,
+        KeyCode::Char('d') => Action::Picture,
+        KeyCode::Char('f') => Action::Filter,
+        KeyCode::Up => Action::Up,
+        KeyCode::Down => Action::Down,
+        KeyCode::End => Action::End,
         KeyCode::Char('?') | KeyCode::F(1) => Action::Help,
         KeyCode::Char('p') if replay => Action::ReplayPause,
         KeyCode::Char('+') | KeyCode::Char('=') if replay => Action::Faster,
@@ -104,7 +170,16 @@ mod tests {
         assert_eq!(action(k('R'), false, false), Action::Record);
         assert_eq!(action(k('m'), false, false), Action::MarkStart);
         assert_eq!(action(k('w'), false, false), Action::Window);
-        assert_eq!(action(k('d'), false, false), Action::Detail);
+        assert_eq!(action(k('d'), false, false), Action::Picture);
+        assert_eq!(action(k('f'), false, false), Action::Filter);
+        assert_eq!(
+            action(
+                KeyEvent::new(KeyCode::End, KeyModifiers::NONE),
+                false,
+                false
+            ),
+            Action::End
+        );
         assert_eq!(action(k('?'), false, false), Action::Help);
         assert_eq!(
             action(
@@ -149,5 +224,16 @@ mod tests {
         assert_eq!(action(k('+'), false, true), Action::Faster);
         assert_eq!(action(k('-'), false, true), Action::Slower);
         assert_eq!(action(k('n'), false, true), Action::NextMark);
+    }
+
+    #[test]
+    fn marks_and_recordings_only_on_a_live_source() {
+        assert_eq!(action(k('m'), false, true), Action::None);
+        assert_eq!(action(k('R'), false, true), Action::None);
+        assert!(
+            KEYS.iter()
+                .filter(|k| k.3.in_view(true))
+                .all(|k| k.0 != "m" && k.0 != "R")
+        );
     }
 }

@@ -9,7 +9,7 @@ use crossterm::event::{Event as TermEvent, EventStream, KeyEventKind};
 use futures_util::StreamExt;
 
 use super::keys::action;
-use super::state::{App, Effect, Source};
+use super::state::{App, Ask, Effect, EventKind, Source};
 use crate::budget::{Design, Library};
 use crate::margin::{MarginConfig, evaluate};
 use crate::session::{Event, Session, SessionError};
@@ -24,6 +24,10 @@ pub struct Options {
     pub library: Library,
     /// Record from the start into this file.
     pub record: Option<PathBuf>,
+    /// The folder `R` offers to record into.
+    pub record_dir: PathBuf,
+    /// Marks of the replayed recording, s since its start (`n` finds them).
+    pub replay_marks: Vec<f64>,
 }
 
 /// Why the live view ended early.
@@ -50,52 +54,103 @@ pub fn run(opts: Options) -> Result<(), ViewError> {
     rt.block_on(run_async(opts))
 }
 
-/// Start recording into `path`, saying so in the event list.
+/// Start recording into `path`, saying so in the event list (host time: the recorder is the
+/// host's).
 fn start_recording(s: &mut Session, app: &mut App, path: &Path) {
-    let at = now_s(s);
-    match s.start_recording(path) {
-        Ok(()) => app.event(at, format!("recording to {}", path.display())),
-        Err(e) => app.event(at, format!("cannot record: {e}")),
+    let at = s.elapsed_s();
+    if path.exists() {
+        app.event_of(
+            EventKind::Host,
+            at,
+            format!(
+                "host: not recording: {} exists (R: give another name)",
+                path.display()
+            ),
+        );
+        return;
     }
+    match s.start_recording(path) {
+        Ok(()) => app.event_of(
+            EventKind::Host,
+            at,
+            format!("host: recording to {}", path.display()),
+        ),
+        Err(e) => app.event_of(EventKind::Host, at, format!("host: cannot record: {e}")),
+    }
+}
+
+/// Stop the recording under way, noting where it went.
+fn stop_recording(s: &mut Session, app: &mut App) {
+    let at = s.elapsed_s();
+    match s.stop_recording() {
+        Some(Ok((path, c))) => {
+            app.event_of(
+                EventKind::Host,
+                at,
+                format!(
+                    "host: recording stopped: {}, {:.1} MB",
+                    path.display(),
+                    c.file_bytes as f64 / 1e6
+                ),
+            );
+            app.recorded
+                .push((path.display().to_string(), c.file_bytes));
+        }
+        Some(Err(e)) => app.event_of(EventKind::Host, at, format!("host: recording failed: {e}")),
+        None => {}
+    }
+    app.recording = None;
 }
 
 fn now_s(s: &Session) -> f64 {
     s.engine().map_or(0.0, |e| e.snapshot_time_s())
 }
 
-/// R: stop the recording under way, or start one (the --record file if it is still free,
-/// else a new file named by the time).
-fn toggle_recording(s: &mut Session, app: &mut App, record_path: &mut Option<PathBuf>) {
-    let at = now_s(s);
-    match s.stop_recording() {
-        Some(Ok((path, c))) => app.event(
-            at,
-            format!(
-                "recording stopped: {}, {:.1} MB",
-                path.display(),
-                c.file_bytes as f64 / 1e6
-            ),
-        ),
-        Some(Err(e)) => app.event(at, format!("recording failed: {e}")),
-        None => {
-            let p = record_path
-                .clone()
-                .filter(|p| !p.exists())
-                .unwrap_or_else(|| {
-                    PathBuf::from(format!("slackmeter-{}.smrec", s.now_ns() / 1_000_000_000))
-                });
-            start_recording(s, app, &p);
-            *record_path = Some(p);
+/// The local date and time as `2026-12-03_16-20-05` (for a recording's default name).
+pub fn local_stamp() -> String {
+    // SAFETY: `time` with a null pointer only returns the time; `localtime_r` writes into the
+    // `tm` we own and returns null on failure, which is checked.
+    unsafe {
+        let now = libc::time(std::ptr::null_mut());
+        let mut tm: libc::tm = std::mem::zeroed();
+        if libc::localtime_r(&now, &mut tm).is_null() {
+            return format!("{now}");
         }
+        format!(
+            "{:04}-{:02}-{:02}_{:02}-{:02}-{:02}",
+            tm.tm_year + 1900,
+            tm.tm_mon + 1,
+            tm.tm_mday,
+            tm.tm_hour,
+            tm.tm_min,
+            tm.tm_sec
+        )
     }
 }
 
+/// The file `R` offers: the local date and time in `dir`.
+pub fn default_record_path(dir: &Path) -> PathBuf {
+    let stamp = local_stamp();
+    let mut p = dir.join(format!("slackmeter-{stamp}.smrec"));
+    let mut n = 2;
+    while p.exists() {
+        p = dir.join(format!("slackmeter-{stamp}-{n}.smrec"));
+        n += 1;
+    }
+    p
+}
+
 /// What a key's effect does to the session.
-fn perform(effect: Effect, s: &mut Session, app: &mut App, record_path: &mut Option<PathBuf>) {
+fn perform(effect: Effect, s: &mut Session, app: &mut App, record_dir: &Path) {
     match effect {
         Effect::Reset => s.reset_engine(),
         Effect::Mark(text) => s.mark(&text),
-        Effect::ToggleRecord => toggle_recording(s, app, record_path),
+        Effect::AskRecordFile => {
+            let p = default_record_path(record_dir);
+            app.ask(Ask::RecordFile, p.display().to_string());
+        }
+        Effect::StopRecord => stop_recording(s, app),
+        Effect::StartRecord(path) => start_recording(s, app, Path::new(&path)),
         Effect::ReplayPause => {
             if let (Some(c), Source::Replay { paused, .. }) = (s.replay_control(), &mut app.source)
             {
@@ -109,7 +164,13 @@ fn perform(effect: Effect, s: &mut Session, app: &mut App, record_path: &mut Opt
             }
         }
         Effect::NextMark => {
-            if let Some(c) = s.replay_control() {
+            let at = match app.source {
+                Source::Replay { at_s, .. } => at_s,
+                _ => return,
+            };
+            if app.next_mark(at).is_some()
+                && let Some(c) = s.replay_control()
+            {
                 c.skip_to_next_mark();
             }
         }
@@ -123,6 +184,8 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
         design,
         library,
         record,
+        record_dir,
+        replay_marks,
     } = opts;
     let color = std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
     let mut app = App::new(
@@ -130,9 +193,9 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
         design.as_ref().map(|d| d.name.clone()),
         color,
     );
-    let mut record_path = record;
-    if let Some(p) = record_path.clone() {
-        start_recording(&mut s, &mut app, &p);
+    app.replay_marks = replay_marks;
+    if let Some(p) = &record {
+        start_recording(&mut s, &mut app, p);
     }
     let mut term = match ratatui::try_init() {
         Ok(t) => t,
@@ -155,8 +218,8 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
             Some(Ok(ev)) = keys.next() => match ev {
                 TermEvent::Key(k) if k.kind == KeyEventKind::Press => {
                     let replay = matches!(app.source, Source::Replay { .. });
-                    let effect = app.apply(action(k, app.typing.is_some(), replay));
-                    perform(effect, &mut s, &mut app, &mut record_path);
+                    let effect = app.apply(action(k, app.prompt.is_some(), replay));
+                    perform(effect, &mut s, &mut app, &record_dir);
                     app.dirty = true;
                 }
                 TermEvent::Resize(_, _) => app.dirty = true,
@@ -174,7 +237,8 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
                         .as_ref()
                         .and_then(|d| evaluate(&snap, d, &library, &MarginConfig::default()).ok());
                     app.update(snap, margin);
-                    app.recording = s.recording().map(|(p, c)| (p.display().to_string(), c.file_bytes));
+                    let rec = s.recording().map(|(p, c)| (p.display().to_string(), c.file_bytes));
+                    app.note_recording(rec, s.elapsed_s());
                 }
                 if app.dirty {
                     if let Err(e) = term.draw(|f| super::view::render(f, &app)) {
@@ -189,11 +253,18 @@ async fn run_async(opts: Options) -> Result<(), ViewError> {
         }
     };
     ratatui::restore();
-    if let Some(Err(e)) = s.stop_recording() {
-        eprintln!("{e}");
+    match s.stop_recording() {
+        Some(Err(e)) => eprintln!("{e}"),
+        Some(Ok((path, c))) => app
+            .recorded
+            .push((path.display().to_string(), c.file_bytes)),
+        None => {}
     }
     if let Some(e) = &app.rec_failed {
         eprintln!("the recording failed: {e}");
+    }
+    for (path, bytes) in &app.recorded {
+        eprintln!("recorded {path} ({:.1} MB)", *bytes as f64 / 1e6);
     }
     result
 }

@@ -8,6 +8,7 @@ use crate::probe::LineRole;
 use crate::session::{Event, Origin};
 use crate::units;
 
+pub use super::items::{Ask, EventKind, EventLine, Picture, Prompt, RecStatus};
 use super::keys::Action;
 
 /// The source of data and its state.
@@ -66,33 +67,15 @@ impl Source {
     }
 }
 
-/// The distribution shown in the clock area.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Detail {
-    /// Period.
-    Period,
-    /// High time.
-    High,
-    /// Low time.
-    Low,
-}
-
-/// One line of the events list.
-#[derive(Clone, Debug, PartialEq)]
-pub struct EventLine {
-    /// Probe (or replay) time, s.
-    pub at_s: f64,
-    /// Text.
-    pub text: String,
-}
-
 /// Everything the view draws.
 #[derive(Clone, Debug)]
 pub struct App {
     /// Data source.
     pub source: Source,
-    /// Recording file and its size, when recording.
-    pub recording: Option<(String, u64)>,
+    /// The recording under way.
+    pub recording: Option<RecStatus>,
+    /// Recordings made in this view (file, bytes), for the message at quit.
+    pub recorded: Vec<(String, u64)>,
     /// Why the recorder stopped, when it failed (shown as REC FAILED; printed at exit).
     pub rec_failed: Option<String>,
     /// (host s, probe s) when figures first came in, to tell how far the figures lag.
@@ -108,16 +91,23 @@ pub struct App {
     pub design: Option<String>,
     /// Which window the figures cover.
     pub window: Window,
-    /// The distribution shown.
-    pub detail: Detail,
+    /// The picture shown.
+    pub picture: Picture,
     /// Figures frozen.
     pub frozen: bool,
     /// Help overlay shown.
     pub help: bool,
-    /// A mark being typed.
-    pub typing: Option<String>,
-    /// Events, newest last (capped).
+    /// A text being typed (a mark, a file name).
+    pub prompt: Option<Prompt>,
+    /// Events in time order, newest last (capped).
     pub events: Vec<EventLine>,
+    /// Which kind of event is listed (None: all).
+    pub event_filter: Option<EventKind>,
+    /// Scrolled back: the index (among the listed events) of the last one on screen; None
+    /// follows the newest.
+    pub event_scroll: Option<usize>,
+    /// Marks of the replayed recording, s since its start (for `n`).
+    pub replay_marks: Vec<f64>,
     /// Whether colour may be used (NO_COLOR unset).
     pub color: bool,
     /// Asked to quit.
@@ -186,8 +176,6 @@ pub enum Effect {
     Reset,
     /// Store a mark with this text.
     Mark(String),
-    /// Start or stop the recorder.
-    ToggleRecord,
     /// Replay control.
     ReplayPause,
     /// Replay speed ×2.
@@ -196,6 +184,12 @@ pub enum Effect {
     Slower,
     /// Replay: to the next mark.
     NextMark,
+    /// Ask for the file to record into (the loop fills in the default name).
+    AskRecordFile,
+    /// Stop the recording under way.
+    StopRecord,
+    /// Start recording into this file.
+    StartRecord(String),
 }
 
 const MAX_EVENTS: usize = 200;
@@ -206,6 +200,7 @@ impl App {
         App {
             source,
             recording: None,
+            recorded: Vec::new(),
             rec_failed: None,
             lag_origin: None,
             lag_s: 0.0,
@@ -213,11 +208,14 @@ impl App {
             margin: None,
             design,
             window: Window::Recent,
-            detail: Detail::Period,
+            picture: Picture::Frequency,
             frozen: false,
             help: false,
-            typing: None,
+            prompt: None,
             events: Vec::new(),
+            event_filter: None,
+            event_scroll: None,
+            replay_marks: Vec::new(),
             color,
             quit: false,
             dirty: true,
@@ -235,7 +233,11 @@ impl App {
         match ev {
             Event::Connected { probe, reconnects } => {
                 if *reconnects > 0 {
-                    self.event(host_s, format!("host: link back (reconnect {reconnects})"));
+                    self.event_of(
+                        EventKind::Host,
+                        host_s,
+                        format!("host: link back (reconnect {reconnects})"),
+                    );
                 }
                 if !replay {
                     self.source = Source::Streaming {
@@ -245,7 +247,11 @@ impl App {
                 }
             }
             Event::Lost { reason } => {
-                self.event(host_s, format!("host: link lost: {reason}"));
+                self.event_of(
+                    EventKind::Host,
+                    host_s,
+                    format!("host: link lost: {reason}"),
+                );
                 self.source = Source::Lost {
                     reason: reason.clone(),
                     retry_in_s: 0.5,
@@ -253,13 +259,21 @@ impl App {
             }
             Event::Retrying { retry_in, reason } => match &mut self.source {
                 Source::Lost { retry_in_s, .. } => *retry_in_s = retry_in.as_secs_f64(),
-                Source::Connecting { .. } => self.event(0.0, format!("no probe yet: {reason}")),
+                Source::Connecting { .. } => self.event_of(
+                    EventKind::Host,
+                    host_s,
+                    format!("host: no probe yet: {reason}"),
+                ),
                 _ => {}
             },
-            Event::Refused { what, reason } => {
-                self.event(now_s, format!("probe refused {what}: {reason}"))
+            Event::Refused { what, reason } => self.event_of(
+                EventKind::Host,
+                now_s,
+                format!("probe refused {what}: {reason}"),
+            ),
+            Event::Mark { at_s, text } => {
+                self.event_of(EventKind::Mark, *at_s, format!("mark: {text}"))
             }
-            Event::Mark { at_s, text } => self.event(*at_s, format!("mark: {text}")),
             Event::Position { at_s: at } => {
                 if let Source::Replay { at_s, .. } = &mut self.source {
                     *at_s = *at;
@@ -273,7 +287,12 @@ impl App {
             }
             Event::RecordingFailed(e) => {
                 self.rec_failed = Some(e.to_string());
-                self.event(host_s, format!("host: recording failed: {e}"));
+                self.recording = None;
+                self.event_of(
+                    EventKind::Host,
+                    host_s,
+                    format!("host: recording failed: {e}"),
+                );
             }
             Event::Data { .. } | Event::Connecting { .. } | Event::Recorded { .. } => return,
             Event::Failed(_) => {}
@@ -314,14 +333,18 @@ impl App {
                 "—".into()
             };
             let es = if n == 1 { "" } else { "es" };
-            self.event(at, format!("{n} glitch{es} (shortest {shortest})"));
+            self.event_of(
+                EventKind::Clock,
+                at,
+                format!("{n} glitch{es} (shortest {shortest})"),
+            );
         }
         for (rail, sag) in s.sag_events.iter().filter(|x| x.1.start_s > seen.sag_at_s) {
             let text = format!(
                 "sag on {rail}: −{:.0} mV for {:.0} ms",
                 sag.depth_mv, sag.duration_ms
             );
-            self.event(sag.start_s, text);
+            self.event_of(EventKind::Rail, sag.start_s, text);
         }
         for l in s.lines.iter().filter(|l| l.role != LineRole::Heartbeat) {
             let before = seen
@@ -331,27 +354,102 @@ impl App {
                 .unwrap_or(f64::NEG_INFINITY);
             for e in l.events.iter().filter(|e| e.at_s > before) {
                 let level = if e.high { "high" } else { "low" };
-                self.event(e.at_s, format!("{} {level}", l.name));
+                self.event_of(EventKind::Line, e.at_s, format!("{} went {level}", l.name));
             }
         }
         if seen.onsets < s.fault_onsets.len()
             && let Some(o) = s.fault_onsets.last()
         {
             let text = format!("FAILURE ({}) at {}", o.cause, units::hz(o.frequency_hz));
-            self.event(o.at_s, text);
+            self.event_of(EventKind::Failure, o.at_s, text);
         }
     }
 
-    /// Add an event line.
+    /// Add an event line (its kind told by its first words).
     pub fn event(&mut self, at_s: f64, text: impl Into<String>) {
+        let text = text.into();
+        self.event_of(EventKind::of_text(&text), at_s, text);
+    }
+
+    /// Add an event line of `kind` in time order (an event stamped earlier than the newest
+    /// goes before it; one of the same time after it).
+    pub fn event_of(&mut self, kind: EventKind, at_s: f64, text: impl Into<String>) {
         if self.events.len() >= MAX_EVENTS {
             self.events.remove(0);
+            if let Some(i) = &mut self.event_scroll {
+                *i = i.saturating_sub(1);
+            }
         }
-        self.events.push(EventLine {
-            at_s,
+        let at_s = if at_s.is_finite() { at_s } else { 0.0 };
+        let i = self.events.partition_point(|e| e.at_s <= at_s);
+        self.events.insert(
+            i,
+            EventLine {
+                at_s,
+                kind,
+                text: text.into(),
+            },
+        );
+        self.dirty = true;
+    }
+
+    /// The events the filter lets through, oldest first.
+    pub fn listed_events(&self) -> impl Iterator<Item = &EventLine> {
+        self.events
+            .iter()
+            .filter(|e| self.event_filter.is_none_or(|k| e.kind == k))
+    }
+
+    /// The figures on screen are from before the link went down.
+    pub fn stale(&self) -> bool {
+        matches!(self.source, Source::Lost { .. })
+    }
+
+    /// Open a prompt asking for `ask`, filled with `text`.
+    pub fn ask(&mut self, ask: Ask, text: impl Into<String>) {
+        self.prompt = Some(Prompt {
+            ask,
             text: text.into(),
         });
         self.dirty = true;
+    }
+
+    /// The recorder's file and size now (`host_s`: the host's clock), for the status line's
+    /// size and rate (the rate over the last second or more).
+    pub fn note_recording(&mut self, now: Option<(String, u64)>, host_s: f64) {
+        match (now, &mut self.recording) {
+            (None, r) => *r = None,
+            (Some((path, bytes)), Some(r)) if r.path == path => {
+                let (t0, b0) = r.since;
+                if host_s - t0 >= 1.0 {
+                    r.rate_bytes_per_s = Some(bytes.saturating_sub(b0) as f64 / (host_s - t0));
+                    r.since = (host_s, bytes);
+                }
+                r.bytes = bytes;
+            }
+            (Some((path, bytes)), r) => {
+                *r = Some(RecStatus {
+                    path,
+                    bytes,
+                    rate_bytes_per_s: None,
+                    since: (host_s, bytes),
+                })
+            }
+        }
+    }
+
+    /// `n` in a replay at `at_s`: the next mark's time, or an event saying there is none.
+    pub fn next_mark(&mut self, at_s: f64) -> Option<f64> {
+        let next = self.replay_marks.iter().copied().find(|&m| m > at_s + 1e-6);
+        if next.is_none() {
+            let text = if self.replay_marks.is_empty() {
+                "no marks in this recording"
+            } else {
+                "no marks after this point"
+            };
+            self.event_of(EventKind::Mark, at_s, format!("replay: {text}"));
+        }
+        next
     }
 
     /// New figures (ignored while frozen).
@@ -386,44 +484,73 @@ impl App {
             }
             Action::Reset => {
                 self.events.clear();
+                self.event_scroll = None;
                 Effect::Reset
             }
             Action::MarkStart => {
-                self.typing = Some(String::new());
+                self.ask(Ask::Mark, "");
                 Effect::None
             }
             Action::MarkChar(c) => {
-                if let Some(t) = &mut self.typing
-                    && t.len() < 120
+                if let Some(p) = &mut self.prompt
+                    && p.text.chars().count() < 240
                 {
-                    t.push(c);
+                    p.text.push(c);
                 }
                 Effect::None
             }
             Action::MarkBack => {
-                if let Some(t) = &mut self.typing {
-                    t.pop();
+                if let Some(p) = &mut self.prompt {
+                    p.text.pop();
                 }
                 Effect::None
             }
-            Action::MarkDone => match self.typing.take() {
-                Some(t) => {
-                    let text = if t.trim().is_empty() {
+            Action::MarkDone => match self.prompt.take() {
+                Some(Prompt {
+                    ask: Ask::Mark,
+                    text,
+                }) => {
+                    let text = if text.trim().is_empty() {
                         "mark".to_string()
                     } else {
-                        t
+                        text
                     };
                     let at = self.snapshot.as_ref().map_or(0.0, |s| s.probe_time_s);
-                    self.event(at, format!("mark: {text}"));
+                    self.event_of(EventKind::Mark, at, format!("mark: {text}"));
                     Effect::Mark(text)
                 }
-                None => Effect::None,
+                Some(Prompt {
+                    ask: Ask::RecordFile,
+                    text,
+                }) if !text.trim().is_empty() => Effect::StartRecord(text.trim().to_string()),
+                _ => Effect::None,
             },
             Action::MarkCancel => {
-                self.typing = None;
+                self.prompt = None;
                 Effect::None
             }
-            Action::Record => Effect::ToggleRecord,
+            Action::Record if self.recording.is_some() => Effect::StopRecord,
+            Action::Record => Effect::AskRecordFile,
+            Action::Filter => {
+                self.event_filter = EventKind::next_filter(self.event_filter);
+                self.event_scroll = None;
+                Effect::None
+            }
+            Action::Up => {
+                let n = self.listed_events().count();
+                let last = self.event_scroll.unwrap_or(n.saturating_sub(1));
+                self.event_scroll = Some(last.saturating_sub(1).min(n.saturating_sub(1)));
+                Effect::None
+            }
+            Action::Down => {
+                let n = self.listed_events().count();
+                self.event_scroll = self.event_scroll.map(|i| i + 1).filter(|&i| i + 1 < n);
+                Effect::None
+            }
+            Action::End => {
+                self.event_scroll = None;
+                Effect::None
+            }
             Action::Window => {
                 self.window = if self.window == Window::Recent {
                     Window::Session
@@ -432,12 +559,8 @@ impl App {
                 };
                 Effect::None
             }
-            Action::Detail => {
-                self.detail = match self.detail {
-                    Detail::Period => Detail::High,
-                    Detail::High => Detail::Low,
-                    Detail::Low => Detail::Period,
-                };
+            Action::Picture => {
+                self.picture = self.picture.next();
                 Effect::None
             }
             Action::Help => {
@@ -469,7 +592,7 @@ mod tests {
         }
         a.apply(Action::MarkBack);
         assert_eq!(a.apply(Action::MarkDone), Effect::Mark("added ca".into()));
-        assert!(a.typing.is_none());
+        assert!(a.prompt.is_none());
         assert!(a.events.last().unwrap().text.contains("added ca"));
     }
 
@@ -480,12 +603,12 @@ mod tests {
         assert!(a.frozen);
         a.apply(Action::Window);
         assert_eq!(a.window, Window::Session);
-        a.apply(Action::Detail);
-        assert_eq!(a.detail, Detail::High);
+        a.apply(Action::Picture);
+        assert_eq!(a.picture, Picture::Slack);
         a.apply(Action::Help);
         assert!(a.help);
         assert_eq!(a.apply(Action::Reset), Effect::Reset);
-        assert_eq!(a.apply(Action::Record), Effect::ToggleRecord);
+        assert_eq!(a.apply(Action::Record), Effect::AskRecordFile);
         a.apply(Action::Quit);
         assert!(a.quit);
     }
@@ -521,7 +644,7 @@ mod tests {
         a.update(s[0].clone(), None);
         let first = a.events.len();
         assert!(count(&a, "glitch") == 1, "{:?}", a.events);
-        assert!(count(&a, "RESET high") >= 1, "{:?}", a.events);
+        assert!(count(&a, "RESET went high") >= 1, "{:?}", a.events);
         a.update(s[0].clone(), None);
         assert_eq!(a.events.len(), first, "the same figures list nothing new");
         // frozen: the figures on screen stay, what is new is still listed, once
@@ -632,5 +755,68 @@ mod tests {
                 .iter()
                 .any(|e| e.text.contains("link back (reconnect 1)"))
         );
+    }
+
+    #[test]
+    fn events_stay_in_time_order_and_filter_by_kind() {
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        a.event(2.0, "mark: second");
+        a.event(1.0, "sag on VCC: −100 mV for 3 ms");
+        a.event_of(EventKind::Host, 1.5, "host: link lost: unplugged");
+        let at: Vec<f64> = a.events.iter().map(|e| e.at_s).collect();
+        assert_eq!(at, vec![1.0, 1.5, 2.0]);
+        a.apply(Action::Filter);
+        assert_eq!(a.event_filter, Some(EventKind::Mark));
+        let listed: Vec<_> = a.listed_events().map(|e| e.text.as_str()).collect();
+        assert_eq!(listed, vec!["mark: second"]);
+        a.event_filter = None;
+        a.apply(Action::Up);
+        assert_eq!(a.event_scroll, Some(1));
+        a.apply(Action::Down);
+        assert_eq!(a.event_scroll, None, "down to the newest follows again");
+        a.apply(Action::Up);
+        a.apply(Action::End);
+        assert_eq!(a.event_scroll, None);
+    }
+
+    #[test]
+    fn next_mark_says_when_there_is_none() {
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        assert_eq!(a.next_mark(0.0), None);
+        assert!(
+            a.events
+                .last()
+                .unwrap()
+                .text
+                .contains("no marks in this recording")
+        );
+        a.replay_marks = vec![1.0, 3.0];
+        assert_eq!(a.next_mark(1.0), Some(3.0));
+        assert_eq!(a.next_mark(3.5), None);
+        assert!(
+            a.events
+                .last()
+                .unwrap()
+                .text
+                .contains("no marks after this point")
+        );
+    }
+
+    #[test]
+    fn r_asks_for_a_file_then_starts_and_stops() {
+        let mut a = App::new(Source::Connecting { what: "x".into() }, None, true);
+        assert_eq!(a.apply(Action::Record), Effect::AskRecordFile);
+        a.ask(Ask::RecordFile, "bench.smrec");
+        assert_eq!(
+            a.apply(Action::MarkDone),
+            Effect::StartRecord("bench.smrec".into())
+        );
+        a.note_recording(Some(("bench.smrec".into(), 1_000)), 10.0);
+        a.note_recording(Some(("bench.smrec".into(), 2_001_000)), 12.0);
+        let r = a.recording.clone().unwrap();
+        assert_eq!(r.bytes, 2_001_000);
+        // 2 MB in 2 s (arithmetic)
+        assert_eq!(r.rate_bytes_per_s, Some(1e6));
+        assert_eq!(a.apply(Action::Record), Effect::StopRecord);
     }
 }

@@ -1,36 +1,29 @@
-//! Drawing the live view from its state (pure). Layout of our own: a status line, the clock
-//! and the rails side by side, the slack of each clock phase and the events below, the keys at
-//! the bottom. Meaning is always in words; colour only repeats it (and NO_COLOR turns it off).
+//! Drawing the live view from its state (pure). Layout of our own, by priority: a status line,
+//! the clock's key figures beside the rails and lines, the slack of each clock phase with the
+//! verdict, then the events beside a picture (`d` cycles them), the keys at the bottom. At the
+//! smallest size only the lower-priority rows give way; a larger terminal gives the room to the
+//! picture, the events and the verdict's full text. Meaning is always in words; colour only
+//! repeats it (and NO_COLOR turns it off). A value that does not fit is given in a shorter form,
+//! never cut inside a number.
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Direction, Layout, Rect};
-use ratatui::style::{Color, Modifier, Style};
+use ratatui::style::Color;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
+use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 
-use super::keys::KEYS;
-use super::state::{App, Detail, Source};
-use crate::measure::Window;
+use super::bars::{help, keybar, prompt, status};
+use super::picture::picture;
+use super::state::App;
+use super::style::{bold, figures_style, panel, st, warn};
+use super::text::{Row, by_priority, row, width_of};
+pub use super::text::{fit, wrap};
+use crate::measure::LineSnapshot;
+use crate::probe::LineRole;
 use crate::units::{hz, ns};
 
 /// Smallest terminal the full view needs.
 pub const MIN_SIZE: (u16, u16) = (80, 24);
-
-fn st(app: &App, color: Color) -> Style {
-    if app.color {
-        Style::default().fg(color)
-    } else {
-        Style::default()
-    }
-}
-
-fn warn(app: &App) -> Style {
-    if app.color {
-        Style::default().fg(Color::Red).add_modifier(Modifier::BOLD)
-    } else {
-        Style::default().add_modifier(Modifier::BOLD | Modifier::REVERSED)
-    }
-}
 
 fn opt_ns(v: Option<f64>) -> String {
     v.map_or("—".into(), |x| ns(x).to_string())
@@ -51,264 +44,324 @@ pub fn render(f: &mut Frame, app: &App) {
         .direction(Direction::Vertical)
         .constraints([
             Constraint::Length(1),
-            Constraint::Length(14),
-            Constraint::Min(8),
+            Constraint::Min(1),
             Constraint::Length(1),
         ])
         .split(area);
     status(f, app, rows[0]);
-    let top = Layout::default()
-        .direction(Direction::Horizontal)
-        .constraints([Constraint::Percentage(55), Constraint::Percentage(45)])
-        .split(rows[1]);
-    clock(f, app, top[0]);
-    rails(f, app, top[1]);
-    let bottom = Layout::default()
-        .direction(Direction::Horizontal)
-        .constraints([Constraint::Percentage(60), Constraint::Percentage(40)])
-        .split(rows[2]);
-    slack(f, app, bottom[0]);
-    events(f, app, bottom[1]);
-    keybar(f, app, rows[3]);
+    keybar(f, app, rows[2]);
+    body(f, app, rows[1]);
     if app.help {
         help(f, app, area);
     }
-    if let Some(t) = &app.typing {
-        let w = 60.min(area.width - 4);
-        let r = Rect {
-            x: (area.width - w) / 2,
-            y: area.height / 2 - 1,
-            width: w,
-            height: 3,
-        };
-        f.render_widget(Clear, r);
-        f.render_widget(
-            Paragraph::new(format!("{t}_")).block(
-                Block::default()
-                    .borders(Borders::ALL)
-                    .title(" mark text (Enter stores, Esc cancels) "),
-            ),
-            r,
-        );
+    if let Some(p) = &app.prompt {
+        prompt(f, p.ask, &p.text, area);
     }
 }
 
-fn status(f: &mut Frame, app: &App, r: Rect) {
-    let src = match &app.source {
-        Source::Connecting { what } => format!("CONNECTING to {what}"),
-        Source::Streaming { probe, reconnects } => {
-            format!("STREAMING from {probe} (reconnects {reconnects})")
-        }
-        Source::Lost { reason, retry_in_s } => {
-            format!("LINK LOST ({reason}) — retrying in {retry_in_s:.1} s")
-        }
-        Source::Replay {
-            file,
-            at_s,
-            paused,
-            speed,
-            done,
-        } => format!(
-            "REPLAY {file} at {at_s:.1} s, {}{}",
-            if *done {
-                "finished".to_string()
-            } else if *paused {
-                "PAUSED".to_string()
-            } else {
-                format!("×{speed}")
-            },
-            ""
-        ),
-    };
-    let rec = match (&app.recording, &app.rec_failed) {
-        (Some((p, b)), _) => format!("REC {p} {:.1} MB", *b as f64 / 1e6),
-        (None, Some(_)) => "REC FAILED (see events)".to_string(),
-        (None, None) => "not recording".to_string(),
-    };
-    let trust = app.snapshot.as_ref().map_or(String::new(), |s| {
-        let t = &s.trust;
-        // complete, sampled, or what was lost
-        match s.completeness() {
-            "lost" => format!(
-                " | LOST: {} frames, {} crc, {} drops",
-                t.lost_frames,
-                t.crc_errors,
-                t.probe_edges_dropped + t.probe_samples_dropped
-            ),
-            word => format!(" | {word}"),
-        }
-    });
-    let win = match app.window {
-        Window::Recent => "recent 10 s",
-        Window::Session => "whole session",
-    };
-    let frozen = if app.frozen { " | FROZEN" } else { "" };
-    let behind = if app.lag_s > super::state::LAG_SHOWN_S {
-        format!(" | BEHIND {:.1} s", app.lag_s)
+fn body(f: &mut Frame, app: &App, r: Rect) {
+    let h = r.height;
+    let extra = h.saturating_sub(22);
+    let with_design = app.design.is_some();
+    // the slack panel: phases and the verdict's first line always; its full text with room
+    let slack_h = if with_design {
+        let m = app.margin.as_ref();
+        let phases = m.map_or(3, |m| m.worst_case.phases.len()) as u16;
+        let mean = u16::from(m.is_some_and(|m| m.mean_phases));
+        let base = 2 + 1 + phases + mean + 1;
+        let full = m.map_or(0, |m| {
+            wrap(&m.verdict_text, r.width.saturating_sub(2) as usize).len() as u16
+        });
+        base + full.min(extra / 3)
     } else {
-        String::new()
+        0
     };
-    let style = match app.source {
-        Source::Lost { .. } => warn(app),
-        _ => Style::default().add_modifier(Modifier::BOLD),
-    };
-    f.render_widget(
-        Paragraph::new(Line::from(vec![
-            Span::styled(src, style),
-            Span::raw(format!(" | {rec}{trust} | {win}{frozen}{behind}")),
-        ])),
-        r,
-    );
+    let top_h = if with_design { 8 } else { 8 + 7 } + (extra / 4).min(4);
+    let parts = Layout::default()
+        .direction(Direction::Vertical)
+        .constraints([
+            Constraint::Length(top_h),
+            Constraint::Length(slack_h),
+            Constraint::Min(0),
+        ])
+        .split(r);
+    let top = Layout::default()
+        .direction(Direction::Horizontal)
+        .constraints([Constraint::Percentage(55), Constraint::Percentage(45)])
+        .split(parts[0]);
+    clock(f, app, top[0]);
+    rails(f, app, top[1]);
+    if with_design {
+        slack(f, app, parts[1]);
+    }
+    let bottom = Layout::default()
+        .direction(Direction::Horizontal)
+        .constraints([Constraint::Percentage(45), Constraint::Percentage(55)])
+        .split(parts[2]);
+    events(f, app, bottom[0]);
+    picture(f, app, bottom[1]);
+}
+
+/// Whether the clock's TIE means something: a clock that holds its frequency (a moving clock's
+/// TIE is its drift) with period jitter above the probe's resolution.
+fn tie_meaningful(app: &App, c: &crate::measure::ClockSnapshot) -> bool {
+    let moving = app.margin.as_ref().is_some_and(|m| m.moving);
+    c.tie_rms_ns.is_some() && !moving && !c.period_jitter_below_resolution
 }
 
 fn clock(f: &mut Frame, app: &App, r: Rect) {
-    let block = Block::default().borders(Borders::ALL).title(" clock ");
+    let block = panel(app, "clock");
+    let w = r.width.saturating_sub(2) as usize;
     let Some(c) = app.snapshot.as_ref().and_then(|s| s.clock()) else {
         f.render_widget(Paragraph::new("waiting for clock edges…").block(block), r);
         return;
     };
+    let fs = figures_style(app);
     let pm = |v: Option<f64>, u: Option<f64>, fmt: &dyn Fn(f64) -> String| match (v, u) {
-        (Some(v), Some(u)) => format!("{} ± {}", fmt(v), fmt(u)),
-        (Some(v), None) => fmt(v),
-        _ => "—".into(),
+        (Some(v), Some(u)) => (format!("{} ± {}", fmt(v), fmt(u)), fmt(v)),
+        (Some(v), None) => (fmt(v), fmt(v)),
+        _ => ("—".into(), "—".into()),
     };
-    let jitter = c.jitter_text(true);
-    let (name, p) = match app.detail {
-        Detail::Period => ("period", &c.period_percentiles),
-        Detail::High => ("high time", &c.high_percentiles),
-        Detail::Low => ("low time", &c.low_percentiles),
-    };
-    let dist = p.as_ref().map_or("—".into(), |p| {
-        format!(
-            "0.1% {}  1% {}  50% {}  99% {}  99.9% {}",
-            ns(p.p0_1),
-            ns(p.p1),
-            ns(p.p50),
-            ns(p.p99),
-            ns(p.p99_9)
-        )
+    let (freq, freq_short) = pm(c.frequency_hz, c.frequency_uncertainty_hz, &|x| {
+        hz(x).to_string()
     });
-    let lines = vec![
-        Line::from(vec![
-            Span::raw("frequency  "),
-            Span::styled(
-                pm(c.frequency_hz, c.frequency_uncertainty_hz, &|x| {
-                    hz(x).to_string()
-                }),
-                Style::default().add_modifier(Modifier::BOLD),
+    let (duty, duty_short) = pm(
+        c.duty.map(|d| d * 100.0),
+        c.duty_uncertainty.map(|d| d * 100.0),
+        &|x| format!("{x:.2} %"),
+    );
+    let tick = ns(c.resolution_ns).to_string();
+    let hi = opt_ns(c.high_min_ns);
+    let lo = opt_ns(c.low_min_ns);
+    let mut rows = vec![
+        row(
+            0,
+            fit(
+                &[format!("frequency  {freq}"), format!("freq {freq_short}")],
+                w,
             ),
-        ]),
-        Line::from(format!(
-            "period     mean {}   duty {}",
-            opt_ns(c.period_mean_ns),
-            pm(
-                c.duty.map(|d| d * 100.0),
-                c.duty_uncertainty.map(|d| d * 100.0),
-                &|x| format!("{x:.2} %")
-            )
-        )),
-        Line::from(vec![
-            Span::raw("worst high "),
-            Span::styled(
-                format!("{} ±{}", opt_ns(c.high_min_ns), ns(c.resolution_ns)),
-                Style::default().add_modifier(Modifier::BOLD),
+            fs.patch(bold()),
+        ),
+        row(
+            0,
+            fit(
+                &[
+                    format!("period     {}   duty {duty}", opt_ns(c.period_mean_ns)),
+                    format!("period {}  duty {duty}", opt_ns(c.period_mean_ns)),
+                    format!("period {}  duty {duty_short}", opt_ns(c.period_mean_ns)),
+                ],
+                w,
             ),
-            Span::raw("   worst low "),
-            Span::styled(
-                format!("{} ±{}", opt_ns(c.low_min_ns), ns(c.resolution_ns)),
-                Style::default().add_modifier(Modifier::BOLD),
+            fs,
+        ),
+        row(
+            0,
+            fit(
+                &[
+                    format!("worst high {hi}   low {lo}   ± {tick}"),
+                    format!("worst high {hi}  low {lo}"),
+                    format!("worst hi {hi} lo {lo}"),
+                ],
+                w,
             ),
-            Span::raw(
-                c.observed_share()
-                    .map(|s| format!("   of the observed cycles ({s})"))
-                    .unwrap_or_default(),
-            ),
-        ]),
-        Line::from(format!("jitter     {jitter}")),
-        Line::from(format!(
-            "c-to-c     max {}   TIE {} RMS",
-            opt_ns(c.cycle_to_cycle_max_ns),
-            opt_ns(c.tie_rms_ns)
-        )),
-        Line::from(vec![
-            Span::styled(
-                format!("glitches   {}", c.glitches),
-                if c.glitches > 0 {
-                    warn(app)
-                } else {
-                    Style::default()
-                },
-            ),
-            Span::raw(format!(
-                "   stalls {}   edges {}   tick {}",
-                c.stalls,
-                c.edges,
-                ns(c.resolution_ns)
-            )),
-        ]),
-        Line::from(format!("{name} (d): {dist}")),
+            fs.patch(bold()),
+        ),
     ];
+    if let Some(share) = c.observed_share() {
+        rows.push(row(
+            3,
+            fit(&[format!("  of the observed cycles ({share})")], w),
+            fs,
+        ));
+    }
+    let glitch_style = if c.glitches > 0 { warn(app) } else { fs };
+    rows.push(row(
+        1,
+        fit(
+            &[
+                format!(
+                    "glitches   {}   stalls {}   tick {tick}",
+                    c.glitches, c.stalls
+                ),
+                format!("glitches {}  stalls {}", c.glitches, c.stalls),
+            ],
+            w,
+        ),
+        glitch_style,
+    ));
+    let jitter_words = if c.period_jitter_below_resolution {
+        format!(
+            "below resolution (< {})",
+            ns(c.period_jitter_debiased_ns.unwrap_or(0.0)
+                + c.period_jitter_uncertainty_ns.unwrap_or(0.0))
+        )
+    } else {
+        c.period_jitter_debiased_ns
+            .map_or("—".into(), |d| format!("{} RMS", ns(d)))
+    };
+    rows.push(row(
+        2,
+        fit(
+            &[
+                format!("jitter     {}", c.jitter_text(true)),
+                format!("jitter     {jitter_words}"),
+                format!("jitter {jitter_words}"),
+            ],
+            w,
+        ),
+        fs,
+    ));
+    let tie = if tie_meaningful(app, c) {
+        format!("   TIE {} RMS", opt_ns(c.tie_rms_ns))
+    } else {
+        String::new()
+    };
+    rows.push(row(
+        3,
+        fit(
+            &[
+                format!("c-to-c     max {}{tie}", opt_ns(c.cycle_to_cycle_max_ns)),
+                format!("c-to-c max {}", opt_ns(c.cycle_to_cycle_max_ns)),
+            ],
+            w,
+        ),
+        fs,
+    ));
+    for (name, p) in [
+        ("period", &c.period_percentiles),
+        ("high", &c.high_percentiles),
+        ("low", &c.low_percentiles),
+    ] {
+        if let Some(p) = p {
+            rows.push(row(
+                4,
+                fit(
+                    &[
+                        format!(
+                            "{name:<6} 0.1% {}  1% {}  50% {}  99% {}  99.9% {}",
+                            ns(p.p0_1),
+                            ns(p.p1),
+                            ns(p.p50),
+                            ns(p.p99),
+                            ns(p.p99_9)
+                        ),
+                        format!(
+                            "{name:<6} 1% {}  50% {}  99% {}",
+                            ns(p.p1),
+                            ns(p.p50),
+                            ns(p.p99)
+                        ),
+                        format!("{name:<6} 50% {}", ns(p.p50)),
+                    ],
+                    w,
+                ),
+                fs,
+            ));
+        }
+    }
+    rows.push(row(4, fit(&[format!("edges      {}", c.edges)], w), fs));
+    let lines = by_priority(rows, r.height.saturating_sub(2) as usize);
     f.render_widget(Paragraph::new(lines).block(block), r);
 }
 
+/// A line's state in words: its level and when it last changed; a heartbeat as beating or
+/// stopped (never as a low rate).
+pub fn line_words(l: &LineSnapshot) -> String {
+    let level = l.level.map_or("", |b| if b { "high" } else { "low" });
+    if l.role == LineRole::Heartbeat {
+        // silent for longer than three of its half-periods: stopped
+        return match (l.rate_hz, l.since_change_s) {
+            (Some(r), Some(s)) if r > 0.0 && s > 3.0 / (2.0 * r) => {
+                format!("stopped {s:.0} s ago")
+            }
+            (Some(r), _) if r > 0.0 => format!("beating ({r:.1} beats/s)"),
+            (_, Some(s)) => format!("stopped {s:.0} s ago"),
+            _ => "no beat seen".into(),
+        };
+    }
+    match (l.level, l.since_change_s) {
+        (Some(_), Some(s)) if s.is_finite() => format!("{level}, changed {s:.1} s ago"),
+        (None, Some(s)) if s.is_finite() => format!("changed {s:.1} s ago"),
+        (None, _) => "no change seen".into(),
+        _ => format!("{level}, no change seen"),
+    }
+}
+
 fn rails(f: &mut Frame, app: &App, r: Rect) {
-    let block = Block::default().borders(Borders::ALL).title(" rails ");
+    let block = panel(app, "rails and lines");
+    let w = r.width.saturating_sub(2) as usize;
     let Some(s) = &app.snapshot else {
         f.render_widget(Paragraph::new("").block(block), r);
         return;
     };
-    let mut lines = Vec::new();
+    let fs = figures_style(app);
+    let mut rows = Vec::new();
     for rail in &s.rails {
-        let v = |x: Option<f64>| x.map_or("—".into(), |m| format!("{:.3} V", m / 1000.0));
+        let v = |x: Option<f64>| x.map_or("—".into(), |m| format!("{:.3}", m / 1000.0));
         let below = rail.min_mv.is_some_and(|m| m < rail.limit_mv);
-        lines.push(Line::from(vec![
-            Span::styled(
-                format!("{:<9}", rail.name),
-                Style::default().add_modifier(Modifier::BOLD),
+        let state = if below { "BELOW LIMIT" } else { "ok" };
+        let short = if below { "LOW" } else { "ok" };
+        let text = fit(
+            &[
+                format!(
+                    "{:<8} {} V  min {} V  {state}",
+                    rail.name,
+                    v(rail.now_mv),
+                    v(rail.min_mv)
+                ),
+                format!(
+                    "{:<8} {} V min {} {short}",
+                    rail.name,
+                    v(rail.now_mv),
+                    v(rail.min_mv)
+                ),
+                format!("{} min {} V {short}", rail.name, v(rail.min_mv)),
+            ],
+            w,
+        );
+        let style = if below {
+            warn(app)
+        } else {
+            fs.patch(st(app, Color::Green))
+        };
+        rows.push(row(0, text, style));
+        rows.push(row(
+            3,
+            fit(
+                &[
+                    format!(
+                        "  limit {:.2} V, {} sags, ripple {}",
+                        rail.limit_mv / 1000.0,
+                        rail.sag_events,
+                        rail.ripple_pkpk_mv
+                            .map_or("—".into(), |m| format!("{m:.0} mV"))
+                    ),
+                    format!(
+                        "  limit {:.2} V, {} sags",
+                        rail.limit_mv / 1000.0,
+                        rail.sag_events
+                    ),
+                ],
+                w,
             ),
-            Span::raw(format!(" now {}  min {}", v(rail.now_mv), v(rail.min_mv))),
-        ]));
-        if let Some(h) = app.rail_history.get(&rail.name)
-            && !h.is_empty()
-        {
-            let lo = h
-                .iter()
-                .copied()
-                .fold(f64::INFINITY, f64::min)
-                .min(rail.limit_mv);
-            let hi = h.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            let w = (r.width as usize).saturating_sub(14).min(h.len());
-            let spark = sparkline(h.iter().skip(h.len() - w).copied(), lo, hi);
-            lines.push(Line::from(format!(
-                "  {spark} {:.2}…{:.2} V",
-                lo / 1000.0,
-                hi / 1000.0
-            )));
-        }
-        lines.push(Line::from(vec![
-            Span::raw("  "),
-            if below {
-                Span::styled("BELOW LIMIT", warn(app))
-            } else {
-                Span::styled("ok", st(app, Color::Green))
-            },
-            Span::raw(format!(
-                " (limit {:.2} V), {} sags, ripple {}",
-                rail.limit_mv / 1000.0,
-                rail.sag_events,
-                rail.ripple_pkpk_mv
-                    .map_or("—".into(), |m| format!("{m:.0} mV"))
-            )),
-        ]));
+            fs,
+        ));
     }
     for l in &s.lines {
-        lines.push(Line::from(format!(
-            "{:<9} {} {}",
-            l.name,
-            l.level.map_or("?", |b| if b { "high" } else { "low" }),
-            l.rate_hz.map_or(String::new(), |r| format!("{r:.2}/s"))
-        )));
+        let words = line_words(l);
+        rows.push(row(
+            1,
+            fit(
+                &[
+                    format!("{:<9} {words}", l.name),
+                    format!("{} {words}", l.name),
+                ],
+                w,
+            ),
+            fs,
+        ));
     }
+    let lines = by_priority(rows, r.height.saturating_sub(2) as usize);
     f.render_widget(Paragraph::new(lines).block(block), r);
 }
 
@@ -321,114 +374,223 @@ pub fn sparkline(values: impl Iterator<Item = f64>, lo: f64, hi: f64) -> String 
         .collect()
 }
 
-fn slack(f: &mut Frame, app: &App, r: Rect) {
-    let title = format!(
-        " slack against {} ",
-        app.design.as_deref().unwrap_or("no design")
+/// The verdict in one line: its state, what the slack alone says when it failed, the guard band.
+fn verdict_line(m: &crate::margin::Margin) -> Vec<String> {
+    use crate::margin::Verdict;
+    let guard = format!(
+        "{:.0} % guard band {}",
+        m.guard_band * 100.0,
+        if m.guard_band_met { "met" } else { "not met" }
     );
-    let block = Block::default().borders(Borders::ALL).title(title);
+    let what = if m.verdict == Verdict::Failed {
+        let why = m
+            .problems
+            .iter()
+            .find(|p| p.kind.is_failure())
+            .map(|p| format!(" ({} {})", p.count, p.kind.name()))
+            .unwrap_or_default();
+        (
+            format!("FAILED{why}; slack alone: {}", m.slack_verdict.words()),
+            format!("FAILED{why}"),
+        )
+    } else {
+        (m.verdict.words().to_string(), m.verdict.words().to_string())
+    };
+    vec![
+        format!("verdict: {}; {guard}", what.0),
+        format!("verdict: {}", what.0),
+        format!("verdict: {}; {guard}", what.1),
+        format!("verdict: {}", what.1),
+    ]
+}
+
+fn slack(f: &mut Frame, app: &App, r: Rect) {
+    let block = panel(
+        app,
+        &format!(
+            "slack against {}",
+            app.design.as_deref().unwrap_or("no design")
+        ),
+    );
+    let w = r.width.saturating_sub(2) as usize;
     let Some(m) = &app.margin else {
-        let msg = if app.design.is_some() {
-            "waiting for cycles…"
-        } else {
-            "no design loaded (--design)"
-        };
-        f.render_widget(Paragraph::new(msg).block(block), r);
+        f.render_widget(Paragraph::new("waiting for cycles…").block(block), r);
         return;
     };
+    let fs = figures_style(app);
     let measured = if m.mean_phases {
         "measured MEAN"
     } else {
         "measured worst"
     };
-    let mut lines = vec![Line::from(format!(
-        "{:<7} {:>10} {:>15} {:>11} {:>7}  at {:.3} V",
-        "phase", "needs", measured, "slack", "%", m.vcc_used_v
-    ))];
+    let mut rows = vec![row(
+        0,
+        fit(
+            &[
+                format!(
+                    "{:<7} {:>10} {:>15} {:>11} {:>7}  at {:.3} V",
+                    "phase", "needs", measured, "slack", "%", m.vcc_used_v
+                ),
+                format!(
+                    "{:<7} {:>10} {:>15} {:>11} {:>7}",
+                    "phase", "needs", measured, "slack", "%"
+                ),
+            ],
+            w,
+        ),
+        fs,
+    )];
     for p in &m.worst_case.phases {
         // the words the report uses: a sign within ± its bound is not known
-        let sign = match p.sign {
-            crate::margin::Sign::Short => Span::styled(" SHORT", warn(app)),
-            crate::margin::Sign::WithinResolution => Span::styled(" sign not known", warn(app)),
-            crate::margin::Sign::Clears => Span::raw(""),
+        let (sign, style) = match p.sign {
+            crate::margin::Sign::Short => (" SHORT", warn(app)),
+            crate::margin::Sign::WithinResolution => (" sign not known", warn(app)),
+            crate::margin::Sign::Clears => ("", fs),
         };
-        lines.push(Line::from(vec![
-            Span::raw(format!(
-                "{:<7} {:>10} {:>15} {:>11} {:>7} ",
-                p.phase,
-                ns(p.required_ns).to_string(),
-                ns(p.measured_ns).to_string(),
-                format!("{:+.1} ns", p.slack_ns),
-                p.slack_pct.map_or("—".into(), |x| format!("{x:+.0}%"))
-            )),
-            sign,
-        ]));
+        rows.push(Row {
+            prio: 0,
+            line: Line::from(vec![
+                Span::styled(
+                    format!(
+                        "{:<7} {:>10} {:>15} {:>11} {:>7}",
+                        p.phase,
+                        ns(p.required_ns).to_string(),
+                        ns(p.measured_ns).to_string(),
+                        format!("{:+.1} ns", p.slack_ns),
+                        p.slack_pct.map_or("—".into(), |x| format!("{x:+.0}%"))
+                    ),
+                    fs,
+                ),
+                Span::styled(sign, style),
+            ]),
+        });
     }
     if m.mean_phases {
-        lines.push(Line::from(Span::styled(
-            "counting probe: mean phases stand in, the worst cycle is not observable",
+        rows.push(row(
+            0,
+            fit(
+                &[
+                    "counting probe: mean phases stand in, the worst cycle is not observable"
+                        .into(),
+                    "counting probe: mean phases, worst cycle not observable".into(),
+                ],
+                w,
+            ),
             warn(app),
-        )));
+        ));
     }
-    lines.push(Line::from(Span::styled(
-        format!("verdict: {}", m.verdict_text),
-        Style::default().add_modifier(Modifier::BOLD),
-    )));
-    f.render_widget(
-        Paragraph::new(lines).wrap(Wrap { trim: true }).block(block),
-        r,
-    );
-}
-
-fn events(f: &mut Frame, app: &App, r: Rect) {
-    let block = Block::default().borders(Borders::ALL).title(" events ");
-    let n = r.height.saturating_sub(2) as usize;
-    let lines: Vec<Line> = app
-        .events
-        .iter()
-        .rev()
-        .take(n)
-        .rev()
-        .map(|e| Line::from(format!("{:>8.3} s {}", e.at_s, e.text)))
-        .collect();
+    rows.push(row(0, fit(&verdict_line(m), w), fs.patch(bold())));
+    for l in wrap(&m.verdict_text, w) {
+        rows.push(row(5, l, fs));
+    }
+    let lines = by_priority(rows, r.height.saturating_sub(2) as usize);
     f.render_widget(Paragraph::new(lines).block(block), r);
 }
 
-fn keybar(f: &mut Frame, app: &App, r: Rect) {
-    let replay = matches!(app.source, Source::Replay { .. });
-    let keys: Vec<String> = KEYS
-        .iter()
-        .filter(|k| !k.3 || replay)
-        .map(|(k, short, _, _)| format!("{k} {short}"))
-        .collect();
-    f.render_widget(
-        Paragraph::new(keys.join("  ")).style(Style::default().add_modifier(Modifier::DIM)),
-        r,
-    );
+fn events(f: &mut Frame, app: &App, r: Rect) {
+    let listed: Vec<_> = app.listed_events().collect();
+    let filter = app.event_filter.map_or("all", |k| k.name());
+    let title = match app.event_scroll {
+        Some(i) => format!(
+            "events: {filter}, {} newer below (End)",
+            listed.len() - i - 1
+        ),
+        None => format!("events: {filter}"),
+    };
+    let block = Block::default()
+        .borders(Borders::ALL)
+        .title(format!(" {title} "));
+    let w = r.width.saturating_sub(2) as usize;
+    let n = r.height.saturating_sub(2) as usize;
+    if listed.is_empty() {
+        let msg = if app.event_filter.is_some() {
+            "none of this kind (f: next kind)"
+        } else {
+            "none yet"
+        };
+        f.render_widget(Paragraph::new(msg).block(block), r);
+        return;
+    }
+    let last = app
+        .event_scroll
+        .unwrap_or(listed.len() - 1)
+        .min(listed.len() - 1);
+    // newest on screen last; each event wraps under its text, its time on the first row
+    let mut rows: Vec<Line> = Vec::new();
+    for e in listed[..=last].iter().rev() {
+        let at = format!("{:>8.3} s ", e.at_s);
+        let indent = width_of(&at);
+        let body = wrap(&e.text, w.saturating_sub(indent).max(8));
+        let mut these: Vec<Line> = body
+            .into_iter()
+            .enumerate()
+            .map(|(i, t)| {
+                let lead = if i == 0 {
+                    at.clone()
+                } else {
+                    " ".repeat(indent)
+                };
+                Line::from(format!("{lead}{t}"))
+            })
+            .collect();
+        these.reverse();
+        rows.extend(these);
+        if rows.len() >= n {
+            break;
+        }
+    }
+    rows.truncate(n);
+    rows.reverse();
+    f.render_widget(Paragraph::new(rows).block(block), r);
 }
 
-fn help(f: &mut Frame, app: &App, area: Rect) {
-    let replay = matches!(app.source, Source::Replay { .. });
-    let lines: Vec<Line> = KEYS
-        .iter()
-        .filter(|k| !k.3 || replay)
-        .map(|(k, _, d, _)| Line::from(format!("  {k:<6} {d}")))
-        .collect();
-    let h = lines.len() as u16 + 2;
-    let w = 54.min(area.width);
-    let r = Rect {
-        x: (area.width - w) / 2,
-        y: (area.height.saturating_sub(h)) / 2,
-        width: w,
-        height: h,
-    };
-    f.render_widget(Clear, r);
-    f.render_widget(
-        Paragraph::new(lines).block(
-            Block::default()
-                .borders(Borders::ALL)
-                .title(" keys (? closes) "),
-        ),
-        r,
-    );
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn line(
+        role: LineRole,
+        level: Option<bool>,
+        rate: Option<f64>,
+        since: Option<f64>,
+    ) -> LineSnapshot {
+        LineSnapshot {
+            channel: 4,
+            name: "L".into(),
+            role,
+            level,
+            edges: u64::from(since.is_some()),
+            rises: 0,
+            rate_hz: rate,
+            pulse_mean_ms: None,
+            pulse_min_ms: None,
+            since_change_s: since,
+            events: vec![],
+        }
+    }
+
+    #[test]
+    fn lines_in_words() {
+        assert_eq!(
+            line_words(&line(LineRole::Fault, Some(false), None, None)),
+            "low, no change seen"
+        );
+        assert_eq!(
+            line_words(&line(LineRole::Reset, None, None, None)),
+            "no change seen"
+        );
+        assert_eq!(
+            line_words(&line(LineRole::Reset, Some(true), None, Some(2.5))),
+            "high, changed 2.5 s ago"
+        );
+        assert_eq!(
+            line_words(&line(LineRole::Heartbeat, Some(true), Some(2.0), Some(0.1))),
+            "beating (2.0 beats/s)"
+        );
+        // silent for more than three half-periods: stopped
+        assert_eq!(
+            line_words(&line(LineRole::Heartbeat, Some(true), Some(2.0), Some(4.0))),
+            "stopped 4 s ago"
+        );
+    }
 }

@@ -167,6 +167,10 @@ pub struct ClockSnapshot {
     pub high_percentiles: Option<Percentiles>,
     /// Low-time percentiles.
     pub low_percentiles: Option<Percentiles>,
+    /// Histograms of period, high and low time: (ns, cycles) of each non-empty tick bucket,
+    /// ascending (for the live view's pictures; not in JSON).
+    #[serde(skip)]
+    pub histograms: [Vec<(f64, u64)>; 3],
     /// Glitches counted.
     pub glitches: u64,
     /// Stalls counted.
@@ -238,6 +242,7 @@ impl ClockSnapshot {
             period_percentiles: None,
             high_percentiles: None,
             low_percentiles: None,
+            histograms: [Vec::new(), Vec::new(), Vec::new()],
             glitches: 0,
             stalls: 0,
             unavailable: Vec::new(),

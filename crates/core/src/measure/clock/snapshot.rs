@@ -209,6 +209,13 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
     s.period_percentiles = percentiles(&a.hist_period, q);
     s.high_percentiles = percentiles(&a.hist_high, q);
     s.low_percentiles = percentiles(&a.hist_low, q);
+    let ns = |h: &DevHistogram| {
+        h.buckets()
+            .into_iter()
+            .map(|(v, c)| (v as f64 * q, c))
+            .collect::<Vec<_>>()
+    };
+    s.histograms = [ns(&a.hist_period), ns(&a.hist_high), ns(&a.hist_low)];
 }
 
 /// The pooled TIE residual sum of squares (ticks²) and its count: the closed stretches and the
