@@ -39,7 +39,15 @@ pub struct PartCurrent {
 }
 
 /// Dynamic current of a CMOS part from the data-sheet relation, mA: (Cpd·N·fi + Σ CL·fo)·VCC.
-pub fn cmos_dynamic_ma(cpd_pf: f64, n_inputs: f64, fi_hz: f64, cl_pf: f64, n_outputs: f64, fo_hz: f64, vcc_v: f64) -> f64 {
+pub fn cmos_dynamic_ma(
+    cpd_pf: f64,
+    n_inputs: f64,
+    fi_hz: f64,
+    cl_pf: f64,
+    n_outputs: f64,
+    fo_hz: f64,
+    vcc_v: f64,
+) -> f64 {
     (cpd_pf * n_inputs * fi_hz + cl_pf * n_outputs * fo_hz) * vcc_v * 1e-9
 }
 
@@ -49,8 +57,17 @@ pub fn part_current(d: &Draw, clocked: bool, load_pf: f64, c: &Conditions) -> Pa
     match d.kind {
         DrawKind::Cmos => {
             let (icc_ua, beyond) = d.icc_ua.at(c.temp_c).unwrap_or((0.0, false));
-            let ttl = if c.hct_inputs_at_ttl { d.delta_icc_ua } else { 0.0 };
-            let fi = c.freq_hz * if clocked { CLOCK_ACTIVITY } else { c.data_activity };
+            let ttl = if c.hct_inputs_at_ttl {
+                d.delta_icc_ua
+            } else {
+                0.0
+            };
+            let fi = c.freq_hz
+                * if clocked {
+                    CLOCK_ACTIVITY
+                } else {
+                    c.data_activity
+                };
             let fo = c.freq_hz * c.data_activity;
             PartCurrent {
                 static_ma: (icc_ua + ttl) * 1e-3,

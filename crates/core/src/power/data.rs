@@ -259,8 +259,16 @@ mod tests {
         let lib = Library::builtin();
         let data = SupplyData::builtin();
         for t in [
-            "74HC04", "74HC161", "74HC574/ti-cd", "74HC138", "74HC86", "74HC283", "74HC173",
-            "74HC245", "AT28C256-20", "62256-70",
+            "74HC04",
+            "74HC161",
+            "74HC574/ti-cd",
+            "74HC138",
+            "74HC86",
+            "74HC283",
+            "74HC173",
+            "74HC245",
+            "AT28C256-20",
+            "62256-70",
         ] {
             let p = &lib.parts[lib.part_index(t).expect(t)];
             let d = data.of(&lib, p).expect(t);

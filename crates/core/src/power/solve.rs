@@ -112,7 +112,9 @@ fn section_currents(
     for (i, inst) in design.instances.iter().enumerate() {
         let Some(s) = inst.section else { continue };
         let part = &lib.parts[inst.part];
-        let Some(d) = data.of(lib, part) else { continue };
+        let Some(d) = data.of(lib, part) else {
+            continue;
+        };
         let clocked = design.clocked.iter().any(|c| c.instance == i);
         let c = Conditions {
             rail_v: rails_v[s],
@@ -121,8 +123,12 @@ fn section_currents(
             temp_c: pt.temp_c,
             hct_inputs_at_ttl: hct_ttl && lib.families[part.family].name.contains("HCT"),
         };
-        let p: PartCurrent =
-            current::part_current(&d, clocked, inst.load_pf.unwrap_or(current::DEFAULT_LOAD_PF), &c);
+        let p: PartCurrent = current::part_current(
+            &d,
+            clocked,
+            inst.load_pf.unwrap_or(current::DEFAULT_LOAD_PF),
+            &c,
+        );
         out[s].0 += p.static_ma;
         out[s].1 += p.dynamic_ma;
         out[s].2 |= p.beyond_columns;
@@ -180,7 +186,12 @@ pub fn solve(
             leds[l.section] += l.ma(rails[l.section]);
         }
         for s in 0..n {
-            let other: f64 = wiring.loads.iter().filter(|l| l.section == s).map(|l| l.current_ma).sum();
+            let other: f64 = wiring
+                .loads
+                .iter()
+                .filter(|l| l.section == s)
+                .map(|l| l.current_ma)
+                .fold(0.0, |a, b| a + b);
             own[s] = parts[s].0 + parts[s].1 + leds[s] + other;
         }
         // currents through each feed: its section's own and every feed hung from it
@@ -219,7 +230,12 @@ pub fn solve(
     }
     let mut sections = Vec::with_capacity(n);
     for (s, sec) in design.sections.iter().enumerate() {
-        let other: f64 = wiring.loads.iter().filter(|l| l.section == s).map(|l| l.current_ma).sum();
+        let other: f64 = wiring
+            .loads
+            .iter()
+            .filter(|l| l.section == s)
+            .map(|l| l.current_ma)
+            .fold(0.0, |a, b| a + b);
         let insts: Vec<usize> = (0..design.instances.len())
             .filter(|&i| design.instances[i].section == Some(s))
             .collect();

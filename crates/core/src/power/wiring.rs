@@ -68,7 +68,9 @@ pub struct Feed {
 impl Feed {
     /// The loop resistance: the copper (per conductor) and the contacts.
     pub fn ohm(&self, wiring: &Wiring) -> f64 {
-        copper::ohm_per_m(self.gauge, wiring.wire_temp_c) * self.length_m * f64::from(self.conductors)
+        copper::ohm_per_m(self.gauge, wiring.wire_temp_c)
+            * self.length_m
+            * f64::from(self.conductors)
             + wiring.contact_ohm * f64::from(self.contacts)
     }
 }
@@ -175,26 +177,35 @@ impl Reader<'_> {
             .fail(span, msg, "here", Some(help.to_string()))
     }
 
-    fn quantity(
-        &self,
-        s: &Spanned<String>,
-        parse: fn(&str) -> Result<f64, UnitError>,
-    ) -> Res<f64> {
+    fn quantity(&self, s: &Spanned<String>, parse: fn(&str) -> Result<f64, UnitError>) -> Res<f64> {
         parse(s.get_ref()).map_err(|e| self.err(s.span(), e.to_string(), units::HELP))
     }
 
-    fn positive(&self, s: &Spanned<String>, parse: fn(&str) -> Result<f64, UnitError>, what: &str) -> Res<f64> {
+    fn positive(
+        &self,
+        s: &Spanned<String>,
+        parse: fn(&str) -> Result<f64, UnitError>,
+        what: &str,
+    ) -> Res<f64> {
         let v = self.quantity(s, parse)?;
         if v > 0.0 {
             Ok(v)
         } else {
-            Err(self.err(s.span(), format!("{what} must be positive"), "give a value above zero"))
+            Err(self.err(
+                s.span(),
+                format!("{what} must be positive"),
+                "give a value above zero",
+            ))
         }
     }
 
     fn count(&self, s: &Spanned<i64>, what: &str) -> Res<u32> {
         u32::try_from(*s.get_ref()).map_err(|_| {
-            self.err(s.span(), format!("{what} must be a whole number ≥ 0"), "e.g. 4")
+            self.err(
+                s.span(),
+                format!("{what} must be a whole number ≥ 0"),
+                "e.g. 4",
+            )
         })
     }
 
@@ -204,7 +215,12 @@ impl Reader<'_> {
             .iter()
             .position(|x| x.name == *s.get_ref())
             .ok_or_else(|| {
-                let names: Vec<&str> = self.design.sections.iter().map(|x| x.name.as_str()).collect();
+                let names: Vec<&str> = self
+                    .design
+                    .sections
+                    .iter()
+                    .map(|x| x.name.as_str())
+                    .collect();
                 self.err(
                     s.span(),
                     format!("no section \"{}\" in this design", s.get_ref()),
@@ -250,7 +266,12 @@ impl Reader<'_> {
             }
             None => 2,
         };
-        let contacts = f.contacts.as_ref().map(|c| self.count(c, "contacts")).transpose()?.unwrap_or(0);
+        let contacts = f
+            .contacts
+            .as_ref()
+            .map(|c| self.count(c, "contacts"))
+            .transpose()?
+            .unwrap_or(0);
         Ok(Feed {
             section,
             from,
@@ -321,7 +342,11 @@ impl Wiring {
             Some(c) => {
                 let v = rd.quantity(c, units::parse_resistance_ohm)?;
                 if v < 0.0 {
-                    return Err(rd.err(c.span(), "contact resistance is negative", "e.g. \"20 mΩ\""));
+                    return Err(rd.err(
+                        c.span(),
+                        "contact resistance is negative",
+                        "e.g. \"20 mΩ\"",
+                    ));
                 }
                 v
             }
@@ -369,8 +394,15 @@ impl Wiring {
                     }
                     None => {
                         return Err(rd.err(
-                            raw.feed[i].get_ref().from.as_ref().map_or(raw.feed[i].span(), |s| s.span()),
-                            format!("section \"{}\" has no [[feed]] of its own to feed from", design.sections[s].name),
+                            raw.feed[i]
+                                .get_ref()
+                                .from
+                                .as_ref()
+                                .map_or(raw.feed[i].span(), |s| s.span()),
+                            format!(
+                                "section \"{}\" has no [[feed]] of its own to feed from",
+                                design.sections[s].name
+                            ),
                             "give that section a [[feed]] too, or feed this one from \"supply\"",
                         ));
                     }
@@ -384,7 +416,11 @@ impl Wiring {
             let section = rd.section(&l.section)?;
             let current_ma = rd.quantity(&l.current, units::parse_current_ma)?;
             if current_ma < 0.0 {
-                return Err(rd.err(l.current.span(), "a load's current is negative", "e.g. \"15 mA\""));
+                return Err(rd.err(
+                    l.current.span(),
+                    "a load's current is negative",
+                    "e.g. \"15 mA\"",
+                ));
             }
             loads.push(Load {
                 section,
