@@ -296,3 +296,32 @@ fn power_command_refuses_an_activity_above_one() {
     let (code, _, err) = slackmeter(&["power", "--activity", "1.5"]);
     assert_eq!(code, 2, "{err}");
 }
+
+#[test]
+fn budget_at_predicted_rails_solves_the_clock_fixed_point() {
+    let (code, out, err) = slackmeter(&["budget", "--rails", "predicted", "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["clock_given"], false);
+    assert!(v["clock_iterations"].as_u64().unwrap() >= 1);
+    let f = v["freq_hz"].as_f64().unwrap();
+    let fmax = v["budget"]["fmax_50_hz"].as_f64().unwrap();
+    assert!((fmax / f - 1.0).abs() < 2e-6, "{f} {fmax}");
+    // each section derated at its predicted rail
+    let far = v["budget"]["section_vcc_v"]["far"].as_f64().unwrap();
+    assert_eq!(far, v["power"]["sections"][2]["rail_v"].as_f64().unwrap());
+    let (code, out, _) = slackmeter(&["budget", "--rails", "predicted", "--freq", "2MHz"]);
+    assert_eq!(code, 0);
+    assert!(out.starts_with("Predicted rails at 2.000 MHz"), "{out}");
+    let (code, out, _) = slackmeter(&[
+        "budget",
+        "--rails",
+        "predicted",
+        "--sweep-freq",
+        "1MHz..8MHz",
+        "--points",
+        "3",
+    ]);
+    assert_eq!(code, 0);
+    assert_eq!(out.lines().count(), 5, "{out}");
+}

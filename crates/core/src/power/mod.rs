@@ -6,6 +6,7 @@ pub mod copper;
 pub mod current;
 pub mod data;
 pub mod solve;
+pub mod timing;
 pub mod wiring;
 
 pub use data::{Draw, DrawKind, SupplyData};
