@@ -2,6 +2,7 @@
 //! wire by gauge (`copper`), the supply wiring of a design file (`wiring`), one part's current
 //! (`current`) and the sections' rails as a fixed point (`solve`).
 
+pub mod compare;
 pub mod copper;
 pub mod current;
 pub mod data;
