@@ -325,3 +325,40 @@ fn budget_at_predicted_rails_solves_the_clock_fixed_point() {
     assert_eq!(code, 0);
     assert_eq!(out.lines().count(), 5, "{out}");
 }
+
+#[test]
+fn design_file_doc_supply_example_is_valid_wiring() {
+    let doc = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/docs/DESIGN-FILE.md"))
+        .unwrap();
+    let blocks: Vec<&str> = doc
+        .split("```toml")
+        .skip(1)
+        .filter_map(|s| s.split("```").next())
+        .collect();
+    assert!(
+        blocks.len() >= 2,
+        "the design example and the supply example"
+    );
+    let text = format!("{}\n{}", blocks[0], blocks[1]);
+    let (d, lib) = load(&text);
+    let w = Wiring::of(&d).unwrap().expect("a [supply] table");
+    assert_eq!(w.feeds.len(), 1);
+    let pb = power::solve(&d, &lib, &SupplyData::builtin(), &w, &at(8e6));
+    assert!(
+        pb.sections
+            .iter()
+            .any(|s| s.name == "far" && s.led_ma > 0.0)
+    );
+}
+
+#[test]
+fn demo_prediction_as_the_readme_gives_it() {
+    // README, "Power budget": 5.018 / 4.961 / 4.884 V at 2 MHz (a regression figure)
+    let (code, out, _) = slackmeter(&["power", "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let rails: Vec<String> = (0..3)
+        .map(|i| format!("{:.3}", v["sections"][i]["rail_v"].as_f64().unwrap()))
+        .collect();
+    assert_eq!(rails, ["5.018", "4.961", "4.884"]);
+}
