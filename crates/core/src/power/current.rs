@@ -129,6 +129,14 @@ mod tests {
     }
 
     #[test]
+    fn cmos_relation_against_the_74hc04_worked_example() {
+        // docs/REFERENCES.md §2: 74HC04 gate, CPD 21 pF (NXP 74HC04-Q100), CL 50 pF, 5 V, 1 MHz
+        // in and out → PD = 21·25·1 + 50·25·1 = 1775 µW, so I = 1775 µW / 5 V = 355 µA
+        let i = cmos_dynamic_ma(21.0, 1.0, 1e6, 50.0, 1.0, 1e6, 5.0);
+        assert!((i * 5.0 * 1e3 - 1775.0).abs() < 1e-9, "{i}");
+    }
+
+    #[test]
     fn cmos_relation_in_the_data_sheet_units() {
         // NXP 74HC245 Rev. 03, table 9 note 1: PD in µW = CPD × VCC² × fi × N + Σ(CL × VCC² × fo)
         // with pF, V and MHz. CPD 30 pF, VCC 5 V, fi 1 MHz, N = 1, CL 50 pF, fo 0.5 MHz:
