@@ -362,3 +362,70 @@ fn demo_prediction_as_the_readme_gives_it() {
         .collect();
     assert_eq!(rails, ["5.018", "4.961", "4.884"]);
 }
+
+#[test]
+fn a_section_fed_twice_or_in_a_loop_is_located() {
+    let twice = format!(
+        "{TWO_SECTIONS}\n[[feed]]\nsection = \"b\"\ngauge = \"22 AWG\"\nlength = \"1 m\"\n"
+    );
+    let (msg, line, _) = wiring_error(&twice);
+    assert!(msg.contains("fed twice"), "{msg}");
+    assert!(line > line_of(TWO_SECTIONS, "name = \"display\""), "{line}");
+    let looped = TWO_SECTIONS.replace("from = \"supply\"", "from = \"b\"");
+    let (msg, _, _) = wiring_error(&looped);
+    assert!(msg.contains("loop"), "{msg}");
+}
+
+#[test]
+fn hct_inputs_driven_by_ls_draw_their_extra_current() {
+    let text = r#"
+[design]
+name = "mixed"
+[[section]]
+name = "a"
+[[part]]
+ref = "U1"
+type = "74HC574"
+section = "a"
+[[part]]
+ref = "U2"
+type = "74HCT04"
+section = "a"
+[[part]]
+ref = "U3"
+type = "74LS04"
+section = "a"
+[[launch]]
+edge = "rise"
+part = "U1"
+arc = "CLK->Q"
+to = "q"
+[[arc]]
+from = "q"
+to = "y"
+part = "U2"
+arc = "A->Y"
+[[capture]]
+signal = "y"
+edge = "rise"
+part = "U1"
+check = "D->CLK"
+[supply]
+voltage = "5 V"
+[[feed]]
+section = "a"
+gauge = "22 AWG"
+length = "0 m"
+"#;
+    let (d, lib) = load(text);
+    let data = SupplyData::builtin();
+    let mut w = Wiring::of(&d).unwrap().unwrap();
+    let with_ls = power::solve(&d, &lib, &data, &w, &at(0.0));
+    w.hct_inputs_at_ttl = Some(false);
+    let cmos_levels = power::solve(&d, &lib, &data, &w, &at(0.0));
+    // NXP 74HC04-Q100: ΔICC max 432 µA per input at VCC − 2.1 V, six inputs = 2.592 mA
+    let extra = with_ls.sections[0].static_ma - cmos_levels.sections[0].static_ma;
+    assert!((extra - 2.592).abs() < 1e-9, "{extra}");
+    // IN74LS04: the mean of 2.4 and 6.6 mA is in both
+    assert!(cmos_levels.sections[0].static_ma > 4.5);
+}

@@ -391,6 +391,21 @@ impl fmt::Display for Si {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn currents_resistances_and_lengths() {
+        // SI prefixes (BIPM SI Brochure §3.1); ohm may be spelt out, Ω or the OHM SIGN
+        assert_eq!(parse_current_ma("120 mA"), Ok(120.0));
+        assert_eq!(parse_current_ma("1.5A"), Ok(1500.0));
+        assert_eq!(parse_resistance_ohm("1 k\u{3a9}"), Ok(1000.0));
+        assert_eq!(parse_resistance_ohm("330 ohm"), Ok(330.0));
+        assert_eq!(parse_resistance_ohm("20 m\u{2126}"), Ok(0.02));
+        assert_eq!(parse_length_m("450 mm"), Ok(0.45));
+        assert_eq!(parse_length_m("2 m"), Ok(2.0));
+        assert!(parse_length_m("2 ft").is_err());
+        assert!(parse_current_ma("5 ma").is_err());
+    }
+
     use super::*;
 
     // Spelling rules: BIPM SI Brochure (9th ed.) §3.1 and §5.4; NIST SP 811 ch. 6.

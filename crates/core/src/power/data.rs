@@ -86,9 +86,9 @@ pub struct SupplyData {
 #[serde(deny_unknown_fields)]
 struct RawFile {
     #[serde(default)]
-    family: Vec<RawEntry>,
+    family: Vec<Spanned<RawEntry>>,
     #[serde(default)]
-    part: Vec<RawEntry>,
+    part: Vec<Spanned<RawEntry>>,
 }
 
 #[derive(Deserialize)]
@@ -125,17 +125,28 @@ impl SupplyData {
         let raw: RawFile = toml::from_str(&src.text).map_err(|e| Box::new(src.toml_error(&e)))?;
         let mut out = SupplyData::default();
         for f in &raw.family {
-            let Some(name) = &f.name else {
-                return Err(src.fail(0..0, "a [[family]] needs a name", "here", None));
+            let Some(name) = &f.get_ref().name else {
+                return Err(src.fail(
+                    f.span(),
+                    "a [[family]] needs a name",
+                    "this table",
+                    Some("add name = \"74HC\" (a family of the part library)".into()),
+                ));
             };
-            let d = entry(src, f)?;
+            let d = entry(src, f.get_ref())?;
             out.families.insert(name.get_ref().clone(), d);
         }
         for p in &raw.part {
-            let Some(t) = &p.type_name else {
-                return Err(src.fail(0..0, "a [[part]] needs a type", "here", None));
+            let Some(t) = &p.get_ref().type_name else {
+                return Err(src.fail(
+                    p.span(),
+                    "a [[part]] needs a type",
+                    "this table",
+                    Some("add type = \"74HC245\" (a type of the part library)".into()),
+                ));
             };
-            out.parts.push((t.get_ref().clone(), entry(src, p)?));
+            out.parts
+                .push((t.get_ref().clone(), entry(src, p.get_ref())?));
         }
         Ok(out)
     }
@@ -287,6 +298,14 @@ mod tests {
         let text = "[[family]]\nname = \"X\"\nkind = \"cmos\"\ncpd_pf = -3\nsource = \"s\"\nstatus = \"seen\"\n";
         let e = SupplyData::parse(&Source::new("s.toml", text)).unwrap_err();
         assert_eq!((e.line, e.column), (4, 10), "{e}");
+    }
+
+    #[test]
+    fn a_part_without_a_type_is_located_at_its_table() {
+        let text = "[[part]]\nkind = \"ttl\"\nsource = \"s\"\nstatus = \"seen\"\n";
+        let e = SupplyData::parse(&Source::new("s.toml", text)).unwrap_err();
+        assert!(e.message.contains("needs a type"), "{e}");
+        assert!(e.line <= 2, "{e}");
     }
 
     #[test]
