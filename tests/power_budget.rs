@@ -429,3 +429,26 @@ length = "0 m"
     // IN74LS04: the mean of 2.4 and 6.6 mA is in both
     assert!(cmos_levels.sections[0].static_ma > 4.5);
 }
+
+#[test]
+fn report_sets_measured_rails_beside_the_prediction() {
+    let root = env!("CARGO_MANIFEST_DIR");
+    let design = format!("{root}/designs/larkspur-8.toml");
+    let steady = format!("{root}/recordings/larkspur-steady.smrec");
+    let (code, out, err) = slackmeter(&["report", &steady, "--design", &design]);
+    assert_eq!(code, 0, "within resolution exits 0 without --strict: {err}");
+    let part = out
+        .split("Rails against the power budget")
+        .nth(1)
+        .expect(&out);
+    assert!(part.contains("VCC_FAR"), "{part}");
+    assert!(!part.contains("more than the predicted"), "{part}");
+    // the sagging recording: the far rail's mean is lower than predicted, its current higher
+    let sagging = format!("{root}/recordings/larkspur-sagging.smrec");
+    let (_, out, _) = slackmeter(&["report", &sagging, "--design", &design, "--json"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let far = &v["rails_against_power_budget"][2];
+    assert_eq!(far["section"], "far");
+    assert_eq!(far["draws_more"], true);
+    assert!(far["difference_mv"].as_f64().unwrap() < -20.0);
+}
