@@ -16,6 +16,7 @@ const ALLOWED: &[(&str, &[&str])] = &[
     ("core/diag", &[]),
     ("core/probe", &[]),
     ("core/budget", &["core/units", "core/diag"]),
+    ("core/power", &["core/budget", "core/units", "core/diag"]),
     ("core/measure", &["core/probe", "core/units"]),
     (
         "core/margin",

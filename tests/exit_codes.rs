@@ -59,6 +59,7 @@ fn every_situation_has_one_code_for_every_command() {
     let missing_file = s(&dir.join("no-such-file"));
     let bad_design = s(&root().join("tests/designs/bad/03-unknown-part.toml"));
     let not_a_recording = s(&root().join("Cargo.toml"));
+    let no_supply = s(&root().join("tests/designs/worked-example.toml"));
     let steady = s(&root().join("recordings/larkspur-steady.smrec"));
     let sweep = s(&root().join("recordings/larkspur-sweep.smrec"));
     let no_dir = s(&dir.join("no-such-dir").join("out"));
@@ -88,8 +89,12 @@ fn every_situation_has_one_code_for_every_command() {
         ("missing file", vec!["budget".into(), "--recording".into(), missing_file.clone()], 2),
         ("missing file", vec!["failures".into(), missing_file.clone()], 2),
         ("missing file", vec!["parts".into(), "--parts".into(), missing_file.clone()], 2),
+        ("missing file", vec!["power".into(), missing_file.clone()], 2),
         // a design that does not load
         ("bad design", vec!["budget".into(), bad_design.clone()], 2),
+        ("bad design", vec!["power".into(), bad_design.clone()], 2),
+        ("bad design", vec!["power".into(), no_supply.clone()], 2),
+        ("bad design", vec!["budget".into(), no_supply.clone(), "--rails".into(), "predicted".into()], 2),
         // a device that never ends is refused after a bounded read
         ("bad design", vec!["budget".into(), "/dev/zero".into()], 2),
         ("bad design", vec!["report".into(), steady.clone(), "--design".into(), bad_design.clone()], 2),
@@ -120,6 +125,8 @@ fn every_situation_has_one_code_for_every_command() {
         // fine
         ("fine", vec!["report".into(), steady.clone()], 0),
         ("fine", vec!["budget".into()], 0),
+        ("fine", vec!["power".into()], 0),
+        ("fine", vec!["budget".into(), "--rails".into(), "predicted".into()], 0),
         ("fine", vec!["budget".into(), "--help".into()], 0),
     ];
     let mut wrong = Vec::new();
@@ -133,8 +140,8 @@ fn every_situation_has_one_code_for_every_command() {
     }
     // a flag no command has: the command line is bad, whatever the command
     for cmd in [
-        "budget", "parts", "sim", "ports", "listen", "record", "report", "export", "failures",
-        "watch", "replay",
+        "budget", "parts", "power", "sim", "ports", "listen", "record", "report", "export",
+        "failures", "watch", "replay",
     ] {
         let (got, err) = code(&[cmd.into(), "--no-such-flag".into()]);
         if got != 2 {

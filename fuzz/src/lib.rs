@@ -366,7 +366,18 @@ pub fn design_file(data: &[u8]) {
     let lib = LIB.get_or_init(Library::builtin);
     let text = String::from_utf8_lossy(data);
     if let Ok(d) = Design::parse(Source::new("fuzz.toml", text.as_ref()), lib) {
-        drop(d);
+        // the supply wiring is read from the same text, and the power budget solved on it
+        if let Ok(Some(w)) = slackmeter_core::power::Wiring::of(&d) {
+            static DATA: std::sync::OnceLock<slackmeter_core::power::SupplyData> =
+                std::sync::OnceLock::new();
+            let data = DATA.get_or_init(slackmeter_core::power::SupplyData::builtin);
+            let pt = slackmeter_core::power::PowerPoint {
+                freq_hz: d.clock.freq_hz.unwrap_or(1e6),
+                data_activity: 0.25,
+                temp_c: d.operating.temp_c,
+            };
+            let _ = slackmeter_core::power::solve(&d, lib, data, &w, &pt);
+        }
     }
 }
 

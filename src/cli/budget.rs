@@ -25,6 +25,14 @@ pub enum CornerArg {
     Typ,
 }
 
+/// Where the sections' supplies come from.
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum RailsArg {
+    /// Each section at the rail the design's supply wiring predicts (`slackmeter power`); without
+    /// --freq the clock is solved as a fixed point with its own dynamic current.
+    Predicted,
+}
+
 /// Options of `budget`.
 #[derive(clap::Args, Debug)]
 pub struct BudgetArgs {
@@ -48,6 +56,19 @@ pub struct BudgetArgs {
     /// Hold the budget against a clock of this frequency (with --duty, else the design's or 50 %).
     #[arg(long, value_parser = args::pos_freq)]
     pub freq: Option<f64>,
+    /// Derate each section at its predicted rail (the design's [supply] wiring). With --freq the
+    /// rails are those of that clock; without it the clock is solved as a fixed point (its
+    /// dynamic current sets the rails, the rails its f_max), starting at the design's clock.
+    #[arg(long, value_enum, conflicts_with_all = ["vcc", "section_vcc", "recording", "sweep_vcc"])]
+    pub rails: Option<RailsArg>,
+    /// With --rails predicted: data-signal activity, 0…1 (0.25 when absent; common practice,
+    /// no source).
+    #[arg(long, value_parser = args::fraction, requires = "rails")]
+    pub activity: Option<f64>,
+    /// With --rails predicted: f_max at the rails each clock of a sweep predicts, e.g.
+    /// 1MHz..8MHz (the sag grows with the clock).
+    #[arg(long = "sweep-freq", value_name = "FROM..TO", value_parser = args::freq_range, requires = "rails")]
+    pub sweep_freq: Option<(f64, f64)>,
     /// Print f_max against supply voltage over a range, e.g. 4.0V..5.5V.
     #[arg(long = "sweep-vcc", value_name = "FROM..TO", value_parser = args::vcc_range)]
     pub sweep_vcc: Option<(f64, f64)>,
@@ -223,6 +244,14 @@ pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
         return Ok(Outcome::Done);
     }
 
+    if a.rails == Some(RailsArg::Predicted) {
+        // only a clock asked for is held fixed: the design's planned clock starts the fixed point
+        let asked = a.freq.map(|f| ClockInput {
+            freq_hz: f,
+            duty: a.duty.or(design.clock.duty).unwrap_or(0.5),
+        });
+        return predicted(&a, &design, &lib, &op, asked, &name);
+    }
     let b = budget::solve(&design, &lib, &op, clock, a.duty);
     if a.json {
         emit(&format!("{}\n", serde_json::to_string_pretty(&b)?))?;
@@ -230,6 +259,114 @@ pub fn run(a: BudgetArgs) -> CliResult<Outcome> {
         emit(&report::budget::render(&b, &name))?;
     }
     Ok(match &b.clock {
+        Some(c) if !c.meets => Outcome::MarginBroken,
+        _ => Outcome::Done,
+    })
+}
+
+/// `budget --rails predicted`: the budget at the rails the supply wiring predicts.
+fn predicted(
+    a: &BudgetArgs,
+    design: &Design,
+    lib: &crate::budget::Library,
+    op: &OperatingPoint,
+    clock: Option<ClockInput>,
+    name: &str,
+) -> CliResult<Outcome> {
+    use crate::power::{SupplyData, Wiring, timing::Ask};
+    let Some(wiring) = Wiring::of(design)? else {
+        return Err(CliError::input(miette!(
+            help =
+                "add [supply] and a [[feed]] per section (docs/DESIGN-FILE.md, \"Supply wiring\")",
+            "{name}: --rails predicted needs the design's supply wiring; it has no [supply] table"
+        )));
+    };
+    let data_activity = a
+        .activity
+        .unwrap_or(crate::power::current::DEFAULT_DATA_ACTIVITY);
+    if !(0.0..=1.0).contains(&data_activity) {
+        return Err(CliError::input(miette!(
+            help = "a data line toggles at most at the clock: give 0…1, e.g. 0.25",
+            "--activity {data_activity} is above 1"
+        )));
+    }
+    let data = SupplyData::builtin();
+    let ask = Ask {
+        design,
+        lib,
+        data: &data,
+        wiring: &wiring,
+        data_activity,
+    };
+    if let Some((from, to)) = a.sweep_freq {
+        let pts = ask.sweep(op, from, to, a.points as usize);
+        if a.json {
+            let doc = serde_json::json!({ "design": design.name, "sweep_freq": pts });
+            emit(&format!("{}\n", serde_json::to_string_pretty(&doc)?))?;
+        } else {
+            let mut s = format!("f_max at predicted rails, {} ({name})\n", design.name);
+            let names: Vec<String> = pts
+                .first()
+                .map(|p| p.rails_v.iter().map(|(n, _)| format!("{n:>8}")).collect())
+                .unwrap_or_default();
+            s += &format!(
+                "{:>10} {:>9} {} {:>12} {:>12}\n",
+                "clock",
+                "supply",
+                names.join(" "),
+                "f_max 50 %",
+                "estimate"
+            );
+            for p in &pts {
+                let rails: Vec<String> = p
+                    .rails_v
+                    .iter()
+                    .map(|(_, v)| format!("{v:>6.3} V"))
+                    .collect();
+                s += &format!(
+                    "{:>6.3} MHz {:>6.1} mA {} {:>8.3} MHz {:>8.3} MHz\n",
+                    p.freq_hz / 1e6,
+                    p.total_ma,
+                    rails.join(" "),
+                    p.fmax_50_hz / 1e6,
+                    p.estimate_fmax_50_hz / 1e6
+                );
+            }
+            emit(&s)?;
+        }
+        return Ok(Outcome::Done);
+    }
+    let p = ask.budget(op, clock, a.duty);
+    if a.json {
+        emit(&format!("{}\n", serde_json::to_string_pretty(&p)?))?;
+    } else {
+        let rails: Vec<String> = p
+            .power
+            .sections
+            .iter()
+            .map(|s| format!("{} {:.3} V", s.name, s.rail_v))
+            .collect();
+        let how = if p.clock_given {
+            format!(
+                "at the clock asked for; rails settled in {} iterations",
+                p.power.iterations
+            )
+        } else if p.settled {
+            format!(
+                "at the clock fixed point (its own f_max at the rails it predicts), reached in {} iterations",
+                p.clock_iterations
+            )
+        } else {
+            "nothing limits the clock: the design's clock was used".to_string()
+        };
+        emit(&format!(
+            "Predicted rails at {:.3} MHz ({how}): {}\n",
+            p.freq_hz / 1e6,
+            rails.join(", ")
+        ))?;
+        emit(&report::budget::render(&p.budget, name))?;
+    }
+    Ok(match &p.budget.clock {
         Some(c) if !c.meets => Outcome::MarginBroken,
         _ => Outcome::Done,
     })

@@ -15,6 +15,7 @@ pub mod model;
 pub mod output;
 pub mod parts;
 pub mod ports;
+pub mod power;
 pub mod record;
 pub mod replay;
 pub mod report;
@@ -53,6 +54,13 @@ Quantities take SI units with or without a space: --vcc 4.75V, --freq \"1.8 MHz\
     Budget(self::budget::BudgetArgs),
     /// List the part library (built-in parts plus a --parts folder).
     Parts(self::parts::PartsArgs),
+    /// Budget the supply: each section's current (static, dynamic, LEDs), the drop along its
+    /// feed, the predicted rails and the supply's headroom.
+    #[command(
+        after_help = "Without DESIGN the built-in demo machine (designs/larkspur-8.toml) is used.\n\
+Example: slackmeter power --freq 4MHz --activity 0.3 --json"
+    )]
+    Power(self::power::PowerArgs),
     /// Run the virtual probe: the demo machine's clock, rails and lines, spoken in the probe
     /// protocol on a pseudo-terminal, into a file or to standard output.
     #[command(
@@ -106,6 +114,7 @@ pub fn dispatch(command: Command) -> CliResult<Outcome> {
     match command {
         Command::Budget(a) => self::budget::run(a),
         Command::Parts(a) => self::parts::run(a),
+        Command::Power(a) => self::power::run(a),
         Command::Sim(a) => self::sim::run(*a),
         Command::Ports => self::ports::run(),
         Command::Listen(a) => self::listen::run(a),

@@ -171,6 +171,36 @@ fn write_plots(
     Ok(())
 }
 
+/// The measured rail means beside the power budget of a design with supply wiring (at the
+/// clock measured, else the design's); None when the design has no [supply] table.
+fn predicted_rails(
+    d: &Design,
+    lib: &Library,
+    snap: &crate::measure::Snapshot,
+    measured_hz: Option<f64>,
+    temp_c: Option<f64>,
+) -> CliResult<Option<Vec<crate::power::compare::RailCheck>>> {
+    use crate::power::{self, PowerPoint, SupplyData, Wiring};
+    let Some(w) = Wiring::of(d)? else {
+        return Ok(None);
+    };
+    let Some(freq_hz) = measured_hz.or(d.clock.freq_hz) else {
+        return Ok(None);
+    };
+    let pt = PowerPoint {
+        freq_hz,
+        data_activity: power::current::DEFAULT_DATA_ACTIVITY,
+        temp_c: temp_c.unwrap_or(d.operating.temp_c),
+    };
+    let pb = power::solve(d, lib, &SupplyData::builtin(), &w, &pt);
+    let measured: Vec<(String, f64)> = snap
+        .rails
+        .iter()
+        .filter_map(|r| r.mean_mv.map(|m| (r.name.clone(), m / 1000.0)))
+        .collect();
+    Ok(Some(power::compare::compare(d, &w, &pb, &measured)))
+}
+
 /// `slackmeter report`.
 pub fn run(a: ReportArgs) -> CliResult<Outcome> {
     let lib = a.design.library()?;
@@ -215,6 +245,19 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         write_plots(dir, p, &an, judged, &lib, a.temp)?;
     }
     let (snap, sum) = (&an.snapshot, &an.summary);
+    let rail_checks = design
+        .as_ref()
+        .map(|d| {
+            predicted_rails(
+                d,
+                &lib,
+                snap,
+                margin.as_ref().map(|m| m.operating_hz),
+                a.temp,
+            )
+        })
+        .transpose()?
+        .flatten();
     let mut out = std::io::stdout().lock();
     let stdout = CliError::io("standard output");
     let judged = margin.as_ref().zip(design.as_ref());
@@ -230,6 +273,9 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         });
         if let Some(m) = &margin {
             v["margin"] = serde_json::to_value(m)?;
+        }
+        if let Some(c) = &rail_checks {
+            v["rails_against_power_budget"] = serde_json::to_value(c)?;
         }
         serde_json::to_writer_pretty(&mut out, &v)?;
         writeln!(out).map_err(stdout)?;
@@ -248,6 +294,9 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
         text.push_str(&report::series::render(&snap.series, margin.as_ref()));
         if let Some((m, d)) = judged {
             text.push_str(&report::margin::render(m, &d.name));
+        }
+        if let Some(c) = &rail_checks {
+            text.push_str(&crate::power::compare::render(c));
         }
         drop(out);
         super::output::report_text(&text)?;

@@ -8,5 +8,6 @@ pub mod budget;
 pub mod diag;
 pub mod margin;
 pub mod measure;
+pub mod power;
 pub mod probe;
 pub mod units;

@@ -18,6 +18,12 @@ pub enum Kind {
     Voltage,
     /// Farads, returned in picofarads.
     Capacitance,
+    /// Amperes, returned in milliamperes.
+    Current,
+    /// Ohms ("Ω" or "ohm"), returned in ohms.
+    Resistance,
+    /// Metres, returned in metres.
+    Length,
 }
 
 impl Kind {
@@ -27,6 +33,16 @@ impl Kind {
             Kind::Frequency => "Hz",
             Kind::Voltage => "V",
             Kind::Capacitance => "F",
+            Kind::Current => "A",
+            Kind::Resistance => "\u{3a9}",
+            Kind::Length => "m",
+        }
+    }
+    /// Other spellings of the unit symbol ("ohm", and the OHM SIGN beside the Greek omega).
+    fn alternatives(self) -> &'static [&'static str] {
+        match self {
+            Kind::Resistance => &["ohm", "\u{2126}"],
+            _ => &[],
         }
     }
     fn noun(self) -> &'static str {
@@ -35,6 +51,9 @@ impl Kind {
             Kind::Frequency => "a frequency",
             Kind::Voltage => "a voltage",
             Kind::Capacitance => "a capacitance",
+            Kind::Current => "a current",
+            Kind::Resistance => "a resistance",
+            Kind::Length => "a length",
         }
     }
     fn example(self) -> &'static str {
@@ -43,6 +62,9 @@ impl Kind {
             Kind::Frequency => "\"1.8 MHz\" or \"250 kHz\"",
             Kind::Voltage => "\"4.75 V\" or \"4750 mV\"",
             Kind::Capacitance => "\"50 pF\"",
+            Kind::Current => "\"120 mA\" or \"1.5 A\"",
+            Kind::Resistance => "\"1 k\u{3a9}\", \"330 ohm\" or \"20 m\u{3a9}\"",
+            Kind::Length => "\"0.6 m\" or \"450 mm\"",
         }
     }
     /// Power of ten from the SI base unit to the unit this module returns.
@@ -50,7 +72,8 @@ impl Kind {
         match self {
             Kind::Time => 9,
             Kind::Capacitance => 12,
-            Kind::Frequency | Kind::Voltage => 0,
+            Kind::Current => 3,
+            Kind::Frequency | Kind::Voltage | Kind::Resistance | Kind::Length => 0,
         }
     }
 }
@@ -170,7 +193,7 @@ pub fn parse(text: &str, kind: Kind) -> Result<f64, UnitError> {
     }
     for (prefix, exp) in PREFIXES {
         if let Some(sym) = unit.strip_prefix(prefix)
-            && sym == kind.symbol()
+            && (sym == kind.symbol() || kind.alternatives().contains(&sym))
         {
             let e = exp + kind.out_exp();
             // multiply or divide by an exact power of ten so whole values stay whole
@@ -218,6 +241,21 @@ pub fn parse_voltage_v(text: &str) -> Result<f64, UnitError> {
 /// Capacitance in picofarads from "50 pF", "0.1 nF".
 pub fn parse_capacitance_pf(text: &str) -> Result<f64, UnitError> {
     parse(text, Kind::Capacitance)
+}
+
+/// Current in milliamperes from "120 mA", "1.5 A".
+pub fn parse_current_ma(text: &str) -> Result<f64, UnitError> {
+    parse(text, Kind::Current)
+}
+
+/// Resistance in ohms from "1 kΩ", "330 ohm", "20 mΩ".
+pub fn parse_resistance_ohm(text: &str) -> Result<f64, UnitError> {
+    parse(text, Kind::Resistance)
+}
+
+/// Length in metres from "0.6 m", "450 mm".
+pub fn parse_length_m(text: &str) -> Result<f64, UnitError> {
+    parse(text, Kind::Length)
 }
 
 /// Temperature in °C from "85", "85C", "85 °C", "-40 °C" (only degrees Celsius are accepted).
@@ -400,6 +438,21 @@ pub fn pm(value: f64, uncertainty: f64, symbol: &str) -> String {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn currents_resistances_and_lengths() {
+        // SI prefixes (BIPM SI Brochure §3.1); ohm may be spelt out, Ω or the OHM SIGN
+        assert_eq!(parse_current_ma("120 mA"), Ok(120.0));
+        assert_eq!(parse_current_ma("1.5A"), Ok(1500.0));
+        assert_eq!(parse_resistance_ohm("1 k\u{3a9}"), Ok(1000.0));
+        assert_eq!(parse_resistance_ohm("330 ohm"), Ok(330.0));
+        assert_eq!(parse_resistance_ohm("20 m\u{2126}"), Ok(0.02));
+        assert_eq!(parse_length_m("450 mm"), Ok(0.45));
+        assert_eq!(parse_length_m("2 m"), Ok(2.0));
+        assert!(parse_length_m("2 ft").is_err());
+        assert!(parse_current_ma("5 ma").is_err());
+    }
+
     use super::*;
 
     // Spelling rules: BIPM SI Brochure (9th ed.) §3.1 and §5.4; NIST SP 811 ch. 6.

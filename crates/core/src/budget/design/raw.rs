@@ -25,6 +25,18 @@ pub(super) struct RawDesign {
     pub capture: Vec<RawCapture>,
     #[serde(default, rename = "override")]
     pub overrides: Vec<RawOverride>,
+    /// The supply wiring tables, read and checked by the power budget (`power::Wiring`).
+    #[allow(dead_code)]
+    pub supply: Option<toml::Value>,
+    #[allow(dead_code)]
+    #[serde(default)]
+    pub feed: Vec<toml::Value>,
+    #[allow(dead_code)]
+    #[serde(default)]
+    pub led: Vec<toml::Value>,
+    #[allow(dead_code)]
+    #[serde(default)]
+    pub load: Vec<toml::Value>,
 }
 
 #[derive(Deserialize)]
