@@ -3,7 +3,7 @@
 use std::path::PathBuf;
 
 use super::design::DesignArgs;
-use super::error::{CliError, CliResult, Outcome};
+use super::error::{CliResult, Outcome};
 use super::live::{ViewFiles, show};
 use crate::record::Recording;
 use crate::record::format::ChunkKind;
