@@ -20,7 +20,7 @@ use super::text::{Row, by_priority, row, width_of};
 pub use super::text::{fit, wrap};
 use crate::measure::LineSnapshot;
 use crate::probe::LineRole;
-use crate::units::{hz, ns};
+use crate::units::{hz, ns, percent_pm};
 
 /// Smallest terminal the full view needs.
 pub const MIN_SIZE: (u16, u16) = (80, 24);
@@ -125,11 +125,11 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
     let (freq, freq_short) = pm(c.frequency_hz, c.frequency_uncertainty_hz, &|x| {
         hz(x).to_string()
     });
-    let (duty, duty_short) = pm(
-        c.duty.map(|d| d * 100.0),
-        c.duty_uncertainty.map(|d| d * 100.0),
-        &|x| format!("{x:.2} %"),
-    );
+    let (duty, duty_short) = match (c.duty, c.duty_uncertainty) {
+        (Some(d), Some(u)) => percent_pm(d, u, 3),
+        (Some(d), None) => (format!("{:.2} %", d * 100.0), format!("{:.2} %", d * 100.0)),
+        _ => ("—".into(), "—".into()),
+    };
     let tick = ns(c.resolution_ns).to_string();
     let hi = opt_ns(c.high_min_ns);
     let lo = opt_ns(c.low_min_ns);

@@ -389,6 +389,22 @@ impl fmt::Display for Si {
     }
 }
 
+/// A share (0…1) and its uncertainty as per cent, with as many decimals as the uncertainty
+/// needs for two significant digits, at most `max_decimals`; an uncertainty too small for those
+/// reads "< 0.001 %" rather than zero. Returns `(value ± U, value alone)`.
+pub fn percent_pm(share: f64, uncertainty: f64, max_decimals: usize) -> (String, String) {
+    let max = max_decimals.clamp(1, 9);
+    let want = (1 - (uncertainty * 100.0).max(1e-12).log10().floor() as i32).max(1) as usize;
+    let digits = want.min(max);
+    let value = format!("{:.digits$} %", share * 100.0);
+    let u = if want > max {
+        format!("< {:.digits$} %", 10f64.powi(-(digits as i32)))
+    } else {
+        format!("{:.digits$} %", uncertainty * 100.0)
+    };
+    (format!("{value} ± {u}"), value)
+}
+
 /// A value and its uncertainty in one unit (the value's prefix): "2.0000000 MHz ± 0.0000017 MHz",
 /// "250.00 ns ± 0.80 ns". The value keeps four significant digits, or as many decimals as the
 /// uncertainty needs for two significant digits; `symbol` is the base unit ("Hz", "s").
@@ -544,5 +560,14 @@ mod tests {
             let back = parse_freq_hz(&text).unwrap();
             assert!((back - v).abs() / v < 1e-5, "{v} -> {text} -> {back}");
         }
+    }
+
+    #[test]
+    fn a_share_keeps_two_significant_digits_of_its_uncertainty() {
+        assert_eq!(percent_pm(0.5, 0.0029, 9).0, "50.00 % ± 0.29 %");
+        assert_eq!(percent_pm(0.5, 0.000_006_3, 9).0, "50.00000 % ± 0.00063 %");
+        // a cap on the decimals never shows a non-zero uncertainty as zero
+        assert_eq!(percent_pm(0.5, 0.000_000_63, 3).0, "50.000 % ± < 0.001 %");
+        assert_eq!(percent_pm(0.25, 0.02, 3).1, "25.0 %");
     }
 }

@@ -6,7 +6,7 @@ use std::fmt::Write;
 
 use crate::record::{Header, ReplaySummary};
 use slackmeter_core::measure::{ClockSnapshot, Movement, Snapshot};
-use slackmeter_core::units::{hz, ns};
+use slackmeter_core::units::{hz, ns, percent_pm};
 
 use super::table;
 
@@ -75,11 +75,10 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
         ),
         row(
             "duty",
-            pm(
-                c.duty.map(|d| d * 100.0),
-                c.duty_uncertainty.map(|d| d * 100.0),
-                |x| format!("{x:.3} %"),
-            ),
+            match (c.duty, c.duty_uncertainty) {
+                (Some(d), Some(u)) => percent_pm(d, u, 9).0,
+                (d, _) => pm(d.map(|d| d * 100.0), None, |x| format!("{x:.3} %")),
+            },
             c.duty_sampled.map_or(String::new(), |(p, lo, hi)| {
                 format!(
                     "sampled {:.2} % (Wilson 95 %: {:.2} … {:.2} %)",

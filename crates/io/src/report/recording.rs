@@ -6,7 +6,7 @@ use serde::Serialize;
 
 use crate::record::{Header, ReplaySummary};
 use slackmeter_core::measure::{ClockSnapshot, Movement, Snapshot};
-use slackmeter_core::units::{hz, ns};
+use slackmeter_core::units::{hz, ns, percent_pm};
 
 /// The JSON document of `slackmeter report --json`.
 #[derive(Serialize)]
@@ -178,12 +178,7 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
         out,
         "  duty          {}",
         match (c.duty, c.duty_uncertainty) {
-            (Some(d), Some(u)) => {
-                // as many decimals as the uncertainty needs for two significant digits
-                let digits = (1 - (u * 100.0).max(1e-9).log10().floor() as i32).clamp(1, 9);
-                let digits = digits as usize;
-                format!("{:.digits$} % ± {:.digits$} %", d * 100.0, u * 100.0)
-            }
+            (Some(d), Some(u)) => percent_pm(d, u, 9).0,
             (Some(d), None) => format!("{:.3} %", d * 100.0),
             _ => "—".into(),
         }

@@ -348,6 +348,6 @@ fn debiased_text(d_ns: f64, u_ns: f64, below: bool) -> String {
     if below {
         format!("below resolution, < {}", ns(d_ns + u_ns))
     } else {
-        format!("{} ± {}", ns(d_ns), ns(u_ns))
+        pm(d_ns * 1e-9, u_ns * 1e-9, "s")
     }
 }
