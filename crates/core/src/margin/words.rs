@@ -3,7 +3,7 @@
 //! frequency and the headroom to a failure.
 
 use crate::measure::ClockSnapshot;
-use crate::units::{hz, ns};
+use crate::units::{hz, ns, pm, si};
 
 use super::judge::{Against, Sign, Verdict};
 use super::types::{Basis, Margin};
@@ -107,25 +107,36 @@ fn guard_sentence(m: &Margin) -> String {
     }
 }
 
+/// A frequency with its uncertainty in one unit, or alone.
+fn with_u(f_hz: f64, u_hz: Option<f64>) -> String {
+    u_hz.map_or_else(|| hz(f_hz).to_string(), |u| pm(f_hz, u, "Hz"))
+}
+
 fn where_sentence(m: &Margin, c: &ClockSnapshot) -> String {
     let range = {
         let f = m.intervals.iter().map(|i| i.frequency_hz);
         let lo = f.clone().fold(f64::INFINITY, f64::min);
         let hi = f.fold(f64::NEG_INFINITY, f64::max);
         if lo.is_finite() {
-            format!(" ({} to {} between intervals)", hz(lo), hz(hi))
+            // enough digits that two different frequencies read differently
+            let digits = (4..=12)
+                .find(|&d| si(lo, "Hz", d).to_string() != si(hi, "Hz", d).to_string())
+                .unwrap_or(12);
+            format!(
+                " ({} to {} between intervals)",
+                si(lo, "Hz", digits),
+                si(hi, "Hz", digits)
+            )
         } else {
             String::new()
         }
     };
     let at = |what: &str| {
         format!(
-            "The clock moved{range}, so whole-window frequency, jitter and TIE describe a spread, not one clock; judged at {what}, {:.3}–{:.3} s: {}{} at {:.1} % duty.",
+            "The clock moved{range}, so whole-window frequency, jitter and TIE describe a spread, not one clock; judged at {what}, {:.3}–{:.3} s: {} at {:.1} % duty.",
             m.judged.from_s,
             m.judged.to_s,
-            hz(m.operating_hz),
-            m.operating_uncertainty_hz
-                .map_or(String::new(), |u| format!(" ± {}", hz(u))),
+            with_u(m.operating_hz, m.operating_uncertainty_hz),
             m.duty * 100.0
         )
     };
@@ -136,10 +147,8 @@ fn where_sentence(m: &Margin, c: &ClockSnapshot) -> String {
             "The clock moved{range}, but no interval gives figures of its own: judged over the whole window, whose worst cycles may come from different frequencies."
         ),
         Basis::Session => format!(
-            "Judged over the whole window: a steady clock at {}{}, {:.1} % duty{}.",
-            hz(m.operating_hz),
-            m.operating_uncertainty_hz
-                .map_or(String::new(), |u| format!(" ± {}", hz(u))),
+            "Judged over the whole window: a steady clock at {}, {:.1} % duty{}.",
+            with_u(m.operating_hz, m.operating_uncertainty_hz),
             m.duty * 100.0,
             if c.count_windows > 0 && c.cycles == 0 {
                 " (counted)"
@@ -192,9 +201,8 @@ pub(super) fn paragraph(m: &Margin, c: &ClockSnapshot) -> String {
     if m.moving || m.judged.basis != Basis::Session {
         out.push(match (m.highest_clean_hz, m.highest_clean_uncertainty_hz) {
             (Some(f), u) => format!(
-                "The highest frequency that ran clean (no problem, every slack positive) was {}{}{}.",
-                hz(f),
-                u.map_or(String::new(), |u| format!(" ± {}", hz(u))),
+                "The highest frequency that ran clean (no problem, every slack positive) was {}{}.",
+                with_u(f, u),
                 m.highest_clean_at_s
                     .map_or(String::new(), |t| format!(" at {t:.3} s"))
             ),
@@ -204,10 +212,9 @@ pub(super) fn paragraph(m: &Margin, c: &ClockSnapshot) -> String {
     if let Some(f) = &m.failure {
         let o = &f.onset;
         out.push(format!(
-            "Measured failure onset ({}) {} ± {}{}: from the operating point {} that is {} headroom.",
+            "Measured failure onset ({}) {}{}: from the operating point {} that is {} headroom.",
             o.cause,
-            hz(o.frequency_hz),
-            hz(o.frequency_uncertainty_hz),
+            pm(o.frequency_hz, o.frequency_uncertainty_hz, "Hz"),
             o.rail.as_ref().map_or(String::new(), |(n, mv)| format!(
                 " at {n} {:.3} V",
                 mv / 1000.0
