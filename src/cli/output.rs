@@ -46,9 +46,8 @@ pub fn check_folder(dir: &Path, force: bool) -> CliResult<()> {
     Ok(())
 }
 
-/// Refuse an existing output file unless `force`; with `force` a regular file is removed
-/// first, so a writer that creates its file new (a recording) can write there.
-pub fn clear_for(path: &Path, inputs: &[&Path], force: bool) -> CliResult<()> {
+/// Refuse to write over one of the command's own inputs.
+fn refuse_input(path: &Path, inputs: &[&Path]) -> CliResult<()> {
     if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
         return Err(CliError::input(miette!(
             help = "write the output to another path",
@@ -57,6 +56,13 @@ pub fn clear_for(path: &Path, inputs: &[&Path], force: bool) -> CliResult<()> {
             input.display()
         )));
     }
+    Ok(())
+}
+
+/// Refuse an existing output file unless `force`; with `force` a regular file is removed
+/// first, so a writer that creates its file new (a recording) can write there.
+pub fn clear_for(path: &Path, inputs: &[&Path], force: bool) -> CliResult<()> {
+    refuse_input(path, inputs)?;
     let Ok(meta) = std::fs::symlink_metadata(path) else {
         return Ok(());
     };
@@ -314,14 +320,7 @@ impl Progress {
 /// Open `path` for writing, refusing an input of this command and, unless `force`, any file
 /// already there (created atomically, so a file appearing meanwhile is not replaced either).
 pub fn create(path: &Path, inputs: &[&Path], force: bool) -> CliResult<File> {
-    if let Some(input) = inputs.iter().find(|i| same_file(path, i)) {
-        return Err(CliError::input(miette!(
-            help = "write the output to another path",
-            "{} is this command's input {}: it is not written over",
-            path.display(),
-            input.display()
-        )));
-    }
+    refuse_input(path, inputs)?;
     let mut o = OpenOptions::new();
     o.write(true);
     if force {

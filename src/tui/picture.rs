@@ -6,6 +6,7 @@ use ratatui::Frame;
 use ratatui::layout::{Constraint, Rect};
 use ratatui::style::Color;
 use ratatui::symbols::Marker;
+use ratatui::text::Line;
 use ratatui::widgets::{Axis, Chart, Dataset, GraphType, Paragraph};
 
 use super::state::{App, Picture};
@@ -153,36 +154,17 @@ pub fn picture(f: &mut Frame, app: &App, r: Rect) {
                 return;
             };
             let data = vec![
-                Dataset::default()
-                    .name("zero")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Dot)
-                    .style(color(Color::Red))
-                    .data(&zero),
-                Dataset::default()
-                    .name(format!("guard {guard:.0} %"))
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Dot)
-                    .style(color(Color::Yellow))
-                    .data(&band),
-                Dataset::default()
-                    .name("low")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Braille)
-                    .style(color(Color::Cyan))
-                    .data(&low),
-                Dataset::default()
-                    .name("high")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Braille)
-                    .style(color(Color::Magenta))
-                    .data(&high),
-                Dataset::default()
-                    .name("period")
-                    .graph_type(GraphType::Line)
-                    .marker(Marker::Braille)
-                    .style(color(Color::Green))
-                    .data(&period),
+                line(app, "zero", Marker::Dot, Color::Red, &zero),
+                line(
+                    app,
+                    format!("guard {guard:.0} %"),
+                    Marker::Dot,
+                    Color::Yellow,
+                    &band,
+                ),
+                line(app, "low", Marker::Braille, Color::Cyan, &low),
+                line(app, "high", Marker::Braille, Color::Magenta, &high),
+                line(app, "period", Marker::Braille, Color::Green, &period),
             ];
             let chart = Chart::new(data)
                 .block(block)
@@ -232,14 +214,13 @@ pub fn picture(f: &mut Frame, app: &App, r: Rect) {
                     .data(&bars),
             ];
             if let Some(n) = need {
-                data.push(
-                    Dataset::default()
-                        .name(format!("needs {}", ns(n)))
-                        .graph_type(GraphType::Line)
-                        .marker(Marker::Braille)
-                        .style(color(Color::Red))
-                        .data(&marker),
-                );
+                data.push(line(
+                    app,
+                    format!("needs {}", ns(n)),
+                    Marker::Braille,
+                    Color::Red,
+                    &marker,
+                ));
             }
             let chart = Chart::new(data)
                 .block(block)
@@ -295,14 +276,13 @@ pub fn picture(f: &mut Frame, app: &App, r: Rect) {
                     continue;
                 }
                 shown_limits.push(*l);
-                data.push(
-                    Dataset::default()
-                        .name(format!("limit {l:.2} V"))
-                        .graph_type(GraphType::Line)
-                        .marker(Marker::Dot)
-                        .style(color(Color::Red))
-                        .data(pts),
-                );
+                data.push(line(
+                    app,
+                    format!("limit {l:.2} V"),
+                    Marker::Dot,
+                    Color::Red,
+                    pts,
+                ));
             }
             for (i, (name, pts)) in sets.iter().enumerate() {
                 data.push(
@@ -364,4 +344,20 @@ mod tests {
         assert_eq!(merged.iter().map(|x| x.1).sum::<f64>(), 200.0);
         assert_eq!(bins(&b[..3], 10), vec![(0.0, 2.0), (8.0, 2.0), (16.0, 2.0)]);
     }
+}
+
+/// One line of a chart: its legend name, marker, colour (unless colour is off) and points.
+fn line<'a>(
+    app: &App,
+    name: impl Into<Line<'a>>,
+    marker: Marker,
+    colour: Color,
+    data: &'a [(f64, f64)],
+) -> Dataset<'a> {
+    Dataset::default()
+        .name(name)
+        .graph_type(GraphType::Line)
+        .marker(marker)
+        .style(st(app, colour))
+        .data(data)
 }
