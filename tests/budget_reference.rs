@@ -1125,3 +1125,63 @@ setup = "0 ns"
     assert_eq!(b.limits.period.binds, LimitKind::PartFmax);
     assert!((b.fmax_50_hz - 30e6).abs() < 1e-3, "{}", b.fmax_50_hz);
 }
+
+#[test]
+fn added_act_gates_and_the_hct574_enable_match_their_tables() {
+    let lib = Library::builtin();
+    let max = |p: &str, a: &str, k: ArcKind, v: f64, t: f64| max_at(&lib, p, a, k, v, t);
+    let min = |p: &str, a: &str, v: f64, t: f64| {
+        value(&lib, p, a, ArcKind::Delay, Corner::Min, v, t)
+            .ns
+            .unwrap()
+    };
+    let d = ArcKind::Delay;
+    // TI CD74ACT04 SCHS310C, CD74ACT08 SCHS312C, CD74ACT32 SCHS342A, switching characteristics
+    // at 5 V ± 0.5 V, CL = 50 pF: max (min) −40…85 °C | −55…125 °C
+    for (p, m85, m125, n125) in [
+        ("74ACT04", 8.5, 9.3, 2.3),
+        ("74ACT08", 11.7, 12.9, 3.2),
+        ("74ACT32", 11.0, 12.1, 3.0),
+    ] {
+        assert_eq!(max(p, "A->Y", d, 5.0, 85.0), m85, "{p}");
+        assert_eq!(max(p, "A->Y", d, 4.5, 125.0), m125, "{p}");
+        // the minimum holds up to 5.5 V, and the wider column covers the colder end
+        assert_eq!(min(p, "A->Y", 5.5, -55.0), n125, "{p}");
+    }
+    // TI CD74ACT00 SCHS308C: tPLH 9.5 | 10.8, tPHL 8 | 13.2: the larger of the two per column
+    assert_eq!(max("74ACT00", "A->Y", d, 5.0, 25.0), 9.5);
+    assert_eq!(max("74ACT00", "A->Y", d, 5.0, 125.0), 13.2);
+    // TI CD74ACT138 SCHS329B: A, B, C to Y 10.9 | 12; G1 10 | 11, G2A/G2B 9.5 | 10.5
+    assert_eq!(max("74ACT138", "A->Y", d, 5.0, 85.0), 10.9);
+    assert_eq!(max("74ACT138", "E->Y", d, 5.0, 125.0), 11.0);
+    // TI CD74ACT174 SCHS344B / JAJSUE2A: CLK to Q 12.6 | 14; f_max 91 | 80 MHz; CLK pulse
+    // width 5.4 | 6.2; hold 2.2 | 2.5; setup 2 ns
+    assert_eq!(max("74ACT174", "CLK->Q", d, 5.0, 25.0), 12.6);
+    assert_eq!(
+        max("74ACT174", "CLK", ArcKind::PulseWidth, 5.0, 100.0),
+        6.2
+    );
+    assert_eq!(max("74ACT174", "D->CLK", ArcKind::Hold, 5.0, 25.0), 2.2);
+    let f = max("74ACT174", "CLK", ArcKind::Fmax, 5.0, 85.0);
+    assert!((f - period_of_mhz(91.0)).abs() < 0.01, "{f}");
+    // TI CD74ACT74 SCHS321A: PRE or CLR to Q 10.5 | 11.5
+    assert_eq!(max("74ACT74/ti-cd", "CLR->Q", d, 5.0, 125.0), 11.5);
+    // TI SN74HCT574 SCLS177H, CL = 50 pF: ten OE to Q max 30 / 27 ns (4.5 / 5.5 V, 25 °C),
+    // 38 / 34 ns (SN74); f_max min 30 / 33 MHz, 24 / 27 MHz (SN74)
+    assert_eq!(max("74HCT574/ti-sn", "OE->Q", d, 5.5, 85.0), 34.0);
+    let f = max("74HCT574/ti-sn", "CLK", ArcKind::Fmax, 4.5, 85.0);
+    assert!((f - period_of_mhz(24.0)).abs() < 0.01, "{f}");
+}
+
+#[test]
+fn the_373s_transparent_row_matches_its_table() {
+    // TI CD74HC373 SCLS452C, switching characteristics: D to Q max 150/30/26 (25 °C),
+    // 190/38/33 (−40…85 °C), 225/45/38 (−55…125 °C)
+    let lib = Library::builtin();
+    for (v, t, want) in [(2.0, 25.0, 150.0), (4.5, 85.0, 38.0), (6.0, 125.0, 38.0)] {
+        assert_eq!(
+            max_at(&lib, "74HC373", "D->Q", ArcKind::Delay, v, t),
+            want
+        );
+    }
+}
