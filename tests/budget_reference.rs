@@ -1157,10 +1157,7 @@ fn added_act_gates_and_the_hct574_enable_match_their_tables() {
     // TI CD74ACT174 SCHS344B / JAJSUE2A: CLK to Q 12.6 | 14; f_max 91 | 80 MHz; CLK pulse
     // width 5.4 | 6.2; hold 2.2 | 2.5; setup 2 ns
     assert_eq!(max("74ACT174", "CLK->Q", d, 5.0, 25.0), 12.6);
-    assert_eq!(
-        max("74ACT174", "CLK", ArcKind::PulseWidth, 5.0, 100.0),
-        6.2
-    );
+    assert_eq!(max("74ACT174", "CLK", ArcKind::PulseWidth, 5.0, 100.0), 6.2);
     assert_eq!(max("74ACT174", "D->CLK", ArcKind::Hold, 5.0, 25.0), 2.2);
     let f = max("74ACT174", "CLK", ArcKind::Fmax, 5.0, 85.0);
     assert!((f - period_of_mhz(91.0)).abs() < 0.01, "{f}");
@@ -1179,9 +1176,6 @@ fn the_373s_transparent_row_matches_its_table() {
     // 190/38/33 (−40…85 °C), 225/45/38 (−55…125 °C)
     let lib = Library::builtin();
     for (v, t, want) in [(2.0, 25.0, 150.0), (4.5, 85.0, 38.0), (6.0, 125.0, 38.0)] {
-        assert_eq!(
-            max_at(&lib, "74HC373", "D->Q", ArcKind::Delay, v, t),
-            want
-        );
+        assert_eq!(max_at(&lib, "74HC373", "D->Q", ArcKind::Delay, v, t), want);
     }
 }
