@@ -1161,8 +1161,19 @@ fn added_act_gates_and_the_hct574_enable_match_their_tables() {
     assert_eq!(max("74ACT174", "D->CLK", ArcKind::Hold, 5.0, 25.0), 2.2);
     let f = max("74ACT174", "CLK", ArcKind::Fmax, 5.0, 85.0);
     assert!((f - period_of_mhz(91.0)).abs() < 0.01, "{f}");
-    // TI CD74ACT74 SCHS321A: PRE or CLR to Q 10.5 | 11.5
+    // TI CD74ACT74 SCHS321A: PRE or CLR to Q 10.5 | 11.5; timing requirements (JAJSV57A): CLK
+    // pulse width 5 | 5.7, setup data 3.5 | 4
     assert_eq!(max("74ACT74/ti-cd", "CLR->Q", d, 5.0, 125.0), 11.5);
+    assert_eq!(
+        max("74ACT74/ti-cd", "CLK", ArcKind::PulseWidth, 5.0, 125.0),
+        5.7
+    );
+    assert_eq!(
+        max("74ACT74/ti-cd", "D->CLK", ArcKind::Setup, 5.0, 25.0),
+        3.5
+    );
+    // the generic takes the SN74ACT74's 6 ns (−40…85 °C) over the CD74ACT74's 5 ns
+    assert_eq!(max("74ACT74", "CLK", ArcKind::PulseWidth, 5.0, 85.0), 6.0);
     // TI SN74HCT574 SCLS177H, CL = 50 pF: ten OE to Q max 30 / 27 ns (4.5 / 5.5 V, 25 °C),
     // 38 / 34 ns (SN74); f_max min 30 / 33 MHz, 24 / 27 MHz (SN74)
     assert_eq!(max("74HCT574/ti-sn", "OE->Q", d, 5.5, 85.0), 34.0);
