@@ -985,3 +985,208 @@ fn phases_are_classified_by_edges() {
     assert_eq!(Phase::of(Edge::Rise, Edge::Rise), Phase::Period);
     assert_eq!(Phase::of(Edge::Fall, Edge::Fall), Phase::Period);
 }
+
+/// A fmax arc is held as its shortest period: the MHz a data sheet gives, as ns.
+fn period_of_mhz(mhz: f64) -> f64 {
+    1000.0 / mhz
+}
+
+#[test]
+fn added_buffers_registers_and_counters_match_their_tables() {
+    let lib = Library::builtin();
+    let max = |p: &str, a: &str, k: ArcKind, v: f64, t: f64| max_at(&lib, p, a, k, v, t);
+    let d = ArcKind::Delay;
+    // TI CD74HC244 SCHS167G, switching characteristics, HC types: data to outputs max
+    // 100/20/17 (25 °C) | 125/25/21 (−40…85 °C) | 150/30/26 (−55…125 °C); output enable and
+    // disable 150/30/26 | 190/38/33 | 225/45/38; HCT types at 4.5 V: 22 | 28 | 33 and 30 | 38 | 45
+    assert_eq!(max("74HC244/ti-cd", "A->Y", d, 4.5, 25.0), 20.0);
+    assert_eq!(max("74HC244/ti-cd", "A->Y", d, 6.0, -40.0), 21.0);
+    assert_eq!(max("74HC244/ti-cd", "A->Y", d, 2.0, 125.0), 150.0);
+    assert_eq!(max("74HC244/ti-cd", "OE->Z", d, 4.5, 85.0), 38.0);
+    assert_eq!(max("74HC244/ti-cd", "OE->Y", d, 6.0, 125.0), 38.0);
+    assert_eq!(max("74HCT244/ti-cd", "A->Y", d, 4.5, 125.0), 33.0);
+    assert_eq!(max("74HCT244/ti-cd", "OE->Z", d, 5.0, 25.0), 30.0);
+    // TI CD74HC541 SCHS189E, switching characteristics, HC types: data to outputs (541) max
+    // 115/23 (2 / 4.5 V, 25 °C) | 145/29 | 175/35; above 4.5 V the 4.5 V column holds
+    assert_eq!(max("74HC541/ti-cd", "A->Y", d, 2.0, 125.0), 175.0);
+    assert_eq!(max("74HC541", "A->Y", d, 5.0, 85.0), 29.0);
+    // TI CD74HC173 SCHS158F, switching characteristics, HC types: clock to output 200/40/34 |
+    // 250/50/43 | 300/60/51; MR to output 175/35/30 | 220/44/37 | 265/53/45; prerequisites:
+    // f_max 6/30/35 | 5/24/28 | 4/20/24 MHz, clock pulse width 80/16/14 | 100/20/17 | 120/24/20
+    assert_eq!(max("74HC173/ti-cd", "CLK->Q", d, 4.5, 25.0), 40.0);
+    assert_eq!(max("74HC173/ti-cd", "CLR->Q", d, 6.0, 125.0), 45.0);
+    assert_eq!(
+        max("74HC173/ti-cd", "CLK", ArcKind::PulseWidth, 2.0, 85.0),
+        100.0
+    );
+    let f = max("74HC173/ti-cd", "CLK", ArcKind::Fmax, 4.5, 85.0);
+    assert!((f - period_of_mhz(24.0)).abs() < 0.01, "{f}");
+    // TI CD74HC4040 SCHS203E, HC types: CP to Q1 max 140/28/24 | 175/35/30 | 210/42/36;
+    // prerequisites: f_max 6/30/35 | 5/25/29 | 4/20/24 MHz, input pulse width 80/16/14 |
+    // 100/20/17 | 120/24/20, reset removal 50/10/9 | 65/13/11 | 75/15/13
+    assert_eq!(max("74HC4040/ti-cd", "CLK->Q1", d, 4.5, 85.0), 35.0);
+    assert_eq!(max("74HC4040/ti-cd", "CLK->Q1", d, 2.0, 25.0), 140.0);
+    assert_eq!(
+        max("74HC4040/ti-cd", "CLK", ArcKind::PulseWidth, 4.5, 125.0),
+        24.0
+    );
+    assert_eq!(
+        max("74HC4040/ti-cd", "CLR->CLK", ArcKind::Setup, 6.0, 25.0),
+        9.0
+    );
+    let f = max("74HC4040/ti-cd", "CLK", ArcKind::Fmax, 6.0, 85.0);
+    assert!((f - period_of_mhz(29.0)).abs() < 0.01, "{f}");
+    // TI SN74HCT08 SCLS063G and SN74HCT32 SCLS064G, switching characteristics: A or B to Y max
+    // 24 / 22 ns at 4.5 / 5.5 V (25 °C), 30 / 27 ns (SN74, −40…85 °C); typ 15 / 13 ns
+    for p in ["74HCT08", "74HCT32"] {
+        assert_eq!(max(p, "A->Y", d, 4.5, 25.0), 24.0);
+        assert_eq!(max(p, "A->Y", d, 5.5, 85.0), 27.0);
+        // between the columns the 4.5 V one holds
+        assert_eq!(max(p, "A->Y", d, 5.0, 85.0), 30.0);
+        let typ = value(&lib, p, "A->Y", d, Corner::Typ, 4.5, 25.0);
+        assert_eq!(typ.ns, Some(15.0));
+    }
+    // TI SN74HC151, 4.5 V, 25 °C, as quoted by a VHDL timing-model library (secondary):
+    // A, B, C to Y 50 ns, D to Y 39 ns, G to Y 25 ns
+    assert_eq!(max("74HC151", "S->Y", d, 4.5, 25.0), 50.0);
+    assert_eq!(max("74HC151", "I->Y", d, 4.5, 25.0), 39.0);
+    assert_eq!(max("74HC151", "E->Y", d, 4.5, 25.0), 25.0);
+}
+
+#[test]
+fn added_act74_rows_match_their_tables() {
+    let lib = Library::builtin();
+    let max = |p: &str, a: &str, k: ArcKind, v: f64, t: f64| max_at(&lib, p, a, k, v, t);
+    // TI CD74ACT74 (JAJSV57A), switching characteristics at 5 V ± 0.5 V: f_max 97 MHz
+    // (−40…85 °C) and 85 MHz (−55…125 °C); CLK to Q max 8.6 and 9.5 ns, min 2.5 and 2.4 ns
+    assert_eq!(
+        max("74ACT74/ti-cd", "CLK->Q", ArcKind::Delay, 5.0, 25.0),
+        8.6
+    );
+    assert_eq!(
+        max("74ACT74/ti-cd", "CLK->Q", ArcKind::Delay, 4.5, 100.0),
+        9.5
+    );
+    let min = value(
+        &lib,
+        "74ACT74/ti-cd",
+        "CLK->Q",
+        ArcKind::Delay,
+        Corner::Min,
+        5.0,
+        25.0,
+    );
+    // both columns cover 25 °C: the minimum taken is the smaller, 2.4 ns (never above a
+    // published minimum that applies)
+    assert_eq!(min.ns, Some(2.4));
+    let f = max("74ACT74/ti-cd", "CLK", ArcKind::Fmax, 5.0, 85.0);
+    assert!((f - period_of_mhz(97.0)).abs() < 0.01, "{f}");
+    // TI SN74ACT74 SCAS520J, timing requirements: f_clock 145 MHz (25 °C), 125 MHz (SN74,
+    // −40…85 °C); CLK pulse width 5 | 6 ns; setup data before CLK↑ 3 | 3.5 ns
+    assert_eq!(
+        max("74ACT74/ti-sn", "CLK", ArcKind::PulseWidth, 5.0, 85.0),
+        6.0
+    );
+    assert_eq!(
+        max("74ACT74/ti-sn", "D->CLK", ArcKind::Setup, 5.0, 25.0),
+        3.0
+    );
+    // the generic 74ACT74 is the worst of the two: 97 MHz from TI's CD74ACT74 at 25 °C,
+    // below the SN74ACT74's 145 MHz
+    let f = max("74ACT74", "CLK", ArcKind::Fmax, 5.0, 25.0);
+    assert!((f - period_of_mhz(97.0)).abs() < 0.01, "{f}");
+}
+
+#[test]
+fn a_4040s_fmax_binds_before_its_pulse_width() {
+    // TI CD74HC4040 SCHS203E at 4.5 V, 25 °C: input pulse width 16 ns (a 50 % clock of
+    // 31.25 MHz) and f_max 30 MHz; CP to Q1 28 ns. The counter advances on the falling edge.
+    let lib = Library::builtin();
+    let d = design(
+        &lib,
+        r#"
+[design]
+name = "ripple counter alone"
+[[part]]
+ref = "U1"
+type = "74HC4040"
+[[launch]]
+edge = "fall"
+part = "U1"
+arc = "CLK->Q1"
+to = "q1"
+[[capture]]
+signal = "q1"
+edge = "fall"
+setup = "0 ns"
+"#,
+    );
+    let b = solve(&d, &lib, &op(4.5, 25.0), None, None);
+    assert_eq!(b.limits.period.binds, LimitKind::PartFmax);
+    assert!((b.fmax_50_hz - 30e6).abs() < 1e-3, "{}", b.fmax_50_hz);
+}
+
+#[test]
+fn added_act_gates_and_the_hct574_enable_match_their_tables() {
+    let lib = Library::builtin();
+    let max = |p: &str, a: &str, k: ArcKind, v: f64, t: f64| max_at(&lib, p, a, k, v, t);
+    let min = |p: &str, a: &str, v: f64, t: f64| {
+        value(&lib, p, a, ArcKind::Delay, Corner::Min, v, t)
+            .ns
+            .unwrap()
+    };
+    let d = ArcKind::Delay;
+    // TI CD74ACT04 SCHS310C, CD74ACT08 SCHS312C, CD74ACT32 SCHS342A, switching characteristics
+    // at 5 V ± 0.5 V, CL = 50 pF: max (min) −40…85 °C | −55…125 °C
+    for (p, m85, m125, n125) in [
+        ("74ACT04", 8.5, 9.3, 2.3),
+        ("74ACT08", 11.7, 12.9, 3.2),
+        ("74ACT32", 11.0, 12.1, 3.0),
+    ] {
+        assert_eq!(max(p, "A->Y", d, 5.0, 85.0), m85, "{p}");
+        assert_eq!(max(p, "A->Y", d, 4.5, 125.0), m125, "{p}");
+        // the minimum holds up to 5.5 V, and the wider column covers the colder end
+        assert_eq!(min(p, "A->Y", 5.5, -55.0), n125, "{p}");
+    }
+    // TI CD74ACT00 SCHS308C: tPLH 9.5 | 10.8, tPHL 8 | 13.2: the larger of the two per column
+    assert_eq!(max("74ACT00", "A->Y", d, 5.0, 25.0), 9.5);
+    assert_eq!(max("74ACT00", "A->Y", d, 5.0, 125.0), 13.2);
+    // TI CD74ACT138 SCHS329B: A, B, C to Y 10.9 | 12; G1 10 | 11, G2A/G2B 9.5 | 10.5
+    assert_eq!(max("74ACT138", "A->Y", d, 5.0, 85.0), 10.9);
+    assert_eq!(max("74ACT138", "E->Y", d, 5.0, 125.0), 11.0);
+    // TI CD74ACT174 SCHS344B / JAJSUE2A: CLK to Q 12.6 | 14; f_max 91 | 80 MHz; CLK pulse
+    // width 5.4 | 6.2; hold 2.2 | 2.5; setup 2 ns
+    assert_eq!(max("74ACT174", "CLK->Q", d, 5.0, 25.0), 12.6);
+    assert_eq!(max("74ACT174", "CLK", ArcKind::PulseWidth, 5.0, 100.0), 6.2);
+    assert_eq!(max("74ACT174", "D->CLK", ArcKind::Hold, 5.0, 25.0), 2.2);
+    let f = max("74ACT174", "CLK", ArcKind::Fmax, 5.0, 85.0);
+    assert!((f - period_of_mhz(91.0)).abs() < 0.01, "{f}");
+    // TI CD74ACT74 SCHS321A: PRE or CLR to Q 10.5 | 11.5; timing requirements (JAJSV57A): CLK
+    // pulse width 5 | 5.7, setup data 3.5 | 4
+    assert_eq!(max("74ACT74/ti-cd", "CLR->Q", d, 5.0, 125.0), 11.5);
+    assert_eq!(
+        max("74ACT74/ti-cd", "CLK", ArcKind::PulseWidth, 5.0, 125.0),
+        5.7
+    );
+    assert_eq!(
+        max("74ACT74/ti-cd", "D->CLK", ArcKind::Setup, 5.0, 25.0),
+        3.5
+    );
+    // the generic takes the SN74ACT74's 6 ns (−40…85 °C) over the CD74ACT74's 5 ns
+    assert_eq!(max("74ACT74", "CLK", ArcKind::PulseWidth, 5.0, 85.0), 6.0);
+    // TI SN74HCT574 SCLS177H, CL = 50 pF: ten OE to Q max 30 / 27 ns (4.5 / 5.5 V, 25 °C),
+    // 38 / 34 ns (SN74); f_max min 30 / 33 MHz, 24 / 27 MHz (SN74)
+    assert_eq!(max("74HCT574/ti-sn", "OE->Q", d, 5.5, 85.0), 34.0);
+    let f = max("74HCT574/ti-sn", "CLK", ArcKind::Fmax, 4.5, 85.0);
+    assert!((f - period_of_mhz(24.0)).abs() < 0.01, "{f}");
+}
+
+#[test]
+fn the_373s_transparent_row_matches_its_table() {
+    // TI CD74HC373 SCLS452C, switching characteristics: D to Q max 150/30/26 (25 °C),
+    // 190/38/33 (−40…85 °C), 225/45/38 (−55…125 °C)
+    let lib = Library::builtin();
+    for (v, t, want) in [(2.0, 25.0, 150.0), (4.5, 85.0, 38.0), (6.0, 125.0, 38.0)] {
+        assert_eq!(max_at(&lib, "74HC373", "D->Q", ArcKind::Delay, v, t), want);
+    }
+}
