@@ -20,7 +20,7 @@ use super::text::{Row, by_priority, row, width_of};
 pub use super::text::{fit, wrap};
 use crate::measure::LineSnapshot;
 use crate::probe::LineRole;
-use crate::units::{hz, ns, percent_pm};
+use crate::units::{self, hz, ns, percent_pm};
 
 /// Smallest terminal the full view needs.
 pub const MIN_SIZE: (u16, u16) = (80, 24);
@@ -117,14 +117,12 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
         return;
     };
     let fs = figures_style(app);
-    let pm = |v: Option<f64>, u: Option<f64>, fmt: &dyn Fn(f64) -> String| match (v, u) {
-        (Some(v), Some(u)) => (format!("{} ± {}", fmt(v), fmt(u)), fmt(v)),
-        (Some(v), None) => (fmt(v), fmt(v)),
+    // the uncertainty in its value's unit, as every report gives it
+    let (freq, freq_short) = match (c.frequency_hz, c.frequency_uncertainty_hz) {
+        (Some(f), Some(u)) => (units::pm(f, u, "Hz"), hz(f).to_string()),
+        (Some(f), None) => (hz(f).to_string(), hz(f).to_string()),
         _ => ("—".into(), "—".into()),
     };
-    let (freq, freq_short) = pm(c.frequency_hz, c.frequency_uncertainty_hz, &|x| {
-        hz(x).to_string()
-    });
     let (duty, duty_short) = match (c.duty, c.duty_uncertainty) {
         (Some(d), Some(u)) => percent_pm(d, u, 3),
         (Some(d), None) => (format!("{:.2} %", d * 100.0), format!("{:.2} %", d * 100.0)),
