@@ -299,9 +299,9 @@ fn fold(x: &[f64], f: f64, part: &mut [Vec<f64>; 3], bins: &mut Vec<f64>) -> Opt
         let (ph, h) = phase(i);
         let (s1, c1) = (2.0 * std::f64::consts::PI * ph).sin_cos();
         let (mut zc, mut zs) = (c1, s1);
-        for k in 1..=k_top {
-            coef[h as usize][k].0 += v * zc;
-            coef[h as usize][k].1 += v * zs;
+        for c in coef[h as usize][1..=k_top].iter_mut() {
+            c.0 += v * zc;
+            c.1 += v * zs;
             (zc, zs) = (zc * c1 - zs * s1, zs * c1 + zc * s1);
         }
     }
@@ -401,14 +401,20 @@ fn fold(x: &[f64], f: f64, part: &mut [Vec<f64>; 3], bins: &mut Vec<f64>) -> Opt
                     )
                 })
                 .collect();
-            for i in 0..n {
+            let [p_all, p_even, p_odd] = part;
+            for (i, ((pa, pe), po)) in p_all
+                .iter_mut()
+                .zip(p_even.iter_mut())
+                .zip(p_odd.iter_mut())
+                .enumerate()
+            {
                 let (ph, _) = phase(i);
                 let (s1, c1) = (2.0 * std::f64::consts::PI * ph).sin_cos();
                 let (mut zc, mut zs) = (c1, s1);
                 for j in 1..=k {
-                    part[0][i] += all[j].0 * zc + all[j].1 * zs;
-                    part[1][i] += coef[0][j].0 * zc + coef[0][j].1 * zs;
-                    part[2][i] += coef[1][j].0 * zc + coef[1][j].1 * zs;
+                    *pa += all[j].0 * zc + all[j].1 * zs;
+                    *pe += coef[0][j].0 * zc + coef[0][j].1 * zs;
+                    *po += coef[1][j].0 * zc + coef[1][j].1 * zs;
                     (zc, zs) = (zc * c1 - zs * s1, zs * c1 + zc * s1);
                 }
             }
@@ -423,16 +429,22 @@ fn fold(x: &[f64], f: f64, part: &mut [Vec<f64>; 3], bins: &mut Vec<f64>) -> Opt
                 bins[4 * j + 2 * h as usize] += v;
                 bins[4 * j + 2 * h as usize + 1] += 1.0;
             }
-            for i in 0..n {
+            let [p_all, p_even, p_odd] = part;
+            for (i, ((pa, pe), po)) in p_all
+                .iter_mut()
+                .zip(p_even.iter_mut())
+                .zip(p_odd.iter_mut())
+                .enumerate()
+            {
                 let (ph, _) = phase(i);
                 let j = ((ph * nb as f64) as usize).min(nb - 1);
                 let b = &bins[4 * j..4 * j + 4];
                 let cnt = b[1] + b[3];
                 let all = if cnt > 0.0 { (b[0] + b[2]) / cnt } else { 0.0 };
-                part[0][i] = all;
+                *pa = all;
                 // a bin one half never saw takes the mean of all cycles
-                part[1][i] = if b[1] > 0.0 { b[0] / b[1] } else { all };
-                part[2][i] = if b[3] > 0.0 { b[2] / b[3] } else { all };
+                *pe = if b[1] > 0.0 { b[0] / b[1] } else { all };
+                *po = if b[3] > 0.0 { b[2] / b[3] } else { all };
             }
             Some(nb)
         }
