@@ -288,7 +288,16 @@ impl ClockState {
         let margin = if self.cfg.glitch_ns.is_some() { 0 } else { 1 };
         self.glitch_high_ticks = h.ceil().max(0.0) as u64 + margin;
         self.glitch_low_ticks = l.ceil().max(0.0) as u64 + margin;
-        self.spacing_ticks = (SPACING_FRACTION * self.typ_period).ceil().max(0.0) as u64;
+        // the later of a fraction of the period and the period less half the shorter phase
+        // and a tick: a runt that ends just before the end of a long phase brings the edge
+        // after it sooner than that (the long phase, less the fragment after the runt, is
+        // under the period by the whole short phase), while a real cycle's edge comes later
+        // unless its period is off by half the shorter phase
+        let shorter = self.typ_high.min(self.typ_low);
+        self.spacing_ticks = (SPACING_FRACTION * self.typ_period)
+            .max(self.typ_period - 0.5 * shorter - 1.0)
+            .ceil()
+            .max(0.0) as u64;
         self.stall_ticks = if self.typ_period > 0.0 {
             (self.cfg.stall_periods * self.typ_period) as u64
         } else {
