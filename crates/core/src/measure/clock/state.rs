@@ -74,7 +74,8 @@ pub struct ClockState {
     pub(super) glitch_high_ticks: u64,
     pub(super) glitch_low_ticks: u64,
     /// Two edges of one polarity closer than this (ticks) make the newer one undecided: an
-    /// extra pulse wider than the real phase of its polarity still splits a cycle.
+    /// extra pulse wider than the real phase of its polarity still splits a cycle, and one
+    /// that ends just before the end of a long phase brings the next edge early.
     pub(super) spacing_ticks: u64,
     pub(super) stall_ticks: u64,
     pub(super) refresh: u32,
