@@ -309,6 +309,43 @@ fn runts_are_set_aside_at_any_duty_width_and_place() {
 }
 
 #[test]
+fn short_real_periods_at_duty_10_and_90_are_not_set_aside() {
+    // Real cycles whose period falls short by more than half the shorter phase are held back
+    // by the spacing rule (the hugging-runt case above) and must be kept: the truth is the edge
+    // list itself (every pulse a phase), its shortest period, high and low.
+    for d10 in [1u64, 9] {
+        let mut ticks = Vec::new();
+        let mut r = 1000u64;
+        let (mut p_min, mut h_min, mut l_min) = (u64::MAX, u64::MAX, u64::MAX);
+        for k in 0..3000u64 {
+            // periods 920…1080 ticks (every 7th cycle 920–940: well under 1000 − 50 − 1)
+            let p = if k % 7 == 3 {
+                920 + k % 21
+            } else {
+                960 + (k * 7919) % 121
+            };
+            let h = p * d10 / 10;
+            ticks.push(r);
+            ticks.push(r + h);
+            // the last cycle's period and low are not closed (no rise after them), and its
+            // fall stays pending
+            if k < 2999 {
+                p_min = p_min.min(p);
+                h_min = h_min.min(h);
+                l_min = l_min.min(p - h);
+            }
+            r += p;
+        }
+        let c = jitter_of(&ticks, TICK_1NS);
+        assert_eq!(c.glitches, 0, "duty {d10}0 %");
+        assert_eq!(c.cycles, 2999, "duty {d10}0 %");
+        assert_eq!(c.period_min_ns, Some(p_min as f64), "duty {d10}0 %");
+        assert_eq!(c.high_min_ns, Some(h_min as f64), "duty {d10}0 %");
+        assert_eq!(c.low_min_ns, Some(l_min as f64), "duty {d10}0 %");
+    }
+}
+
+#[test]
 fn a_glitch_keeps_its_time_and_width() {
     // a 20 ns high pulse 700 ns into cycle 50 (rise at 50 100 ns): the glitch list says so
     let mut f = Feed::new(engine_cfg([10, 100]));
