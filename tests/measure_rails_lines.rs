@@ -2,7 +2,7 @@
 //! bench model drove).
 
 use slackmeter::measure::{EngineConfig, Feed, Window};
-use slackmeter::sim::{BenchModel, RailModel, SimProbe};
+use slackmeter::sim::{BenchModel, RailModel, RippleShape, SimProbe};
 
 fn run(m: BenchModel, seconds: f64) -> Feed {
     let mut p = SimProbe::new(m, vec![]);
@@ -347,4 +347,94 @@ fn ripple_and_noise_are_told_apart_and_noise_makes_no_sags() {
     f.push(&std::mem::take(p.output()));
     let r = f.engine.snapshot(Window::Session).rails[0].clone();
     assert!(r.sag_events <= 1, "{} sags from noise alone", r.sag_events);
+}
+
+#[test]
+fn ripple_that_is_not_one_tone_keeps_its_pkpk_rms_and_noise() {
+    // the truth is the bench model's waveform (sim/bench.rs): pk-pk over each 100 ms, RMS from the closed forms (sawtooth and triangle of amplitude A: A/√3; sine A/√2;
+    // uncorrelated parts add in power); noise: Gaussian plus the 2 mV ADC step (uniform,
+    // 2/√12 mV RMS, Widrow's model of quantisation)
+    let cases: [(f64, f64, RippleShape, f64, f64, f64); 4] = [
+        (30.0, 250.0, RippleShape::Sawtooth, 0.0, 100.0, 2.0),
+        (20.0, 1250.0, RippleShape::Sawtooth, 12.0, 100.0, 1.5),
+        (16.0, 640.0, RippleShape::Triangle, 10.0, 120.0, 1.0),
+        (10.0, 2210.0, RippleShape::Sine, 14.0, 100.0, 2.0),
+    ];
+    for (ripple, hz, shape, hum, hum_hz, noise) in cases {
+        let mut m = BenchModel::scenario("steady").unwrap();
+        m.freq_hz = 100e3;
+        let rail = RailModel {
+            ripple_mv: ripple,
+            ripple_hz: hz,
+            ripple_shape: shape,
+            hum_mv: hum,
+            hum_hz,
+            noise_mv: noise,
+            ..RailModel::quiet("VCC", 5000.0)
+        };
+        m.rails = vec![rail.clone()];
+        let f = run(m, 2.0);
+        let r = f
+            .engine
+            .snapshot(Window::Session)
+            .rail("VCC")
+            .unwrap()
+            .clone();
+        let wave = |t: f64| {
+            0.5 * ripple * shape.at(hz * t)
+                + 0.5 * hum * (2.0 * std::f64::consts::PI * hum_hz * t).sin()
+        };
+        // the probe samples at 0, 100 µs, 200 µs … (10 kHz): the ripple it can see is the
+        // waveform at those instants
+        let mut want_pk = 0.0;
+        for seg in 0..20 {
+            let (mut lo, mut hi) = (f64::MAX, f64::MIN);
+            for i in 0..1000 {
+                let v = wave((seg * 1000 + i) as f64 * 1e-4);
+                lo = lo.min(v);
+                hi = hi.max(v);
+            }
+            want_pk += (hi - lo) / 20.0;
+        }
+        let a = ripple / 2.0;
+        let shape_ms = match shape {
+            RippleShape::Sine => a * a / 2.0,
+            RippleShape::Sawtooth | RippleShape::Triangle => a * a / 3.0,
+        };
+        let want_rms = (shape_ms + hum * hum / 8.0).sqrt();
+        let want_noise = (noise * noise + 4.0 / 12.0f64).sqrt();
+        let (pk, rms, nz) = (
+            r.ripple_pkpk_mv.unwrap(),
+            r.ripple_rms_mv.unwrap(),
+            r.noise_rms_mv.unwrap(),
+        );
+        let what = format!("{shape:?} {ripple} mV at {hz} Hz + {hum} mV at {hum_hz} Hz");
+        println!(
+            "{what}: pk-pk {pk:.2} (truth {want_pk:.2}), RMS {rms:.2} ({want_rms:.2}), noise {nz:.3} ({want_noise:.3}), {:?} Hz",
+            r.ripple_hz
+        );
+        assert!(
+            (pk - want_pk).abs() < 0.05 * want_pk,
+            "{what}: pk-pk {pk} vs {want_pk}"
+        );
+        assert!(
+            (rms - want_rms).abs() < 0.03 * want_rms,
+            "{what}: RMS {rms} vs {want_rms}"
+        );
+        assert!(
+            (nz - want_noise).abs() < 0.05 * want_noise,
+            "{what}: noise {nz} vs {want_noise}"
+        );
+        let strongest = if shape_ms > hum * hum / 8.0 {
+            hz
+        } else {
+            hum_hz
+        };
+        let got_hz = r.ripple_hz.unwrap();
+        assert!(
+            (got_hz - strongest).abs() < 0.01 * strongest,
+            "{what}: found {got_hz} Hz"
+        );
+        assert_eq!(r.sag_events, 0, "{what}");
+    }
 }

@@ -271,8 +271,9 @@ fn runts_are_set_aside_at_any_duty_width_and_place() {
     // The truth is the edge list without the extra pulse (a glitch is, by definition, not a
     // phase of the clock): the worst high and low times must be those of the clean clock, the
     // glitch counted once with its own width. Duty 0.1–0.9, the runt anywhere in a phase
-    // (touching neither edge; see the limit below), widths from one tick to 30 % of the
-    // phase; a slow clock
+    // (touching neither edge: one tick from the end is the hardest place, the fragment after it
+    // a tick long), widths from one tick to 30 % of the phase (wider than the other phase at
+    // duty 0.1 and 0.9); a slow clock
     // (1000 ticks) and a fast one (40 ticks) near the resolution.
     let mut failures = Vec::new();
     for p in [1000u64, 40] {
@@ -283,11 +284,7 @@ fn runts_are_set_aside_at_any_duty_width_and_place() {
                 let widths = [1, len / 10, len * 3 / 10];
                 for w in widths.into_iter().filter(|&w| w >= 1) {
                     for at in [1, len / 10, len / 4, len / 2, len * 3 / 4, len - w - 1] {
-                        // a runt that ends right at the end of a long phase is found only when
-                        // narrower than half the other phase (the documented limit)
-                        let other = p - len;
-                        let hugs_end = at + w + 1 == len && at > len * 3 / 4;
-                        if at < 1 || at + w + 1 > len || hugs_end && 2 * w >= other {
+                        if at < 1 || at + w + 1 > len {
                             continue;
                         }
                         let ticks = clock_with_runt(p, h, in_high, at, w);
@@ -309,6 +306,43 @@ fn runts_are_set_aside_at_any_duty_width_and_place() {
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+#[test]
+fn short_real_periods_at_duty_10_and_90_are_not_set_aside() {
+    // Real cycles whose period falls short by more than half the shorter phase are held back
+    // by the spacing rule (the hugging-runt case above) and must be kept: the truth is the edge
+    // list itself (every pulse a phase), its shortest period, high and low.
+    for d10 in [1u64, 9] {
+        let mut ticks = Vec::new();
+        let mut r = 1000u64;
+        let (mut p_min, mut h_min, mut l_min) = (u64::MAX, u64::MAX, u64::MAX);
+        for k in 0..3000u64 {
+            // periods 920…1080 ticks (every 7th cycle 920–940: well under 1000 − 50 − 1)
+            let p = if k % 7 == 3 {
+                920 + k % 21
+            } else {
+                960 + (k * 7919) % 121
+            };
+            let h = p * d10 / 10;
+            ticks.push(r);
+            ticks.push(r + h);
+            // the last cycle's period and low are not closed (no rise after them), and its
+            // fall stays pending
+            if k < 2999 {
+                p_min = p_min.min(p);
+                h_min = h_min.min(h);
+                l_min = l_min.min(p - h);
+            }
+            r += p;
+        }
+        let c = jitter_of(&ticks, TICK_1NS);
+        assert_eq!(c.glitches, 0, "duty {d10}0 %");
+        assert_eq!(c.cycles, 2999, "duty {d10}0 %");
+        assert_eq!(c.period_min_ns, Some(p_min as f64), "duty {d10}0 %");
+        assert_eq!(c.high_min_ns, Some(h_min as f64), "duty {d10}0 %");
+        assert_eq!(c.low_min_ns, Some(l_min as f64), "duty {d10}0 %");
+    }
 }
 
 #[test]

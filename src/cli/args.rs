@@ -11,7 +11,7 @@ use miette::miette;
 
 use super::error::{CliError, CliResult};
 use crate::budget::Library;
-use crate::sim::RailModel;
+use crate::sim::{RailModel, RippleShape};
 use crate::units;
 
 /// Result of a value parser (clap shows the message with the flag).
@@ -165,13 +165,27 @@ pub fn rail(s: &str) -> Parsed<RailModel> {
         match k.trim() {
             "ripple" => r.ripple_mv = mv(val)?,
             "ripple-freq" => r.ripple_hz = freq(val)?,
+            "ripple-shape" => {
+                r.ripple_shape = match val.trim() {
+                    "sine" => RippleShape::Sine,
+                    "sawtooth" => RippleShape::Sawtooth,
+                    "triangle" => RippleShape::Triangle,
+                    other => {
+                        return Err(format!(
+                            "unknown ripple shape \"{other}\": use sine, sawtooth or triangle"
+                        ));
+                    }
+                }
+            }
+            "hum" => r.hum_mv = mv(val)?,
+            "hum-freq" => r.hum_hz = freq(val)?,
             "noise" => r.noise_mv = mv(val)?,
             "sag-rate" => r.sag_rate_hz = freq(val)?,
             "sag-depth" => r.sag_depth_mv = mv(val)?,
             "sag-time" => r.sag_ms = time(val)? / 1e6,
             other => {
                 return Err(format!(
-                    "unknown rail setting \"{other}\": use ripple, ripple-freq, noise, sag-rate, sag-depth, sag-time"
+                    "unknown rail setting \"{other}\": use ripple, ripple-freq, ripple-shape, hum, hum-freq, noise, sag-rate, sag-depth, sag-time"
                 ));
             }
         }
@@ -361,7 +375,7 @@ pub struct SimModelArgs {
     /// Length of a stall in clock periods.
     #[arg(long)]
     pub stall_periods: Option<f64>,
-    /// A rail: NAME=VOLTAGE[,ripple=20mV][,noise=5mV][,sag-rate=2Hz][,sag-depth=300mV][,sag-time=20ms]
+    /// A rail: NAME=VOLTAGE[,ripple=20mV][,ripple-freq=100Hz][,ripple-shape=sawtooth][,hum=5mV][,hum-freq=100Hz][,noise=5mV][,sag-rate=2Hz][,sag-depth=300mV][,sag-time=20ms]
     /// (repeatable; replaces the scenario's rails).
     #[arg(long, value_name = "NAME=V[,...]", value_parser = rail)]
     pub rail: Vec<RailModel>,
@@ -468,6 +482,17 @@ mod tests {
         let r = rail("VCC=4.9V,ripple=20mV,sag-time=20ms").unwrap();
         assert_eq!((r.name.as_str(), r.nominal_mv), ("VCC", 4900.0));
         assert!((r.ripple_mv - 20.0).abs() < 1e-9 && (r.sag_ms - 20.0).abs() < 1e-9);
+        let r = rail(
+            "VCC=5V,ripple=30mV,ripple-freq=1kHz,ripple-shape=sawtooth,hum=8mV,hum-freq=100Hz",
+        )
+        .unwrap();
+        assert_eq!(r.ripple_shape, RippleShape::Sawtooth);
+        assert!((r.hum_mv - 8.0).abs() < 1e-9 && (r.hum_hz - 100.0).abs() < 1e-9);
+        assert!(
+            rail("VCC=5V,ripple-shape=square")
+                .unwrap_err()
+                .contains("use sine, sawtooth or triangle")
+        );
         assert!(
             rail("VCC=5V,wobble=1")
                 .unwrap_err()

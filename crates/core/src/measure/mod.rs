@@ -17,6 +17,7 @@ mod lines;
 mod observe;
 mod onset;
 mod rails;
+mod ripple;
 mod series;
 mod snapshot;
 mod spread;

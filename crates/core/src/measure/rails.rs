@@ -1,22 +1,15 @@
 //! Supply rails: calibrated mV, min/mean/max, ripple, noise, time below a limit, sag events.
 //!
-//! Ripple and noise are told apart by how they correlate from one sample to the next: over
-//! segments free of sags, the variance about the segment mean W and the mean squares of the
-//! lag-1 and lag-2 differences D1, D2 of a sine of amplitude A at ω = 2πf/fs plus white noise
-//! σ² are W = σ² + A²/2, D1 = 2σ² + A²(1 − cos ω), D2 = 2σ² + 2A²(1 − cos² ω). With
-//! a = 2W − D1 = A² cos ω and b = 2W − D2 = A²(2cos² ω − 1): A² = (√(b² + 8a²) − b)/2, then
-//! cos ω = a/A² (the ripple frequency, found in the data) and σ² = W − A²/2. Ripple is the
-//! periodic part (pk-pk 2A), noise the rest.
+//! Ripple and noise are told apart per segment free of sags (`segment_ms`, 100 ms by default):
+//! the periodic parts found in the segment (one or several, each with its harmonics: see
+//! `ripple`) are the ripple, what is left is the noise.
 
 use serde::Serialize;
 
 use crate::probe::AnalogScale;
 
+use super::ripple::{self, Scratch, SegmentFit};
 use super::stats::{DevHistogram, IntStats};
-
-/// Lags (samples) of the difference sums: 1 and 2 give amplitude and noise; the longer ones
-/// refine the ripple frequency (a lag of a quarter period is the best conditioned).
-pub const LAGS: [usize; 8] = [1, 2, 4, 8, 16, 32, 64, 128];
 
 /// Settings of the rail statistics.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -74,14 +67,22 @@ pub struct RailAcc {
     pub below: u64,
     /// Peak-to-peak of each segment (raw counts).
     pub segment_pkpk: DevHistogram,
-    /// Sum of squared deviations from segment means (raw counts²).
-    pub within_ss: f64,
-    /// Degrees of freedom of `within_ss`.
-    pub within_df: u64,
-    /// Sums of squared differences within segments at the lags of [`LAGS`].
-    pub diff_ss: [f64; LAGS.len()],
-    /// Counts of the differences in `diff_ss`.
-    pub diff_n: [u64; LAGS.len()],
+    /// Sum of squares left beside the periodic parts of sag-free segments (raw counts²).
+    pub resid_ss: f64,
+    /// Degrees of freedom of `resid_ss`.
+    pub resid_df: u64,
+    /// Sag-free segments analysed.
+    pub segments: u64,
+    /// Sum of their ripple pk-pk (raw counts).
+    pub ripple_pkpk_sum: f64,
+    /// Sum of their ripple mean squares times their samples (raw counts²).
+    pub ripple_ms_sum: f64,
+    /// Samples of those segments.
+    pub ripple_samples: u64,
+    /// Sum of the first part's frequency over the segments with one (cycles per sample).
+    pub ripple_cps_sum: f64,
+    /// Segments with a periodic part.
+    pub ripple_found: u64,
     /// Sags that started in this block.
     pub sags: u64,
     /// Deepest sag, mV.
@@ -94,10 +95,14 @@ impl RailAcc {
             samples: IntStats::new(origin),
             below: 0,
             segment_pkpk: DevHistogram::new(0),
-            within_ss: 0.0,
-            within_df: 0,
-            diff_ss: [0.0; LAGS.len()],
-            diff_n: [0; LAGS.len()],
+            resid_ss: 0.0,
+            resid_df: 0,
+            segments: 0,
+            ripple_pkpk_sum: 0.0,
+            ripple_ms_sum: 0.0,
+            ripple_samples: 0,
+            ripple_cps_sum: 0.0,
+            ripple_found: 0,
             sags: 0,
             deepest_sag_mv: 0.0,
         }
@@ -107,12 +112,14 @@ impl RailAcc {
         self.samples.merge(&o.samples);
         self.below += o.below;
         self.segment_pkpk.merge(&o.segment_pkpk);
-        self.within_ss += o.within_ss;
-        self.within_df += o.within_df;
-        for i in 0..LAGS.len() {
-            self.diff_ss[i] += o.diff_ss[i];
-            self.diff_n[i] += o.diff_n[i];
-        }
+        self.resid_ss += o.resid_ss;
+        self.resid_df += o.resid_df;
+        self.segments += o.segments;
+        self.ripple_pkpk_sum += o.ripple_pkpk_sum;
+        self.ripple_ms_sum += o.ripple_ms_sum;
+        self.ripple_samples += o.ripple_samples;
+        self.ripple_cps_sum += o.ripple_cps_sum;
+        self.ripple_found += o.ripple_found;
         self.sags += o.sags;
         self.deepest_sag_mv = self.deepest_sag_mv.max(o.deepest_sag_mv);
     }
@@ -134,9 +141,13 @@ pub struct RailState {
     /// A sag touched the current segment (it is left out of ripple and noise).
     seg_sagged: bool,
     /// Session sums of squared lag-1 differences outside sags (raw counts²) and their count:
-    /// the rail's own noise, which a sag must clear.
+    /// the rail's own noise, which a sag must clear, until segments have shown it…
     noise_ss: f64,
     noise_n: u64,
+    /// …as the session's residual beside the periodic parts (raw counts², degrees of freedom).
+    resid_ss: f64,
+    resid_df: u64,
+    scratch: Scratch,
     baseline_mv: Option<f64>,
     in_sag: Option<Sag>,
     /// Recent sags.
@@ -159,6 +170,9 @@ impl RailState {
             seg_sagged: false,
             noise_ss: 0.0,
             noise_n: 0,
+            resid_ss: 0.0,
+            resid_df: 0,
+            scratch: Scratch::default(),
             baseline_mv: None,
             in_sag: None,
             sag_events: Vec::new(),
@@ -203,7 +217,9 @@ impl RailState {
         // start threshold clears the rail's own noise
         let t_s = tick as f64 * self.tick_ns * 1e-9;
         let base = *self.baseline_mv.get_or_insert(mv);
-        let noise_mv = if self.noise_n > 0 {
+        let noise_mv = if self.resid_df > 0 {
+            (self.resid_ss / self.resid_df as f64).sqrt() * self.scale.lsb_mv()
+        } else if self.noise_n > 0 {
             (self.noise_ss / self.noise_n as f64 / 2.0).sqrt() * self.scale.lsb_mv()
         } else {
             0.0
@@ -266,22 +282,18 @@ impl RailState {
                 .fold((i64::MAX, i64::MIN), |(l, h), &v| (l.min(v), h.max(v)));
             a.segment_pkpk.record(hi - lo);
             if !sagged {
-                let mean = self.seg.iter().sum::<i64>() as f64 / self.seg.len() as f64;
-                a.within_ss += self
-                    .seg
-                    .iter()
-                    .map(|&v| (v as f64 - mean).powi(2))
-                    .sum::<f64>();
-                a.within_df += self.seg.len() as u64 - 1;
-                for ((ss, n), &lag) in a.diff_ss.iter_mut().zip(a.diff_n.iter_mut()).zip(&LAGS) {
-                    if self.seg.len() <= lag {
-                        continue;
-                    }
-                    for w in self.seg.windows(lag + 1) {
-                        let d = (w[lag] - w[0]) as f64;
-                        *ss += d * d;
-                    }
-                    *n += (self.seg.len() - lag) as u64;
+                let f: SegmentFit = ripple::analyse(&self.seg, &mut self.scratch);
+                a.resid_ss += f.resid_ss;
+                a.resid_df += f.resid_df;
+                self.resid_ss += f.resid_ss;
+                self.resid_df += f.resid_df;
+                a.segments += 1;
+                a.ripple_pkpk_sum += f.ripple_pkpk;
+                a.ripple_ms_sum += f.ripple_ms * f.n as f64;
+                a.ripple_samples += f.n as u64;
+                if let Some(c) = f.cycles_per_sample {
+                    a.ripple_cps_sum += c;
+                    a.ripple_found += 1;
                 }
             }
         }
@@ -314,9 +326,11 @@ pub struct RailSnapshot {
     pub mean_mv: Option<f64>,
     /// Highest.
     pub max_mv: Option<f64>,
-    /// Ripple: the periodic part, peak to peak (2A of the sine found in the data).
+    /// Ripple: the periodic part (every tone and harmonic found in the data), peak to peak.
     pub ripple_pkpk_mv: Option<f64>,
-    /// Its frequency, found in the data (None without ripple).
+    /// …and RMS.
+    pub ripple_rms_mv: Option<f64>,
+    /// The frequency of its strongest part, found in the data (None without ripple).
     pub ripple_hz: Option<f64>,
     /// Noise: the rest, RMS (white part, ADC step included).
     pub noise_rms_mv: Option<f64>,
@@ -351,6 +365,7 @@ pub fn snapshot(
         mean_mv: None,
         max_mv: None,
         ripple_pkpk_mv: None,
+        ripple_rms_mv: None,
         ripple_hz: None,
         noise_rms_mv: None,
         limit_mv: st.cfg.limit_mv,
@@ -368,47 +383,27 @@ pub fn snapshot(
         r.max_mv = Some(st.mv(s.max));
         r.mean_mv = s.mean().map(|m| st.scale.mv(m));
     }
-    if let Some((amp, omega, noise_var)) = ripple_and_noise(a) {
-        r.ripple_pkpk_mv = Some(2.0 * amp * lsb);
-        r.noise_rms_mv = Some(noise_var.sqrt() * lsb);
-        // a ripple well above the noise has a frequency (fs·ω/2π)
-        if amp * amp > 0.05 * noise_var.max(1e-12) && interval_s > 0.0 {
-            r.ripple_hz = Some(omega / (2.0 * std::f64::consts::PI * interval_s));
+    if a.resid_df > 0 {
+        r.noise_rms_mv = Some((a.resid_ss / a.resid_df as f64).sqrt() * lsb);
+    }
+    if a.segments > 0 {
+        // each segment's reading is unbiased and about zero without ripple, so the mean over
+        // segments is kept as it is, then clipped at zero
+        let pkpk = (a.ripple_pkpk_sum / a.segments as f64).max(0.0);
+        r.ripple_pkpk_mv = Some(pkpk * lsb);
+        r.ripple_rms_mv = Some(
+            (a.ripple_ms_sum / a.ripple_samples.max(1) as f64)
+                .max(0.0)
+                .sqrt()
+                * lsb,
+        );
+        // a frequency when most segments found a periodic part
+        if 2 * a.ripple_found > a.segments && interval_s > 0.0 && pkpk > 0.0 {
+            r.ripple_hz = Some(a.ripple_cps_sum / a.ripple_found as f64 / interval_s);
         }
     }
     r.below_limit_s = a.below as f64 * interval_s;
     r.sag_events = a.sags;
     r.deepest_sag_mv = a.deepest_sag_mv;
     r
-}
-
-/// Ripple amplitude A, ω (radians per sample) and noise variance σ² (raw counts) from a
-/// block's segment sums (see the module notes); None without sag-free segments. ω comes from
-/// lags 1 and 2, then from each longer lag L while L·ω stays below 0.8π: D_L = 2σ² + A²(1 −
-/// cos Lω) solved for ω.
-fn ripple_and_noise(a: &RailAcc) -> Option<(f64, f64, f64)> {
-    if a.within_df == 0 || a.diff_n[0] == 0 || a.diff_n[1] == 0 {
-        return None;
-    }
-    let w = a.within_ss / a.within_df as f64;
-    let d = |i: usize| a.diff_ss[i] / a.diff_n[i] as f64;
-    let (x, y) = (2.0 * w - d(0), 2.0 * w - d(1));
-    let amp2 = (((y * y + 8.0 * x * x).sqrt() - y) / 2.0).max(0.0);
-    // the estimate's own floor: a and b scatter by about 2W·√(2/N) over N differences; a
-    // ripple under four times that is not told from noise (then all of it is noise)
-    let floor = 8.0 * w * (2.0 / a.diff_n[0] as f64).sqrt();
-    if amp2 <= floor {
-        return Some((0.0, 0.0, w));
-    }
-    let noise = (w - amp2 / 2.0).max(0.0);
-    let mut omega = (x / amp2).clamp(-1.0, 1.0).acos();
-    for (i, &lag) in LAGS.iter().enumerate().skip(2) {
-        let lag = lag as f64;
-        if a.diff_n[i] == 0 || lag * omega >= 0.8 * std::f64::consts::PI {
-            break;
-        }
-        let c = 1.0 - (d(i) - 2.0 * noise) / amp2;
-        omega = c.clamp(-1.0, 1.0).acos() / lag;
-    }
-    Some((amp2.sqrt(), omega, noise))
 }

@@ -8,7 +8,8 @@
 //! its place, drawn per period from its own stream (glitch edges take none), so it does not
 //! accumulate. T(t) follows the sweep (linear in frequency) and a slow sinusoidal drift.
 //! Glitches are short extra pulses inside a phase (Poisson in time); stalls hold the clock low
-//! for a number of periods. Rails: nominal − sag + ripple (sine) + noise (Gaussian), sags as
+//! for a number of periods. Rails: nominal − sag + ripple (sine, sawtooth or
+//! triangle) + hum (a second sine) + noise (Gaussian), sags as
 //! Poisson events with a depth and a duration. Lines: heartbeat square wave, reset pulses, and a
 //! fault line that rises when the clock breaks a given timing limit at the lowest rail.
 
@@ -181,7 +182,10 @@ impl Bench {
             v -= model.sag_depth_mv * shape;
         }
         if model.ripple_mv > 0.0 {
-            v += 0.5 * model.ripple_mv * (2.0 * std::f64::consts::PI * model.ripple_hz * t_s).sin();
+            v += 0.5 * model.ripple_mv * model.ripple_shape.at(model.ripple_hz * t_s);
+        }
+        if model.hum_mv > 0.0 {
+            v += 0.5 * model.hum_mv * (2.0 * std::f64::consts::PI * model.hum_hz * t_s).sin();
         }
         v
     }

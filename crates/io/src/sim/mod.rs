@@ -6,5 +6,5 @@ pub mod model;
 pub mod probe;
 pub mod pty;
 
-pub use model::{BenchModel, FaultLimit, RailModel, Sweep};
+pub use model::{BenchModel, FaultLimit, RailModel, RippleShape, Sweep};
 pub use probe::SimProbe;

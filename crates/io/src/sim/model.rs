@@ -17,6 +17,12 @@ pub struct RailModel {
     pub ripple_mv: f64,
     /// Ripple frequency.
     pub ripple_hz: f64,
+    /// Ripple waveform.
+    pub ripple_shape: RippleShape,
+    /// A second periodic part (a sine, e.g. mains hum beside a regulator's ripple), peak to peak.
+    pub hum_mv: f64,
+    /// Its frequency.
+    pub hum_hz: f64,
     /// Gaussian noise, RMS.
     pub noise_mv: f64,
     /// Mean rate of load-driven sag events.
@@ -27,6 +33,30 @@ pub struct RailModel {
     pub sag_ms: f64,
 }
 
+/// The waveform of a rail's ripple, each with its pk-pk as given and zero mean.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum RippleShape {
+    /// A sine.
+    Sine,
+    /// A rising ramp and a drop at the end of each period (a capacitor charged, then reset).
+    Sawtooth,
+    /// Equal rising and falling ramps.
+    Triangle,
+}
+
+impl RippleShape {
+    /// The waveform at `phase` (cycles, any real), between −1 and 1, zero mean over a period.
+    pub fn at(self, phase: f64) -> f64 {
+        let x = phase - phase.floor();
+        match self {
+            RippleShape::Sine => (2.0 * std::f64::consts::PI * x).sin(),
+            RippleShape::Sawtooth => 2.0 * x - 1.0,
+            RippleShape::Triangle => 1.0 - 4.0 * (x - 0.5).abs(),
+        }
+    }
+}
+
 impl RailModel {
     /// A quiet rail at `nominal_mv`.
     pub fn quiet(name: &str, nominal_mv: f64) -> RailModel {
@@ -35,6 +65,9 @@ impl RailModel {
             nominal_mv,
             ripple_mv: 0.0,
             ripple_hz: 100.0,
+            ripple_shape: RippleShape::Sine,
+            hum_mv: 0.0,
+            hum_hz: 100.0,
             noise_mv: 0.0,
             sag_rate_hz: 0.0,
             sag_depth_mv: 0.0,
@@ -357,6 +390,15 @@ impl BenchModel {
                     r.name, r.nominal_mv
                 ));
             }
+            for (v, what) in [
+                (r.ripple_mv, "ripple"),
+                (r.hum_mv, "hum"),
+                (r.noise_mv, "noise"),
+            ] {
+                nonneg(v, &format!("rail {} {what}", r.name))?;
+            }
+            pos(r.ripple_hz, &format!("rail {} ripple-freq", r.name))?;
+            pos(r.hum_hz, &format!("rail {} hum-freq", r.name))?;
         }
         Ok(())
     }

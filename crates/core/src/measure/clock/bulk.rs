@@ -21,8 +21,8 @@ struct Steady {
     gh: u64,
     /// Longest gap (a stall beyond).
     hi: u64,
-    /// Shortest spacing of two edges of one polarity.
-    gp: u64,
+    /// Shortest spacing of two falls, of two rises.
+    gp: [u64; 2],
     /// Rises the stretch may commit before the refresh segment ends.
     max_rises: usize,
     /// Last tick a committed rise may have (the short run's end).
@@ -52,6 +52,7 @@ impl Steady {
         rise: u64,
     ) -> bool {
         let [low, high] = gaps;
+        let [rise_spacing, fall_spacing] = spacings;
         let within = |(lo, hi): (i64, i64), least: u64| {
             i128::from(lo) >= i128::from(least) && i128::from(hi) <= i128::from(self.hi)
         };
@@ -59,10 +60,9 @@ impl Steady {
         let least = if is_rise { self.gl } else { self.gh };
         within(low, self.gl)
             && within(high, self.gh)
-            && spacings
-                .iter()
-                .all(|&s| i128::from(s) >= i128::from(self.gp))
-            && spacing >= self.gp
+            && i128::from(rise_spacing) >= i128::from(self.gp[1])
+            && i128::from(fall_spacing) >= i128::from(self.gp[0])
+            && spacing >= self.gp[usize::from(is_rise)]
             && (least..=self.hi).contains(&gap)
             && rise <= self.run_limit
     }
@@ -213,19 +213,25 @@ impl ClockState {
         // also refuses time running backwards (the difference wraps around)
         let (lo_even, lo_odd) = if rising { (gl, gh) } else { (gh, gl) };
         let bad = |gap: u64, lo: u64| gap.wrapping_sub(lo) > hi - lo;
-        // the spacing of two edges of one polarity (two gaps, each checked above)
-        let near = |spacing: u64| spacing < gp;
+        // the spacing of two edges of one polarity (two gaps, each checked above), against
+        // the threshold of that polarity
+        let (gp_even, gp_odd) = if rising {
+            (gp[1], gp[0])
+        } else {
+            (gp[0], gp[1])
+        };
+        let near = |spacing: u64, least: u64| spacing < least;
         let (mut j, mut prev2, mut prev, mut rises) = (0usize, le, pt, 0usize);
         // blocks of 8 cycles, checked without branches
         while j + 16 <= n_max && rises + 8 < max_rises {
             let b = &t[j..j + 16];
             let mut any = bad(b[0].wrapping_sub(prev), lo_even);
-            any |= near(b[0].wrapping_sub(prev2)) | near(b[1].wrapping_sub(prev));
+            any |= near(b[0].wrapping_sub(prev2), gp_even) | near(b[1].wrapping_sub(prev), gp_odd);
             for k in 1..16 {
                 any |= bad(b[k].wrapping_sub(b[k - 1]), [lo_even, lo_odd][k % 2]);
             }
             for k in 2..16 {
-                any |= near(b[k].wrapping_sub(b[k - 2]));
+                any |= near(b[k].wrapping_sub(b[k - 2]), [gp_even, gp_odd][k % 2]);
             }
             // the block commits 8 rises; the newest is the edge before its last fall
             let newest_rise = if rising { b[14] } else { b[13] };
@@ -241,7 +247,7 @@ impl ClockState {
             let x = t[j];
             let is_rise = rising ^ (j % 2 == 1);
             if bad(x.wrapping_sub(prev), if is_rise { gl } else { gh })
-                || near(x.wrapping_sub(prev2))
+                || near(x.wrapping_sub(prev2), gp[usize::from(is_rise)])
             {
                 return j;
             }
@@ -340,7 +346,7 @@ impl ClockState {
             // a fall's spacing is a low plus a high: the sum of their minima bounds it, and
             // only when that bound is short of the threshold is it taken edge by edge
             let bound = el.0.saturating_add(eh.0);
-            let fall_spacing = if i128::from(bound) >= i128::from(st.gp) {
+            let fall_spacing = if i128::from(bound) >= i128::from(st.gp[0]) {
                 bound
             } else {
                 diff_extremes(&mut sc.tmp[..nf], &falls[1..], falls).0

@@ -47,7 +47,8 @@ pub const MAX_GAP_TICKS: u64 = 1 << 40;
 
 /// Two edges of one polarity closer than this fraction of the typical period hold the newer
 /// one back for the glitch decision (an extra pulse wider than a short real phase still splits
-/// a cycle into two parts, one of them under this; common practice, no source).
+/// a cycle into two parts, one of them under this; common practice, no source). When the
+/// period less half the shorter phase (and a tick) is later, that holds instead (`state.rs`).
 pub const SPACING_FRACTION: f64 = 0.85;
 
 /// Periods between refreshes of the glitch and stall thresholds: the typical period, high and

@@ -7,11 +7,12 @@ use rand::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 /// A stream of (tick, rising) with the troubles a bench sees: jitter, glitches next to
-/// edges, stalls, a dropped edge (polarity break), time running backwards (a probe restart).
+/// edges, runts ending just before an edge, stalls, a dropped edge (polarity break), time
+/// running backwards (a probe restart).
 fn stream(seed: u64, n: usize) -> Vec<(u64, bool)> {
     let mut r = Xoshiro256PlusPlus::seed_from_u64(seed);
     let period = r.random_range(3..5000u64);
-    let duty = r.random_range(0.15..0.85);
+    let duty = r.random_range(0.1..0.9);
     let jitter = r.random_range(0..=period / 8 + 1);
     let trouble = r.random_range(0.0..0.02);
     let mut out = Vec::with_capacity(n);
@@ -25,13 +26,19 @@ fn stream(seed: u64, n: usize) -> Vec<(u64, bool)> {
         };
         t += base.max(1) + r.random_range(0..=jitter);
         if r.random_bool(trouble) {
-            match r.random_range(0..5) {
+            match r.random_range(0..6) {
                 // a glitch: a short pulse right after this edge
                 0 => {
                     out.push((t, rising));
                     t += 1;
                     out.push((t, !rising));
                     t += 1;
+                }
+                // a runt that ends a tick before this edge, inside the phase it closes
+                5 if base > 6 => {
+                    let w = r.random_range(1..=base / 3);
+                    out.push((t - w - 1, rising));
+                    out.push((t - 1, !rising));
                 }
                 1 => t += period * r.random_range(5..50),
                 2 => rising = !rising,

@@ -73,9 +73,10 @@ pub struct ClockState {
     /// the typical values every [`REFRESH`] periods, so the per-edge path compares integers).
     pub(super) glitch_high_ticks: u64,
     pub(super) glitch_low_ticks: u64,
-    /// Two edges of one polarity closer than this (ticks) make the newer one undecided: an
-    /// extra pulse wider than the real phase of its polarity still splits a cycle.
-    pub(super) spacing_ticks: u64,
+    /// Two falls, two rises closer than this (ticks) make the newer one undecided: an extra
+    /// pulse wider than the real phase of its polarity still splits a cycle, and one that ends
+    /// just before the end of a long phase brings the edge closing it early.
+    pub(super) spacing_ticks: [u64; 2],
     pub(super) stall_ticks: u64,
     pub(super) refresh: u32,
     /// Periods of the current refresh segment: 1 (the first period sets the thresholds), 16,
@@ -130,7 +131,7 @@ impl ClockState {
             seg_glitches: 0,
             glitch_high_ticks: 0,
             glitch_low_ticks: 0,
-            spacing_ticks: 0,
+            spacing_ticks: [0, 0],
             stall_ticks: u64::MAX,
             refresh: 0,
             segment: 1,
@@ -288,7 +289,23 @@ impl ClockState {
         let margin = if self.cfg.glitch_ns.is_some() { 0 } else { 1 };
         self.glitch_high_ticks = h.ceil().max(0.0) as u64 + margin;
         self.glitch_low_ticks = l.ceil().max(0.0) as u64 + margin;
-        self.spacing_ticks = (SPACING_FRACTION * self.typ_period).ceil().max(0.0) as u64;
+        // a fraction of the period; for the edges that close a pulse of the shorter phase's
+        // polarity (rises close lows), the later of that and the period less half the
+        // shorter phase and a tick: a runt of that polarity that ends just before the end of
+        // the long phase brings the edge closing it sooner (the long phase, less the fragment
+        // after the runt, is under the period by the whole short phase), while a real cycle's
+        // edge comes later unless its period is off by half the shorter phase. The edges of
+        // the other polarity keep the fraction: their pulses are the long phases, which a
+        // short real period would make look like the start of a phase with a runt after it
+        let spacing = |least: f64| least.ceil().max(0.0) as u64;
+        let fraction = SPACING_FRACTION * self.typ_period;
+        let shorter = self.typ_high.min(self.typ_low);
+        let tight = spacing(fraction.max(self.typ_period - 0.5 * shorter - 1.0));
+        self.spacing_ticks = if self.typ_low < self.typ_high {
+            [spacing(fraction), tight]
+        } else {
+            [tight, spacing(fraction)]
+        };
         self.stall_ticks = if self.typ_period > 0.0 {
             (self.cfg.stall_periods * self.typ_period) as u64
         } else {
@@ -340,7 +357,7 @@ impl ClockState {
         if tick - pt < self.glitch_ticks(pr)
             || self
                 .last_edge
-                .is_some_and(|le| tick - le < self.spacing_ticks)
+                .is_some_and(|le| tick - le < self.spacing_ticks[usize::from(rising)])
         {
             // decide with the next edge which two edges (if any) to set aside
             self.suspect = Some((tick, rising));
