@@ -16,7 +16,7 @@ use super::raw::{
     PartDecl, RawArc, RawCapture, RawDesign, RawFixed, RawLaunch, RawOverride, RawPart, RawVia,
     ViaEntry,
 };
-use crate::diag::Source;
+use crate::diag::{Source, SourceError};
 
 /// Deepest include nesting and most files in one design.
 const MAX_DEPTH: usize = 8;
@@ -46,8 +46,8 @@ struct Keyed {
 pub(super) struct Ctx<'a> {
     pub files: Files,
     pub reader: &'a dyn IncludeReader,
-    /// The chain of files being included (for loops).
-    stack: Vec<String>,
+    /// The chain of files being included (for loops): identity and name of each.
+    stack: Vec<(String, String)>,
 }
 
 impl<'a> Ctx<'a> {
@@ -55,7 +55,7 @@ impl<'a> Ctx<'a> {
         Ctx {
             files: Files::new(top),
             reader,
-            stack: vec![top.name.clone()],
+            stack: vec![(reader.identity(top), top.name.clone())],
         }
     }
 }
@@ -354,17 +354,30 @@ fn include(src: &Source, base: usize, inc: &RawInclude, ctx: &mut Ctx) -> Res<Fl
             "the path is relative to the folder of the file that includes it",
         )
     })?;
-    if ctx.stack.contains(&inner_src.name) {
-        let mut chain = ctx.stack.clone();
+    let identity = ctx.reader.identity(&inner_src);
+    if ctx.stack.iter().any(|(id, _)| *id == identity) {
+        let mut chain: Vec<String> = ctx.stack.iter().map(|(_, n)| n.clone()).collect();
         chain.push(inner_src.name.clone());
         return Err(fail(
             format!("include loop: {}", chain.join(" includes ")),
             "a file may not include itself, directly or through others",
         ));
     }
-    let raw: RawDesign =
-        toml::from_str(&inner_src.text).map_err(|e| Box::new(inner_src.toml_error(&e)))?;
-    top_only(&inner_src, &raw)?;
+    let (line, column) = src.line_col(here.start);
+    let from = format!("{}:{line}:{column}", src.name);
+    // errors met while reading the included file itself say where it is included
+    let noted = |mut e: Box<SourceError>| {
+        if e.file == inner_src.name && !e.help.as_deref().is_some_and(|h| h.contains("included at")) {
+            e.help = Some(match e.help.take() {
+                Some(h) => format!("{h} (this file is included at {from})"),
+                None => format!("this file is included at {from}"),
+            });
+        }
+        e
+    };
+    let raw: RawDesign = toml::from_str(&inner_src.text)
+        .map_err(|e| noted(Box::new(inner_src.toml_error(&e))))?;
+    top_only(&inner_src, &raw).map_err(noted)?;
     let prefix = match &inc.prefix {
         Some(p) if p.get_ref().chars().any(char::is_whitespace) => {
             return Err(src.fail(
@@ -377,11 +390,11 @@ fn include(src: &Source, base: usize, inc: &RawInclude, ctx: &mut Ctx) -> Res<Fl
         Some(p) => p.get_ref().clone(),
         None => String::new(),
     };
-    let inner_base = ctx.files.add(inner_src.clone());
-    ctx.stack.push(inner_src.name.clone());
+    let inner_base = ctx.files.add(inner_src.clone(), from.clone());
+    ctx.stack.push((identity, inner_src.name.clone()));
     let flat = expand(&inner_src, inner_base, &raw, ctx);
     ctx.stack.pop();
-    let mut flat = flat?;
+    let mut flat = flat.map_err(noted)?;
     let rename = |n: &Spanned<String>| {
         let v = match inc.connect.get(n.get_ref().trim()) {
             Some(outer) => outer.get_ref().clone(),

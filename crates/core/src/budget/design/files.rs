@@ -11,6 +11,11 @@ use crate::diag::{Source, SourceError};
 pub trait IncludeReader {
     /// The text of `file`, named in the design `from`; an error says why it cannot be read.
     fn read(&self, from: &Source, file: &str) -> Result<Source, String>;
+
+    /// What tells two files apart when looking for include loops (the name by default).
+    fn identity(&self, src: &Source) -> String {
+        src.name.clone()
+    }
 }
 
 /// Included files are read from disk, relative to the folder of the file that names them.
@@ -23,6 +28,11 @@ impl IncludeReader for FromDisk {
         crate::diag::read_text(&path)
             .map(|text| Source::new(path.display().to_string(), text))
             .map_err(|e| format!("{}: {e}", path.display()))
+    }
+
+    fn identity(&self, src: &Source) -> String {
+        std::fs::canonicalize(&src.name)
+            .map_or_else(|_| src.name.clone(), |p| p.display().to_string())
     }
 }
 
@@ -48,9 +58,9 @@ impl IncludeReader for InMemory {
     }
 }
 
-/// Every file read so far with its span base.
+/// Every file read so far with its span base and, for an included one, where it is included.
 pub(super) struct Files {
-    list: Vec<(usize, Source)>,
+    list: Vec<(usize, Source, Option<String>)>,
     next: usize,
 }
 
@@ -58,16 +68,17 @@ impl Files {
     /// The top file, at base 0.
     pub fn new(top: &Source) -> Files {
         Files {
-            list: vec![(0, top.clone())],
+            list: vec![(0, top.clone(), None)],
             next: top.text.len() + 1,
         }
     }
 
-    /// Add an included file; its spans are offset by the base returned.
-    pub fn add(&mut self, src: Source) -> usize {
+    /// Add a file included at `from` (file:line:column); its spans are offset by the base
+    /// returned.
+    pub fn add(&mut self, src: Source, from: String) -> usize {
         let base = self.next;
         self.next = base + src.text.len() + 1;
-        self.list.push((base, src));
+        self.list.push((base, src, Some(from)));
         base
     }
 
@@ -84,13 +95,18 @@ impl Files {
         label: &str,
         help: Option<String>,
     ) -> SourceError {
-        let (base, src) = self
+        let (base, src, from) = self
             .list
             .iter()
             .rev()
-            .find(|(b, _)| *b <= span.start)
+            .find(|(b, _, _)| *b <= span.start)
             .unwrap_or(&self.list[0]);
         let local = span.start - base..span.end.saturating_sub(*base);
+        let help = match (help, from) {
+            (Some(h), Some(f)) => Some(format!("{h} (this file is included at {f})")),
+            (None, Some(f)) => Some(format!("this file is included at {f}")),
+            (h, None) => h,
+        };
         src.error(local, msg, label, help)
     }
 }
