@@ -8,7 +8,6 @@ use serde::Deserialize;
 use toml::Spanned;
 
 use super::model::Edge;
-use super::raw::ViaEntry;
 
 /// `[[register]]`: parts clocked by one master edge; each member launches its `q` and captures
 /// its `d` (either may be left out).
@@ -144,6 +143,42 @@ impl<'de> Deserialize<'de> for Names {
                     s,
                 ))
                 .map(Names::Many)
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// A clock buffer written as a table.
+#[derive(Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawVia {
+    pub part: Spanned<String>,
+    pub arc: Spanned<String>,
+}
+
+/// A clock buffer on a launch or capture clock: `{ part = "U30", arc = "A->Y" }` or the short
+/// string `"U30 A->Y"` (turned into the table by `expand.rs`, which knows its span).
+#[derive(Clone)]
+pub(super) enum ViaEntry {
+    Short(String),
+    Table(RawVia),
+}
+
+impl<'de> Deserialize<'de> for ViaEntry {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> serde::de::Visitor<'de> for V {
+            type Value = ViaEntry;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a clock buffer: \"PART ARC\" (e.g. \"U30 A->Y\") or { part = \"U30\", arc = \"A->Y\" }")
+            }
+            fn visit_str<E: serde::de::Error>(self, s: &str) -> Result<ViaEntry, E> {
+                Ok(ViaEntry::Short(s.to_string()))
+            }
+            fn visit_map<M: serde::de::MapAccess<'de>>(self, m: M) -> Result<ViaEntry, M::Error> {
+                RawVia::deserialize(serde::de::value::MapAccessDeserializer::new(m))
+                    .map(ViaEntry::Table)
             }
         }
         d.deserialize_any(V)

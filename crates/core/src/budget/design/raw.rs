@@ -5,6 +5,7 @@
 use serde::Deserialize;
 use toml::Spanned;
 
+pub(super) use super::compact::{RawVia, ViaEntry};
 use super::model::Edge;
 use crate::budget::derate::Corner;
 use crate::budget::library::model::ArcKind;
@@ -104,12 +105,6 @@ pub(super) struct PartDecl {
     pub load: Option<Spanned<String>>,
 }
 
-#[derive(Clone, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub(super) struct RawVia {
-    pub part: Spanned<String>,
-    pub arc: Spanned<String>,
-}
 
 #[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -166,32 +161,4 @@ pub(super) struct RawOverride {
     pub typ: Option<Spanned<String>>,
     pub max: Option<Spanned<String>>,
     pub scale: Option<Spanned<f64>>,
-}
-
-/// A clock buffer on a launch or capture clock: `{ part = "U30", arc = "A->Y" }` or the short
-/// string `"U30 A->Y"` (turned into the table by `expand.rs`, which knows its span).
-#[derive(Clone)]
-pub(super) enum ViaEntry {
-    Short(String),
-    Table(RawVia),
-}
-
-impl<'de> Deserialize<'de> for ViaEntry {
-    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        struct V;
-        impl<'de> serde::de::Visitor<'de> for V {
-            type Value = ViaEntry;
-            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
-                f.write_str("a clock buffer: \"PART ARC\" (e.g. \"U30 A->Y\") or { part = \"U30\", arc = \"A->Y\" }")
-            }
-            fn visit_str<E: serde::de::Error>(self, s: &str) -> Result<ViaEntry, E> {
-                Ok(ViaEntry::Short(s.to_string()))
-            }
-            fn visit_map<M: serde::de::MapAccess<'de>>(self, m: M) -> Result<ViaEntry, M::Error> {
-                RawVia::deserialize(serde::de::value::MapAccessDeserializer::new(m))
-                    .map(ViaEntry::Table)
-            }
-        }
-        d.deserialize_any(V)
-    }
 }
