@@ -156,7 +156,11 @@ fn budget_json_of_both_demo_files_is_identical_on_the_command_line() {
             .args(["budget", &format!("{root}/{file}"), "--json"])
             .output()
             .unwrap();
-        assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
         out.stdout
     };
     let a = run("designs/larkspur-8.toml");
@@ -396,15 +400,28 @@ fn an_error_in_an_included_file_points_into_it_and_names_the_include() {
     let col = board.lines().nth(line - 1).unwrap().find("A->Q").unwrap() + 1;
     assert_eq!((e.line, e.column), (line, col));
     let help = e.help.as_deref().unwrap();
-    assert!(help.contains("this file is included at boards.toml:6:"), "{help}");
+    assert!(
+        help.contains("this file is included at boards.toml:6:"),
+        "{help}"
+    );
     // a file read without access to other files refuses includes at the include
     let e = Design::parse_with(Source::new("boards.toml", BOARDS), &lib, &NoIncludes).unwrap_err();
     assert_eq!((e.file.as_str(), e.line), ("boards.toml", 6));
-    assert!(e.message.contains("cannot read included file"), "{}", e.message);
+    assert!(
+        e.message.contains("cannot read included file"),
+        "{}",
+        e.message
+    );
     // a loop through two files is named file by file
     let files = InMemory(vec![
-        ("a.toml".into(), "design = { name = \"a\" }\ninclude = [{ file = \"b.toml\" }]\n".into()),
-        ("b.toml".into(), "design = { name = \"b\" }\ninclude = [{ file = \"a.toml\" }]\n".into()),
+        (
+            "a.toml".into(),
+            "design = { name = \"a\" }\ninclude = [{ file = \"b.toml\" }]\n".into(),
+        ),
+        (
+            "b.toml".into(),
+            "design = { name = \"b\" }\ninclude = [{ file = \"a.toml\" }]\n".into(),
+        ),
     ]);
     let top = "design = { name = \"top\" }\ninclude = [{ file = \"a.toml\" }]\n";
     let e = Design::parse_with(Source::new("top.toml", top), &lib, &files).unwrap_err();

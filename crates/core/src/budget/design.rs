@@ -17,6 +17,7 @@ mod files;
 mod graph;
 mod load;
 pub(super) mod model;
+mod moved;
 mod overrides;
 mod raw;
 mod timing;
@@ -150,7 +151,10 @@ fn nothing_to_time(ld: &Loader) -> Box<SourceError> {
 }
 
 /// The error for a design whose captures no launch reaches, at the first capture.
-fn nothing_reached(files: &files::Files, first_capture: &toml::Spanned<String>) -> Box<SourceError> {
+fn nothing_reached(
+    files: &files::Files,
+    first_capture: &toml::Spanned<String>,
+) -> Box<SourceError> {
     Box::new(files.error(
         first_capture.span(),
         "no capture is reached by any launch: nothing to time",

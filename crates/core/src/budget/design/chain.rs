@@ -138,7 +138,7 @@ pub(super) fn parse(src: &Source, s: &Spanned<String>) -> Result<Vec<ChainArc>, 
             steps.push(part_arc(seg, near, &fail)?);
         }
     }
-    if segments.len() % 2 == 0 {
+    if segments.len().is_multiple_of(2) {
         let (_, arc) = steps.last().expect("an even count has a step last");
         return Err(fail(
             arc.span(),
@@ -179,7 +179,9 @@ pub(super) fn part_and_arc(
                 s.get_ref()
             ),
             "not a part and an arc",
-            Some("write a clock buffer as \"U30 A->Y\" or { part = \"U30\", arc = \"A->Y\" }".into()),
+            Some(
+                "write a clock buffer as \"U30 A->Y\" or { part = \"U30\", arc = \"A->Y\" }".into(),
+            ),
         ))),
     }
 }
@@ -353,7 +355,11 @@ mod tests {
     fn error(text: &str) -> (String, String) {
         let (src, s) = chain(text);
         let e = parse(&src, &s).unwrap_err();
-        assert!(e.help.as_deref().is_some_and(|h| h.contains("SIGNAL -> PART ARC")));
+        assert!(
+            e.help
+                .as_deref()
+                .is_some_and(|h| h.contains("SIGNAL -> PART ARC"))
+        );
         let (_, col) = (e.line, e.column);
         let at: String = src.text.chars().skip(col - 1).take(8).collect();
         (e.message.clone(), at)
@@ -385,7 +391,10 @@ mod tests {
         let (m, _) = error("-> U1 A->Y -> b");
         assert!(m.contains("expected a signal name"), "{m}");
         let (m, at) = error("a -> U1 A ->Y -> b");
-        assert!(m.contains("found \"U1 A ->Y\"") || m.contains("two words"), "{m}");
+        assert!(
+            m.contains("found \"U1 A ->Y\"") || m.contains("two words"),
+            "{m}"
+        );
         assert!(at.starts_with("U1"), "{at}");
         let (m, _) = error("a -> -> b");
         assert!(m.contains("found nothing"), "{m}");

@@ -139,10 +139,8 @@ impl<'de> Deserialize<'de> for Names {
                 Ok(Names::One(s.to_string()))
             }
             fn visit_seq<S: serde::de::SeqAccess<'de>>(self, s: S) -> Result<Names, S::Error> {
-                Vec::<Spanned<String>>::deserialize(serde::de::value::SeqAccessDeserializer::new(
-                    s,
-                ))
-                .map(Names::Many)
+                Vec::<Spanned<String>>::deserialize(serde::de::value::SeqAccessDeserializer::new(s))
+                    .map(Names::Many)
             }
         }
         d.deserialize_any(V)

@@ -12,9 +12,9 @@ use super::chain;
 use super::compact::{Names, RawBus, RawInclude, RawRegisters};
 use super::files::{Files, IncludeReader};
 use super::load::Res;
+use super::moved::{Moved, moved};
 use super::raw::{
-    PartDecl, RawArc, RawCapture, RawDesign, RawFixed, RawLaunch, RawOverride, RawPart, RawVia,
-    ViaEntry,
+    PartDecl, RawArc, RawCapture, RawDesign, RawLaunch, RawOverride, RawPart, RawVia, ViaEntry,
 };
 use crate::diag::{Source, SourceError};
 
@@ -71,10 +71,13 @@ pub(super) fn expand(src: &Source, base: usize, raw: &RawDesign, ctx: &mut Ctx) 
         let at = inc.file.span().start;
         let inner = include(src, base, inc, ctx)?;
         k.parts.extend(inner.parts.into_iter().map(|x| (at, x)));
-        k.launches.extend(inner.launches.into_iter().map(|x| (at, x)));
+        k.launches
+            .extend(inner.launches.into_iter().map(|x| (at, x)));
         k.arcs.extend(inner.arcs.into_iter().map(|x| (at, x)));
-        k.captures.extend(inner.captures.into_iter().map(|x| (at, x)));
-        k.overrides.extend(inner.overrides.into_iter().map(|x| (at, x)));
+        k.captures
+            .extend(inner.captures.into_iter().map(|x| (at, x)));
+        k.overrides
+            .extend(inner.overrides.into_iter().map(|x| (at, x)));
     }
     Ok(k.sorted())
 }
@@ -341,7 +344,8 @@ fn vias(src: &Source, list: &[Spanned<ViaEntry>]) -> Res<Vec<Spanned<ViaEntry>>>
 /// One `[[include]]`: the file read, checked, expanded, its names prefixed.
 fn include(src: &Source, base: usize, inc: &RawInclude, ctx: &mut Ctx) -> Res<Flat> {
     let here = inc.file.span();
-    let fail = |msg: String, help: &str| src.fail(here.clone(), msg, "this include", Some(help.into()));
+    let fail =
+        |msg: String, help: &str| src.fail(here.clone(), msg, "this include", Some(help.into()));
     if ctx.stack.len() > MAX_DEPTH || ctx.files.count() >= MAX_FILES {
         return Err(fail(
             format!("too many included files (at most {MAX_FILES}, {MAX_DEPTH} deep)"),
@@ -367,7 +371,8 @@ fn include(src: &Source, base: usize, inc: &RawInclude, ctx: &mut Ctx) -> Res<Fl
     let from = format!("{}:{line}:{column}", src.name);
     // errors met while reading the included file itself say where it is included
     let noted = |mut e: Box<SourceError>| {
-        if e.file == inner_src.name && !e.help.as_deref().is_some_and(|h| h.contains("included at")) {
+        if e.file == inner_src.name && !e.help.as_deref().is_some_and(|h| h.contains("included at"))
+        {
             e.help = Some(match e.help.take() {
                 Some(h) => format!("{h} (this file is included at {from})"),
                 None => format!("this file is included at {from}"),
@@ -375,8 +380,8 @@ fn include(src: &Source, base: usize, inc: &RawInclude, ctx: &mut Ctx) -> Res<Fl
         }
         e
     };
-    let raw: RawDesign = toml::from_str(&inner_src.text)
-        .map_err(|e| noted(Box::new(inner_src.toml_error(&e))))?;
+    let raw: RawDesign =
+        toml::from_str(&inner_src.text).map_err(|e| noted(Box::new(inner_src.toml_error(&e))))?;
     top_only(&inner_src, &raw).map_err(noted)?;
     let prefix = match &inc.prefix {
         Some(p) if p.get_ref().chars().any(char::is_whitespace) => {
@@ -433,128 +438,20 @@ fn top_only(src: &Source, raw: &RawDesign) -> Res<()> {
     }
 }
 
-/// A span moved by `by`.
-fn moved<T>(s: Spanned<T>, by: usize) -> Spanned<T> {
-    let r = s.span();
-    Spanned::new(r.start + by..r.end + by, s.into_inner())
-}
-
-fn moved_opt<T>(s: Option<Spanned<T>>, by: usize) -> Option<Spanned<T>> {
-    s.map(|s| moved(s, by))
-}
-
-fn moved_vias(list: Vec<Spanned<ViaEntry>>, by: usize) -> Vec<Spanned<ViaEntry>> {
-    list.into_iter()
-        .map(|v| {
-            let span = v.span();
-            let entry = match v.into_inner() {
-                ViaEntry::Table(t) => ViaEntry::Table(RawVia {
-                    part: moved(t.part, by),
-                    arc: moved(t.arc, by),
-                }),
-                short => short,
-            };
-            Spanned::new(span.start + by..span.end + by, entry)
-        })
-        .collect()
-}
-
 impl Keyed {
     /// Every span offset by a file's base (the keys stay places in the file).
     fn shift(&mut self, by: usize) {
-        self.parts = std::mem::take(&mut self.parts)
-            .into_iter()
-            .map(|(k, p)| {
-                (
-                    k,
-                    PartDecl {
-                        reference: moved(p.reference, by),
-                        type_name: moved(p.type_name, by),
-                        section: moved_opt(p.section, by),
-                        load: moved_opt(p.load, by),
-                    },
-                )
-            })
-            .collect();
-        self.launches = std::mem::take(&mut self.launches)
-            .into_iter()
-            .map(|(k, l)| {
-                (
-                    k,
-                    RawLaunch {
-                        name: l.name,
-                        edge: l.edge,
-                        part: moved(l.part, by),
-                        arc: moved(l.arc, by),
-                        to: moved(l.to, by),
-                        clock_via: moved_vias(l.clock_via, by),
-                    },
-                )
-            })
-            .collect();
-        self.arcs = std::mem::take(&mut self.arcs)
-            .into_iter()
-            .map(|(k, a)| {
-                let delay = a.delay.map(|d| {
-                    let span = d.span();
-                    let f = d.into_inner();
-                    Spanned::new(
-                        span.start + by..span.end + by,
-                        RawFixed {
-                            min: moved_opt(f.min, by),
-                            typ: moved_opt(f.typ, by),
-                            max: moved(f.max, by),
-                        },
-                    )
-                });
-                (
-                    k,
-                    RawArc {
-                        from: moved(a.from, by),
-                        to: moved(a.to, by),
-                        part: moved_opt(a.part, by),
-                        arc: moved_opt(a.arc, by),
-                        delay,
-                        name: a.name,
-                    },
-                )
-            })
-            .collect();
-        self.captures = std::mem::take(&mut self.captures)
-            .into_iter()
-            .map(|(k, c)| {
-                (
-                    k,
-                    RawCapture {
-                        name: c.name,
-                        signal: moved(c.signal, by),
-                        edge: c.edge,
-                        part: moved_opt(c.part, by),
-                        check: moved_opt(c.check, by),
-                        setup: moved_opt(c.setup, by),
-                        hold: moved_opt(c.hold, by),
-                        clock_via: moved_vias(c.clock_via, by),
-                    },
-                )
-            })
-            .collect();
-        self.overrides = std::mem::take(&mut self.overrides)
-            .into_iter()
-            .map(|(k, o)| {
-                (
-                    k,
-                    RawOverride {
-                        part: moved(o.part, by),
-                        arc: moved(o.arc, by),
-                        kind: o.kind,
-                        min: moved_opt(o.min, by),
-                        typ: moved_opt(o.typ, by),
-                        max: moved_opt(o.max, by),
-                        scale: moved_opt(o.scale, by),
-                    },
-                )
-            })
-            .collect();
+        fn all<T: Moved>(v: &mut Vec<(usize, T)>, by: usize) {
+            *v = std::mem::take(v)
+                .into_iter()
+                .map(|(k, x)| (k, x.moved(by)))
+                .collect();
+        }
+        all(&mut self.parts, by);
+        all(&mut self.launches, by);
+        all(&mut self.arcs, by);
+        all(&mut self.captures, by);
+        all(&mut self.overrides, by);
     }
 
     /// In file order (a stable sort: entries written in one place keep their order).
@@ -577,7 +474,11 @@ impl Keyed {
 impl Flat {
     /// Part references and signal names through `rename`; parts without a section get
     /// `section`.
-    fn rename(&mut self, rename: &dyn Fn(&Spanned<String>) -> Spanned<String>, section: Option<&Spanned<String>>) {
+    fn rename(
+        &mut self,
+        rename: &dyn Fn(&Spanned<String>) -> Spanned<String>,
+        section: Option<&Spanned<String>>,
+    ) {
         let via = |v: &mut Spanned<ViaEntry>| {
             let span = v.span();
             if let ViaEntry::Table(t) = v.get_ref() {

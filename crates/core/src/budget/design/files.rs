@@ -41,7 +41,11 @@ pub struct NoIncludes;
 
 impl IncludeReader for NoIncludes {
     fn read(&self, _from: &Source, _file: &str) -> Result<Source, String> {
-        Err("this design is read without access to other files".into())
+        Err(
+            "this design is read without its files (from a recording or from bytes alone); \
+             give the design file with --design"
+                .into(),
+        )
     }
 }
 

@@ -105,7 +105,6 @@ pub(super) struct PartDecl {
     pub load: Option<Spanned<String>>,
 }
 
-
 #[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawLaunch {
