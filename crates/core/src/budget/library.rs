@@ -17,8 +17,8 @@ mod raw;
 pub mod sheet;
 
 pub use model::{
-    ActiveEdge, ArcKind, Bound, Column, DeratingKind, ErrStats, Family, Library, Part, Series,
-    Shape, Status, TimingArc,
+    ActiveEdge, ArcKind, Bound, Column, DeratingKind, ErrStats, Family, Library, Part, Pin,
+    PinRole, Pinout, Series, Shape, Status, TimingArc,
 };
 
 /// The embedded data files, by the name shown in diagnostics.

@@ -37,10 +37,10 @@ pub(super) struct RawMember {
     #[serde(rename = "ref")]
     pub reference: Spanned<String>,
     pub name: Option<String>,
-    /// The signal its output drives (a launch).
-    pub q: Option<Spanned<String>>,
-    /// The signal its input captures (a capture).
-    pub d: Option<Spanned<String>>,
+    /// The signal(s) its output drives (a launch each).
+    pub q: Option<Spanned<Names>>,
+    /// The signal(s) its input captures (a capture each).
+    pub d: Option<Spanned<Names>>,
     pub arc: Option<Spanned<String>>,
     pub check: Option<Spanned<String>>,
     #[serde(rename = "type")]

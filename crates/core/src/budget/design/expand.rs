@@ -223,19 +223,34 @@ fn registers(src: &Source, g: &RawRegisters, k: &mut Keyed) -> Res<()> {
                 Some("add q = \"signal it drives\" and/or d = \"signal it captures\"".into()),
             ));
         }
+        // several signals: one launch (capture) each, named after its signal
+        let named = |n: &Option<String>, suffix: String, many: bool, s: &Spanned<String>| {
+            n.as_ref().map(|n| {
+                if many {
+                    format!("{n}{suffix} {}", s.get_ref())
+                } else {
+                    format!("{n}{suffix}")
+                }
+            })
+        };
         if let Some(q) = &m.q {
             let arc = m.arc.clone().or_else(|| g.arc.clone());
-            k.launches.push((
-                at,
-                RawLaunch {
-                    name: m.name.clone(),
-                    edge: g.edge,
-                    part: m.reference.clone(),
-                    arc: arc.unwrap_or_else(|| Spanned::new(here.clone(), "CLK->Q".into())),
-                    to: q.clone(),
-                    clock_via: via.clone(),
-                },
-            ));
+            let qs = Names::spanned(q);
+            for s in &qs {
+                k.launches.push((
+                    at,
+                    RawLaunch {
+                        name: named(&m.name, String::new(), qs.len() > 1, s),
+                        edge: g.edge,
+                        part: m.reference.clone(),
+                        arc: arc
+                            .clone()
+                            .unwrap_or_else(|| Spanned::new(here.clone(), "CLK->Q".into())),
+                        to: s.clone(),
+                        clock_via: via.clone(),
+                    },
+                ));
+            }
         }
         if let Some(d) = &m.d {
             let check = m
@@ -243,20 +258,29 @@ fn registers(src: &Source, g: &RawRegisters, k: &mut Keyed) -> Res<()> {
                 .clone()
                 .or_else(|| g.check.clone())
                 .unwrap_or_else(|| Spanned::new(here.clone(), "D->CLK".into()));
-            let pin = check.get_ref().split("->").next().unwrap_or("").trim();
-            k.captures.push((
-                at,
-                RawCapture {
-                    name: m.name.as_ref().map(|n| format!("{n} {pin}")),
-                    signal: d.clone(),
-                    edge: g.edge,
-                    part: Some(m.reference.clone()),
-                    check: Some(check.clone()),
-                    setup: None,
-                    hold: None,
-                    clock_via: via.clone(),
-                },
-            ));
+            let pin = check
+                .get_ref()
+                .split("->")
+                .next()
+                .unwrap_or("")
+                .trim()
+                .to_string();
+            let ds = Names::spanned(d);
+            for s in &ds {
+                k.captures.push((
+                    at,
+                    RawCapture {
+                        name: named(&m.name, format!(" {pin}"), ds.len() > 1, s),
+                        signal: s.clone(),
+                        edge: g.edge,
+                        part: Some(m.reference.clone()),
+                        check: Some(check.clone()),
+                        setup: None,
+                        hold: None,
+                        clock_via: via.clone(),
+                    },
+                ));
+            }
         }
     }
     Ok(())
