@@ -348,6 +348,7 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
     };
     // combinational arcs between the nets on each part's pins
     let mut chains: Vec<String> = Vec::new();
+    let mut seen = std::collections::HashSet::new();
     for (ci, c) in comps.iter().enumerate() {
         let clock_group = clocked
             .iter()
@@ -386,7 +387,7 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
                 for (s_out, b_out) in &outs {
                     if (!bitwise || b_in == b_out) && s_in != s_out {
                         let chain = format!("{s_in} -> {} {} -> {s_out}", c.reference, a.name);
-                        if !chains.contains(&chain) {
+                        if seen.insert(chain.clone()) {
                             chains.push(chain);
                         }
                     }

@@ -1,9 +1,12 @@
 //! A KiCad netlist (`.net`, the S-expression export of the schematic editor) as components and
 //! nets, read with the `lexpr` S-expression parser. Only what an import needs is read: each
 //! component's reference, value and sheet, each net's name and its (reference, pin) nodes;
-//! every other field is ignored. Errors are located with file:line:column.
+//! every other field is ignored. Errors are located with file:line:column. (lexpr's
+//! span-keeping reader takes time growing with the square of the file's size, its plain reader
+//! does not: the plain one is used, and a missing field is located at the `(comp` or `(net`
+//! that lacks it by counting those words in the text.)
 
-use lexpr::datum::Ref;
+use lexpr::Value;
 
 use crate::diag::{Source, SourceError};
 
@@ -55,22 +58,24 @@ fn offset(text: &str, line: usize, column: usize) -> usize {
     (start + column).min(text.len())
 }
 
-/// The error at an S-expression.
-fn at(src: &Source, r: &Ref, msg: String, help: &str) -> Box<SourceError> {
-    let s = r.span();
-    let a = offset(&src.text, s.start().line(), s.start().column());
-    let b = offset(&src.text, s.end().line(), s.end().column());
-    src.fail(a..b.max(a), msg, "here", Some(help.into()))
+/// The error at the `k`-th (from 0) occurrence of `word` in the text.
+fn at(src: &Source, word: &str, k: usize, msg: String, help: &str) -> Box<SourceError> {
+    let a = src.text.match_indices(word).nth(k).map_or(0, |(i, _)| i);
+    src.fail(
+        a..a + word.len().min(src.text.len() - a),
+        msg,
+        "here",
+        Some(help.into()),
+    )
 }
 
 /// The head symbol of a list, `comp` of `(comp (ref "U1") …)`.
-fn head<'a>(r: &Ref<'a>) -> Option<&'a str> {
-    r.list_iter()?.next()?.value().as_symbol()
+fn head(r: &Value) -> Option<&str> {
+    r.list_iter()?.next()?.as_symbol()
 }
 
 /// The text of an atom: a string, a symbol or a number.
-fn atom(r: &Ref) -> Option<String> {
-    let v = r.value();
+fn atom(v: &Value) -> Option<String> {
     v.as_str()
         .or_else(|| v.as_symbol())
         .map(str::to_string)
@@ -78,7 +83,7 @@ fn atom(r: &Ref) -> Option<String> {
 }
 
 /// The lists inside a list (after its head) whose head is `name`.
-fn fields<'a>(r: &Ref<'a>, name: &'a str) -> impl Iterator<Item = Ref<'a>> + 'a {
+fn fields<'a>(r: &'a Value, name: &'a str) -> impl Iterator<Item = &'a Value> + 'a {
     r.list_iter()
         .into_iter()
         .flatten()
@@ -87,15 +92,15 @@ fn fields<'a>(r: &Ref<'a>, name: &'a str) -> impl Iterator<Item = Ref<'a>> + 'a 
 }
 
 /// The value of the field `(name VALUE)` of a list.
-fn field_text(r: &Ref, name: &str) -> Option<String> {
+fn field_text(r: &Value, name: &str) -> Option<String> {
     let f = fields(r, name).next()?;
     let v = f.list_iter()?.nth(1)?;
-    atom(&v)
+    atom(v)
 }
 
 /// Read a netlist.
 pub fn parse(src: &Source) -> Result<Netlist, Box<SourceError>> {
-    let datum = lexpr::datum::from_str(&src.text).map_err(|e| {
+    let top = lexpr::from_str(&src.text).map_err(|e| {
         let (line, column) = e
             .location()
             .map_or((1, 1), |l| (l.line(), l.column().max(1)));
@@ -109,30 +114,34 @@ pub fn parse(src: &Source) -> Result<Netlist, Box<SourceError>> {
             ),
         )
     })?;
-    let top = datum.as_ref();
     if head(&top) != Some("export") {
-        return Err(at(
-            src,
-            &top,
-            "not a KiCad netlist: it does not start with (export …)".into(),
-            "give the .net file the schematic editor exports in KiCad format",
+        let first = src.text.trim_start();
+        let k = src.text.len() - first.len();
+        return Err(src.fail(
+            k..k + first.find(char::is_whitespace).unwrap_or(first.len()),
+            "not a KiCad netlist: it does not start with (export …)",
+            "here",
+            Some("give the .net file the schematic editor exports in KiCad format".into()),
         ));
     }
     let mut out = Netlist::default();
+    let (mut comp_k, mut net_k) = (0, 0);
     for list in fields(&top, "components") {
-        for c in fields(&list, "comp") {
-            let reference = field_text(&c, "ref").ok_or_else(|| {
+        for c in fields(list, "comp") {
+            let reference = field_text(c, "ref").ok_or_else(|| {
                 at(
                     src,
-                    &c,
+                    "(comp ",
+                    comp_k,
                     "a (comp …) without (ref …)".into(),
                     "every component needs its reference designator",
                 )
             })?;
-            let value = field_text(&c, "value").unwrap_or_default();
-            let sheet = fields(&c, "sheetpath")
+            comp_k += 1;
+            let value = field_text(c, "value").unwrap_or_default();
+            let sheet = fields(c, "sheetpath")
                 .next()
-                .and_then(|s| field_text(&s, "names"))
+                .and_then(|s| field_text(s, "names"))
                 .unwrap_or_else(|| "/".into());
             out.components.push(Component {
                 reference,
@@ -142,23 +151,26 @@ pub fn parse(src: &Source) -> Result<Netlist, Box<SourceError>> {
         }
     }
     for list in fields(&top, "nets") {
-        for n in fields(&list, "net") {
-            let name = field_text(&n, "name").ok_or_else(|| {
+        for n in fields(list, "net") {
+            let name = field_text(n, "name").ok_or_else(|| {
                 at(
                     src,
-                    &n,
+                    "(net ",
+                    net_k,
                     "a (net …) without (name …)".into(),
                     "every net needs its name",
                 )
             })?;
+            net_k += 1;
             let mut nodes = Vec::new();
-            for node in fields(&n, "node") {
-                match (field_text(&node, "ref"), field_text(&node, "pin")) {
+            for node in fields(n, "node") {
+                match (field_text(node, "ref"), field_text(node, "pin")) {
                     (Some(reference), Some(pin)) => nodes.push(Node { reference, pin }),
                     _ => {
                         return Err(at(
                             src,
-                            &node,
+                            &format!("\"{name}\""),
+                            0,
                             format!("a (node …) of net \"{name}\" without (ref …) and (pin …)"),
                             "a node names the component and its pin: (node (ref \"U1\") (pin \"3\"))",
                         ));
@@ -210,6 +222,48 @@ mod tests {
         );
         // unquoted numbers are read as their text
         assert_eq!(n.nets[1].nodes[0].pin, "10");
+    }
+
+    /// A netlist of `parts` 74HC574s in a ring, each pin on its own net (the size benchmark's
+    /// shape); run with `--ignored --nocapture` to see the time.
+    pub fn ring(parts: usize) -> String {
+        let mut s = String::from("(export (version \"E\")\n  (components\n");
+        for i in 0..parts {
+            s += &format!(
+                "    (comp (ref \"U{i}\") (value \"74HC574\") (footprint \"DIP-20\") (sheetpath (names \"/\") (tstamps \"/\")))\n"
+            );
+        }
+        s += "  )\n  (nets\n";
+        for i in 0..parts {
+            for b in 0..8 {
+                let next = (i + 1) % parts;
+                s += &format!(
+                    "    (net (code \"{}\") (name \"/Q{i}_{b}\") (node (ref \"U{i}\") (pin \"{}\") (pintype \"output\")) (node (ref \"U{next}\") (pin \"{}\") (pintype \"input\")))\n",
+                    i * 8 + b,
+                    19 - b,
+                    2 + b
+                );
+            }
+        }
+        s + "  )\n)\n"
+    }
+
+    #[test]
+    #[ignore]
+    fn size_probe() {
+        let text = ring(500);
+        let t = std::time::Instant::now();
+        let v = lexpr::from_str(&text).unwrap();
+        eprintln!("value parse {:?}", t.elapsed());
+        drop(v);
+        let t = std::time::Instant::now();
+        let n = read(&text).unwrap();
+        eprintln!(
+            "{} bytes, {} nets: {:?}",
+            text.len(),
+            n.nets.len(),
+            t.elapsed()
+        );
     }
 
     #[test]
