@@ -4,7 +4,7 @@
 //! computations live in `slackmeter-core`, the edges to ports and files in `slackmeter-io`; both
 //! are re-exported here under their module names. Module map and dependency rules: DEVELOPERS.md.
 
-pub use slackmeter_core::{budget, diag, margin, measure, power, probe, units};
+pub use slackmeter_core::{budget, diag, import, margin, measure, power, probe, units};
 pub use slackmeter_io::{export, link, record, report, sim};
 
 pub mod cli;

@@ -61,11 +61,17 @@ fn every_malformed_design_gets_its_specific_located_error() {
     assert!(failures.is_empty(), "\n{}", failures.join("\n"));
 }
 
-/// Random edits of the demo design (deterministic): parsing and solving never panic, and every
-/// rejection carries a location inside the text.
+/// Random edits of the demo design, in its compact form and in long tables (deterministic):
+/// parsing and solving never panic, and every rejection carries a location inside the text.
 #[test]
 fn mutated_designs_never_panic() {
-    use slackmeter::budget::design::DEMO_DESIGN;
+    let long = include_str!("fixtures/larkspur-8-long.toml");
+    for base in [slackmeter::budget::design::DEMO_DESIGN, long] {
+        mutate(base);
+    }
+}
+
+fn mutate(base: &str) {
     use slackmeter::budget::{OperatingPoint, solve};
     use slackmeter::diag::Source;
     let lib = Library::builtin();
@@ -77,9 +83,9 @@ fn mutated_designs_never_panic() {
         x ^= x << 17;
         (x % n as u64) as usize
     };
-    let base: Vec<char> = DEMO_DESIGN.chars().collect();
+    let base: Vec<char> = base.chars().collect();
     let (mut accepted, mut rejected) = (0, 0);
-    for _ in 0..1500 {
+    for _ in 0..1000 {
         let mut text = base.clone();
         for _ in 0..1 + rnd(4) {
             let at = rnd(text.len());
@@ -93,7 +99,8 @@ fn mutated_designs_never_panic() {
         }
         let text: String = text.into_iter().collect();
         let lines = text.lines().count() + 1;
-        match Design::parse(Source::new("mutant.toml", text), &lib) {
+        let no_files = slackmeter::budget::design::NoIncludes;
+        match Design::parse_with(Source::new("mutant.toml", text), &lib, &no_files) {
             Ok(d) => {
                 accepted += 1;
                 let b = solve(&d, &lib, &OperatingPoint::of(&d), None, Some(0.4));

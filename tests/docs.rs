@@ -43,21 +43,27 @@ fn readme_opens_with_the_job_then_the_two_commands() {
 }
 
 #[test]
-fn design_file_doc_example_is_a_valid_design() {
+fn design_file_doc_examples_are_valid_designs() {
     let doc = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/docs/DESIGN-FILE.md"))
         .unwrap();
-    let example = doc
-        .split("```toml")
-        .nth(1)
-        .and_then(|s| s.split("```").next())
-        .expect("a toml example");
     let lib = Library::builtin();
-    let d = slackmeter::budget::Design::parse(
-        slackmeter::diag::Source::new("doc", example.to_string()),
-        &lib,
-    )
-    .unwrap_or_else(|e| panic!("{e:?}"));
-    assert!(!d.captures.is_empty());
+    // the long tables' example, then the compact forms' one
+    for (n, name) in [
+        (1, "the long tables' example"),
+        (2, "the compact forms' example"),
+    ] {
+        let example = doc
+            .split("```toml")
+            .nth(n)
+            .and_then(|s| s.split("```").next())
+            .expect("a toml example");
+        let d = slackmeter::budget::Design::parse(
+            slackmeter::diag::Source::new("doc", example.to_string()),
+            &lib,
+        )
+        .unwrap_or_else(|e| panic!("{name}: {e:?}"));
+        assert!(!d.captures.is_empty(), "{name}");
+    }
 }
 
 #[test]

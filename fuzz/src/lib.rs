@@ -365,7 +365,9 @@ pub fn design_file(data: &[u8]) {
     static LIB: std::sync::OnceLock<Library> = std::sync::OnceLock::new();
     let lib = LIB.get_or_init(Library::builtin);
     let text = String::from_utf8_lossy(data);
-    if let Ok(d) = Design::parse(Source::new("fuzz.toml", text.as_ref()), lib) {
+    // included files are not read: the bytes alone are the design
+    let no_files = slackmeter_core::budget::design::NoIncludes;
+    if let Ok(d) = Design::parse_with(Source::new("fuzz.toml", text.as_ref()), lib, &no_files) {
         // the supply wiring is read from the same text, and the power budget solved on it
         if let Ok(Some(w)) = slackmeter_core::power::Wiring::of(&d) {
             static DATA: std::sync::OnceLock<slackmeter_core::power::SupplyData> =

@@ -60,7 +60,13 @@ pub fn embedded_in(header: &Header, file: &Path, lib: &Library) -> CliResult<Opt
     Ok(match &header.design {
         Some(e) => {
             let name = format!("{} (embedded in {})", e.file, file.display());
-            Some(Design::parse(Source::new(name, e.text.clone()), lib)?)
+            // the recording holds the top file alone: it includes nothing
+            let files = crate::budget::design::NoIncludes;
+            Some(Design::parse_with(
+                Source::new(name, e.text.clone()),
+                lib,
+                &files,
+            )?)
         }
         None => None,
     })

@@ -9,6 +9,7 @@ pub mod design;
 pub mod error;
 pub mod export;
 pub mod failures;
+pub mod import;
 pub mod listen;
 pub mod live;
 pub mod model;
@@ -61,6 +62,12 @@ Quantities take SI units with or without a space: --vcc 4.75V, --freq \"1.8 MHz\
 Example: slackmeter power --freq 4MHz --activity 0.3 --json"
     )]
     Power(self::power::PowerArgs),
+    /// Write a design file (compact syntax) from a KiCad netlist: parts, the clock followed
+    /// through inverters and buffers, registers, arcs; TODO lines for what it cannot decide.
+    #[command(
+        after_help = "Example: slackmeter import machine.net --clock CLK --map parts-map.toml -o machine.toml"
+    )]
+    Import(self::import::ImportArgs),
     /// Run the virtual probe: the demo machine's clock, rails and lines, spoken in the probe
     /// protocol on a pseudo-terminal, into a file or to standard output.
     #[command(
@@ -115,6 +122,7 @@ pub fn dispatch(command: Command) -> CliResult<Outcome> {
         Command::Budget(a) => self::budget::run(a),
         Command::Parts(a) => self::parts::run(a),
         Command::Power(a) => self::power::run(a),
+        Command::Import(a) => self::import::run(a),
         Command::Sim(a) => self::sim::run(*a),
         Command::Ports => self::ports::run(),
         Command::Listen(a) => self::listen::run(a),

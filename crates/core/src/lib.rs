@@ -6,6 +6,7 @@
 
 pub mod budget;
 pub mod diag;
+pub mod import;
 pub mod margin;
 pub mod measure;
 pub mod power;

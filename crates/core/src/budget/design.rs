@@ -10,13 +10,19 @@ use crate::budget::library::model::Library;
 use crate::diag::{Source, SourceError};
 
 mod board;
+mod chain;
+mod compact;
+mod expand;
+mod files;
 mod graph;
 mod load;
 pub(super) mod model;
+mod moved;
 mod overrides;
 mod raw;
 mod timing;
 
+pub use files::{FromDisk, InMemory, IncludeReader, NoIncludes};
 use load::{Loader, Res};
 pub use model::{
     Capture, ClockPlan, Clocked, Delay, Design, Edge, GraphArc, Instance, Launch, Operating,
@@ -45,21 +51,31 @@ impl Design {
             .map_err(DesignError::Source)
     }
 
-    /// Parse and resolve design text: the board, then the timing entries and overrides, then
-    /// the graph's order; the first problem found is the error.
+    /// Parse and resolve design text; included files are read from disk, relative to the
+    /// folder of `src`'s name.
     pub fn parse(src: Source, lib: &Library) -> Res<Design> {
+        Design::parse_with(src, lib, &FromDisk)
+    }
+
+    /// Parse and resolve design text, reading included files with `reader`: the file and its
+    /// includes as long-form entries, then the board, the timing entries and overrides, then
+    /// the graph's order; the first problem found is the error.
+    pub fn parse_with(src: Source, lib: &Library, reader: &dyn IncludeReader) -> Res<Design> {
         let raw: raw::RawDesign =
             toml::from_str(&src.text).map_err(|e| Box::new(src.toml_error(&e)))?;
-        let mut ld = Loader::new(&src, lib);
-        let operating = ld.operating(raw.operating.as_ref())?;
-        let (clock, clock_name) = ld.clock(raw.clock.as_ref())?;
+        let mut ctx = expand::Ctx::new(&src, reader);
+        let flat = expand::expand(&src, 0, &raw, &mut ctx)?;
+        let files = ctx.files;
+        let mut ld = Loader::new(&files, lib);
+        let operating = ld.operating(raw.operating.as_ref().map(|o| o.get_ref()))?;
+        let (clock, clock_name) = ld.clock(raw.clock.as_ref().map(|c| c.get_ref()))?;
         let sections = ld.sections(&raw.section)?;
-        ld.instances(&raw.part, &sections)?;
-        let mut launches = ld.launches(&raw.launch)?;
-        let (mut arcs, arc_spans) = ld.arcs(&raw.arc)?;
-        let mut captures = ld.captures(&raw.capture)?;
-        let clocked = clocked_parts(&ld, &raw)?;
-        ld.apply_overrides(&raw.overrides, &mut launches, &mut arcs, &mut captures)?;
+        ld.instances(&flat.parts, &sections)?;
+        let mut launches = ld.launches(&flat.launches)?;
+        let (mut arcs, arc_spans) = ld.arcs(&flat.arcs)?;
+        let mut captures = ld.captures(&flat.captures)?;
+        let clocked = clocked_parts(&ld, &flat)?;
+        ld.apply_overrides(&flat.overrides, &mut launches, &mut arcs, &mut captures)?;
         if launches.is_empty() || captures.is_empty() {
             return Err(nothing_to_time(&ld));
         }
@@ -84,7 +100,7 @@ impl Design {
         };
         design.warnings = graph::unreached_captures(&design);
         if design.warnings.len() == design.captures.len() {
-            return Err(nothing_reached(&src, &raw.capture[0].signal));
+            return Err(nothing_reached(&files, &flat.captures[0].signal));
         }
         Ok(design)
     }
@@ -92,19 +108,19 @@ impl Design {
 
 /// Every part a launch or a part-checked capture names, with its master edge and the pin the
 /// clock enters by ("CLK" of "CLK->Q", "WE" of "D->WE"), once each.
-fn clocked_parts(ld: &Loader, raw: &raw::RawDesign) -> Res<Vec<Clocked>> {
+fn clocked_parts(ld: &Loader, flat: &expand::Flat) -> Res<Vec<Clocked>> {
     let mut out: Vec<Clocked> = Vec::new();
     let pin_of = |arc: &str, first: bool| {
         let mut it = arc.split("->");
         let (a, b) = (it.next().unwrap_or(arc), it.next().unwrap_or(arc));
         (if first { a } else { b }).trim().to_string()
     };
-    let named = raw
-        .launch
+    let named = flat
+        .launches
         .iter()
         .map(|l| (&l.part, l.edge, pin_of(l.arc.get_ref(), true)))
         .chain(
-            raw.capture
+            flat.captures
                 .iter()
                 .filter_map(|c| match (&c.part, &c.check) {
                     (Some(p), Some(ch)) => Some((p, c.edge, pin_of(ch.get_ref(), false))),
@@ -135,8 +151,11 @@ fn nothing_to_time(ld: &Loader) -> Box<SourceError> {
 }
 
 /// The error for a design whose captures no launch reaches, at the first capture.
-fn nothing_reached(src: &Source, first_capture: &toml::Spanned<String>) -> Box<SourceError> {
-    Box::new(src.error(
+fn nothing_reached(
+    files: &files::Files,
+    first_capture: &toml::Spanned<String>,
+) -> Box<SourceError> {
+    Box::new(files.error(
         first_capture.span(),
         "no capture is reached by any launch: nothing to time",
         "here",

@@ -12,12 +12,13 @@ use crate::diag::{Source, SourceError};
 pub(super) mod fit;
 mod load;
 pub(super) mod model;
+pub mod pins;
 mod raw;
 pub mod sheet;
 
 pub use model::{
-    ActiveEdge, ArcKind, Bound, Column, DeratingKind, ErrStats, Family, Library, Part, Series,
-    Shape, Status, TimingArc,
+    ActiveEdge, ArcKind, Bound, Column, DeratingKind, ErrStats, Family, Library, Part, Pin,
+    PinRole, Pinout, Series, Shape, Status, TimingArc,
 };
 
 /// The embedded data files, by the name shown in diagnostics.
@@ -71,6 +72,16 @@ impl Library {
     pub fn from_sources(sources: &[Source]) -> Result<Library, Box<SourceError>> {
         let mut lib = load::parse_sources(sources)?;
         fit::fit_library(&mut lib);
+        let (name, text) = pins::PINS_FILE;
+        match pins::load(&Source::new(name, text), &lib) {
+            Ok(p) => lib.pinouts = p,
+            // the built-in pins fit the built-in parts (tested); a user part that replaced one
+            // may name its pins otherwise: the pin maps are left out, and the notes say why
+            Err(e) if !lib.notes.is_empty() => lib.notes.push(format!(
+                "pin maps left out: {e} (a part from the --parts folder names its pins otherwise)"
+            )),
+            Err(e) => return Err(e),
+        }
         Ok(lib)
     }
 }

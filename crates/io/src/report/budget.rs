@@ -536,6 +536,23 @@ pub fn render_part(sheet: &PartSheet) -> String {
             );
         }
     }
+    if let Some(pins) = &sheet.pins {
+        let _ = writeln!(
+            out,
+            "\n  pins ({}) — {} ({})",
+            pins.package, pins.source, pins.status
+        );
+        for p in &pins.pins {
+            let row = format!(
+                "    {:>2}  {:<5} {:<14} {}",
+                p.number,
+                p.name,
+                p.role,
+                p.arcs.join(", ")
+            );
+            let _ = writeln!(out, "{}", row.trim_end());
+        }
+    }
     for v in &sheet.variant_sheets {
         let _ = writeln!(out);
         out += &render_part(v);

@@ -2,7 +2,7 @@
 
 use super::load::{Loader, Res};
 use super::model::{ClockPlan, Instance, Operating, Section};
-use super::raw::{RawClock, RawOperating, RawPart, RawSection};
+use super::raw::{PartDecl, RawClock, RawOperating, RawSection};
 use crate::budget::derate::Corner;
 use crate::units;
 
@@ -77,7 +77,7 @@ impl Loader<'_> {
     }
 
     /// Declare every part instance: a unique reference, a library type, its section and load.
-    pub fn instances(&mut self, raw: &[RawPart], sections: &[Section]) -> Res<()> {
+    pub fn instances(&mut self, raw: &[PartDecl], sections: &[Section]) -> Res<()> {
         for p in raw {
             let reference = self.reference(p)?;
             let part = self.part_type(p)?;
@@ -106,7 +106,7 @@ impl Loader<'_> {
         Ok(())
     }
 
-    fn reference(&self, p: &RawPart) -> Res<String> {
+    fn reference(&self, p: &PartDecl) -> Res<String> {
         let reference = p.reference.get_ref().trim().to_string();
         if reference.is_empty() {
             return Err(self.err(
@@ -127,7 +127,7 @@ impl Loader<'_> {
         Ok(reference)
     }
 
-    fn part_type(&self, p: &RawPart) -> Res<usize> {
+    fn part_type(&self, p: &PartDecl) -> Res<usize> {
         self.lib.part_index(p.type_name.get_ref()).ok_or_else(|| {
             let similar = self.lib.similar_parts(p.type_name.get_ref());
             self.err(

@@ -6,17 +6,19 @@ use std::ops::Range;
 
 use toml::Spanned;
 
+use super::files::Files;
 use super::model::{Delay, Instance};
-use super::raw::{RawFixed, RawVia};
+use super::raw::{RawFixed, ViaEntry};
 use crate::budget::library::model::{ArcKind, Library};
-use crate::diag::{Source, SourceError};
+use crate::diag::SourceError;
 use crate::units::{self, UnitError};
 
 pub(super) type Res<T> = Result<T, Box<SourceError>>;
 
 /// What resolving a design has found so far: instances and signals by name.
 pub(super) struct Loader<'a> {
-    pub src: &'a Source,
+    /// The files the design is read from (errors point into the one a span falls in).
+    pub files: &'a Files,
     pub lib: &'a Library,
     pub instances: Vec<Instance>,
     pub by_ref: HashMap<String, usize>,
@@ -25,9 +27,9 @@ pub(super) struct Loader<'a> {
 }
 
 impl<'a> Loader<'a> {
-    pub fn new(src: &'a Source, lib: &'a Library) -> Loader<'a> {
+    pub fn new(files: &'a Files, lib: &'a Library) -> Loader<'a> {
         Loader {
-            src,
+            files,
             lib,
             instances: Vec::new(),
             by_ref: HashMap::new(),
@@ -44,7 +46,7 @@ impl<'a> Loader<'a> {
         label: &str,
         help: Option<String>,
     ) -> Box<SourceError> {
-        Box::new(self.src.error(span, msg, label, help))
+        Box::new(self.files.error(span, msg, label, help))
     }
 
     /// A quantity with an SI unit; `what` labels the span when it does not parse.
@@ -183,9 +185,18 @@ impl<'a> Loader<'a> {
     }
 
     /// The clock buffers on a launch or capture clock.
-    pub fn via(&self, list: &[RawVia]) -> Res<Vec<Delay>> {
+    pub fn via(&self, list: &[toml::Spanned<ViaEntry>]) -> Res<Vec<Delay>> {
         list.iter()
-            .map(|v| self.part_delay(&v.part, &v.arc))
+            .map(|v| match v.get_ref() {
+                ViaEntry::Table(t) => self.part_delay(&t.part, &t.arc),
+                // the expansion writes every short form as a table
+                ViaEntry::Short(s) => Err(self.err(
+                    v.span(),
+                    format!("clock buffer \"{s}\" was not read"),
+                    "here",
+                    Some("write it as { part = \"U30\", arc = \"A->Y\" }".into()),
+                )),
+            })
             .collect()
     }
 

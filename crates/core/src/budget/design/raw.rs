@@ -1,8 +1,11 @@
-//! The design file format as read by serde, with spans for diagnostics.
+//! The design file format as read by serde, with spans for diagnostics. The compact forms
+//! (instance groups, register groups, buses, chains, includes) are in `compact.rs`; `expand.rs`
+//! turns a file of either form into the long-form entries below.
 
 use serde::Deserialize;
 use toml::Spanned;
 
+pub(super) use super::compact::{RawVia, ViaEntry};
 use super::model::Edge;
 use crate::budget::derate::Corner;
 use crate::budget::library::model::ArcKind;
@@ -11,12 +14,20 @@ use crate::budget::library::model::ArcKind;
 #[serde(deny_unknown_fields)]
 pub(super) struct RawDesign {
     pub design: RawMeta,
-    pub operating: Option<RawOperating>,
-    pub clock: Option<RawClock>,
+    pub operating: Option<Spanned<RawOperating>>,
+    pub clock: Option<Spanned<RawClock>>,
     #[serde(default)]
     pub section: Vec<RawSection>,
     #[serde(default)]
     pub part: Vec<RawPart>,
+    #[serde(default)]
+    pub register: Vec<super::compact::RawRegisters>,
+    #[serde(default)]
+    pub bus: Vec<super::compact::RawBus>,
+    #[serde(default)]
+    pub chains: Vec<Spanned<String>>,
+    #[serde(default)]
+    pub include: Vec<super::compact::RawInclude>,
     #[serde(default)]
     pub launch: Vec<RawLaunch>,
     #[serde(default)]
@@ -26,17 +37,13 @@ pub(super) struct RawDesign {
     #[serde(default, rename = "override")]
     pub overrides: Vec<RawOverride>,
     /// The supply wiring tables, read and checked by the power budget (`power::Wiring`).
-    #[allow(dead_code)]
-    pub supply: Option<toml::Value>,
-    #[allow(dead_code)]
+    pub supply: Option<Spanned<toml::Value>>,
     #[serde(default)]
-    pub feed: Vec<toml::Value>,
-    #[allow(dead_code)]
+    pub feed: Vec<Spanned<toml::Value>>,
     #[serde(default)]
-    pub led: Vec<toml::Value>,
-    #[allow(dead_code)]
+    pub led: Vec<Spanned<toml::Value>>,
     #[serde(default)]
-    pub load: Vec<toml::Value>,
+    pub load: Vec<Spanned<toml::Value>>,
 }
 
 #[derive(Deserialize)]
@@ -76,8 +83,11 @@ pub(super) struct RawSection {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawPart {
+    /// One reference designator …
     #[serde(rename = "ref")]
-    pub reference: Spanned<String>,
+    pub reference: Option<Spanned<String>>,
+    /// … or several of the same type and settings (an instance group).
+    pub refs: Option<Spanned<Vec<Spanned<String>>>>,
     #[serde(rename = "type")]
     pub type_name: Spanned<String>,
     pub section: Option<Spanned<String>>,
@@ -86,14 +96,16 @@ pub(super) struct RawPart {
     pub notes: Option<String>,
 }
 
-#[derive(Deserialize)]
-#[serde(deny_unknown_fields)]
-pub(super) struct RawVia {
-    pub part: Spanned<String>,
-    pub arc: Spanned<String>,
+/// One part instance, declared by a `[[part]]` (one of its `refs`) or a register group.
+#[derive(Clone)]
+pub(super) struct PartDecl {
+    pub reference: Spanned<String>,
+    pub type_name: Spanned<String>,
+    pub section: Option<Spanned<String>>,
+    pub load: Option<Spanned<String>>,
 }
 
-#[derive(Deserialize)]
+#[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawLaunch {
     pub name: Option<String>,
@@ -102,10 +114,10 @@ pub(super) struct RawLaunch {
     pub arc: Spanned<String>,
     pub to: Spanned<String>,
     #[serde(default)]
-    pub clock_via: Vec<RawVia>,
+    pub clock_via: Vec<Spanned<ViaEntry>>,
 }
 
-#[derive(Deserialize)]
+#[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawFixed {
     pub min: Option<Spanned<String>>,
@@ -113,7 +125,7 @@ pub(super) struct RawFixed {
     pub max: Spanned<String>,
 }
 
-#[derive(Deserialize)]
+#[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawArc {
     pub from: Spanned<String>,
@@ -124,7 +136,7 @@ pub(super) struct RawArc {
     pub name: Option<String>,
 }
 
-#[derive(Deserialize)]
+#[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawCapture {
     pub name: Option<String>,
@@ -135,10 +147,10 @@ pub(super) struct RawCapture {
     pub setup: Option<Spanned<String>>,
     pub hold: Option<Spanned<String>>,
     #[serde(default)]
-    pub clock_via: Vec<RawVia>,
+    pub clock_via: Vec<Spanned<ViaEntry>>,
 }
 
-#[derive(Deserialize)]
+#[derive(Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub(super) struct RawOverride {
     pub part: Spanned<String>,

@@ -505,6 +505,8 @@ pub struct Library {
     by_type: HashMap<String, usize>,
     /// Notes about user parts that replaced built-in ones.
     pub notes: Vec<String>,
+    /// Package pins of the built-in part types (`library/pins.toml`, read by `pins.rs`).
+    pub pinouts: Vec<Pinout>,
 }
 
 impl Library {
@@ -545,4 +547,70 @@ impl Library {
         out.truncate(8);
         out
     }
+}
+
+/// What a pin does.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum PinRole {
+    /// A data or address input.
+    Input,
+    /// The clock (or write strobe) a capture is timed against.
+    Clock,
+    /// An enable: output enable, chip enable, count or input enable.
+    Enable,
+    /// Another control input (clear, load, direction).
+    Control,
+    /// An output.
+    Output,
+    /// A data pin that is input and output.
+    Bidirectional,
+    /// Supply.
+    Power,
+    /// Ground.
+    Ground,
+}
+
+impl PinRole {
+    /// The role in words.
+    pub fn word(self) -> &'static str {
+        match self {
+            PinRole::Input => "input",
+            PinRole::Clock => "clock",
+            PinRole::Enable => "enable",
+            PinRole::Control => "control",
+            PinRole::Output => "output",
+            PinRole::Bidirectional => "bidirectional",
+            PinRole::Power => "power",
+            PinRole::Ground => "ground",
+        }
+    }
+}
+
+/// One package pin.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Pin {
+    /// Pin number, from 1.
+    pub number: u32,
+    /// Its name in the data sheet.
+    pub name: String,
+    /// The group the part's arcs call it by ("D", "CLK", "Q").
+    pub group: String,
+    /// What it does.
+    pub role: PinRole,
+}
+
+/// A part type's package pins.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Pinout {
+    /// The library types it belongs to (and their vendor variants).
+    pub types: Vec<String>,
+    /// Package, e.g. "DIP-20".
+    pub package: String,
+    /// The data sheet (and table) it was read from.
+    pub source: String,
+    /// Seen, secondary or from memory.
+    pub status: Status,
+    /// The pins, pin 1 first.
+    pub pins: Vec<Pin>,
 }

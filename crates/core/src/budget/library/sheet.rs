@@ -32,9 +32,60 @@ pub struct PartSheet {
     pub variants: Vec<String>,
     /// Its arcs.
     pub arcs: Vec<ArcSheet>,
+    /// Its package pins, when the library has its pinout.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pins: Option<PinSheet>,
     /// For a generic part: each variant's own sheet.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub variant_sheets: Vec<PartSheet>,
+}
+
+/// A part's package pins, each with the arcs it belongs to.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct PinSheet {
+    /// Package, e.g. "DIP-20".
+    pub package: String,
+    /// The data sheet the pin table was read from.
+    pub source: String,
+    /// Seen, secondary or from memory.
+    pub status: String,
+    /// The pins, pin 1 first.
+    pub pins: Vec<PinRow>,
+}
+
+/// One pin.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct PinRow {
+    /// Pin number.
+    pub number: u32,
+    /// Data-sheet name.
+    pub name: String,
+    /// The pin name its arcs use.
+    pub group: String,
+    /// input, clock, enable, control, output, bidirectional, power or ground.
+    pub role: String,
+    /// The part's arcs this pin belongs to.
+    pub arcs: Vec<String>,
+}
+
+fn pin_sheet(lib: &Library, p: &super::model::Part) -> Option<PinSheet> {
+    let pinout = lib.pinout(&p.type_name)?;
+    Some(PinSheet {
+        package: pinout.package.clone(),
+        source: pinout.source.clone(),
+        status: pinout.status.words().to_string(),
+        pins: pinout
+            .pins
+            .iter()
+            .map(|pin| PinRow {
+                number: pin.number,
+                name: pin.name.clone(),
+                group: pin.group.clone(),
+                role: pin.role.word().to_string(),
+                arcs: super::pins::Pinout::arcs_of(p, &pin.group),
+            })
+            .collect(),
+    })
 }
 
 /// One arc with its rows.
@@ -155,6 +206,15 @@ pub fn sheet(lib: &Library, index: usize) -> PartSheet {
             .map(|&v| lib.parts[v].type_name.clone())
             .collect(),
         arcs,
-        variant_sheets: p.variants.iter().map(|&v| sheet(lib, v)).collect(),
+        pins: pin_sheet(lib, p),
+        // the variants share the generic type's pins: shown once, with it
+        variant_sheets: p
+            .variants
+            .iter()
+            .map(|&v| PartSheet {
+                pins: None,
+                ..sheet(lib, v)
+            })
+            .collect(),
     }
 }
