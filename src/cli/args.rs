@@ -394,6 +394,31 @@ pub struct SimModelArgs {
     /// Analog sample rate per rail, e.g. 1kHz (default 10 kHz).
     #[arg(long, value_parser = pos_freq)]
     pub analog_rate: Option<f64>,
+    /// How the virtual probe observes the clock: stamping (every edge stamped), counting
+    /// (count windows and level samples, as the ATmega328P reference at MHz rates) or extremes
+    /// (every cycle timed, each window's extremes and threshold counts sent).
+    #[arg(long, value_name = "CLASS", default_value = "stamping", value_parser = probe_class)]
+    pub probe_class: crate::sim::ProbeClass,
+    /// Window of a counting or extremes probe, e.g. 10ms (default 100 ms counting, 10 ms
+    /// extremes).
+    #[arg(long, value_parser = pos_time)]
+    pub window: Option<f64>,
+    /// Extremes probe: count the high times shorter than this, e.g. 120ns.
+    #[arg(long, value_parser = pos_time)]
+    pub high_threshold: Option<f64>,
+    /// Extremes probe: count the low times shorter than this, e.g. 120ns.
+    #[arg(long, value_parser = pos_time)]
+    pub low_threshold: Option<f64>,
+}
+
+/// A probe class by name.
+pub fn probe_class(s: &str) -> Parsed<crate::sim::ProbeClass> {
+    crate::sim::ProbeClass::parse(s).ok_or_else(|| {
+        format!(
+            "\"{s}\" is not a probe class: the classes are {}",
+            crate::sim::ProbeClass::NAMES.join(", ")
+        )
+    })
 }
 
 #[cfg(test)]

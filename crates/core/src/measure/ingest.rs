@@ -7,7 +7,8 @@
 //! another kind) is refused. Nothing here panics, whatever the probe sends.
 
 use firmware_protocol::{
-    Analog, CountWindow, Edges, FLAG_BURST_START, FLAG_LOST_BEFORE, Message, RawFrame, methods,
+    Analog, CountWindow, Edges, ExtremesWindow, FLAG_BURST_START, FLAG_LOST_BEFORE, Message,
+    RawFrame, Violations, methods,
 };
 
 use crate::probe::{AnalogScale, ChannelKind, ProbeDesc};
@@ -58,6 +59,58 @@ pub struct Count {
     pub samples_high: u32,
 }
 
+/// One window's extremes of every cycle of a clock channel (ticks; times on the engine's
+/// timeline).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Extremes {
+    /// Channel id.
+    pub channel: u8,
+    /// The probe flagged windows lost just before this one.
+    pub lost_before: bool,
+    /// Tick at which the window opened.
+    pub start_tick: u64,
+    /// Tick at which it closed (`start_tick` + its length).
+    pub end_tick: u64,
+    /// Cycles closed in it.
+    pub cycles: u32,
+    /// Shortest and longest high time.
+    pub high: (u32, u32),
+    /// Shortest and longest low time.
+    pub low: (u32, u32),
+    /// Shortest and longest period.
+    pub period: (u32, u32),
+    /// Sum of the high times.
+    pub high_sum: u64,
+    /// Sum of the low times.
+    pub low_sum: u64,
+}
+
+/// Most short phases a [`ThresholdCount`] carries.
+pub const MAX_SHORT_STAMPS: usize = 8;
+
+/// One window's count of cycles shorter than the probe's thresholds (ticks; engine timeline).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct ThresholdCount {
+    /// Channel id.
+    pub channel: u8,
+    /// Tick at which the window opened.
+    pub start_tick: u64,
+    /// Tick at which it closed.
+    pub end_tick: u64,
+    /// High-time threshold in force (0: off).
+    pub high_threshold: u32,
+    /// Low-time threshold in force (0: off).
+    pub low_threshold: u32,
+    /// Cycles whose high time was shorter.
+    pub high_short: u32,
+    /// Cycles whose low time was shorter.
+    pub low_short: u32,
+    /// The first short phases: (tick of the opening edge, length, high phase).
+    pub stamps: [(u64, u32, bool); MAX_SHORT_STAMPS],
+    /// How many of `stamps` are filled.
+    pub stamp_count: u8,
+}
+
 /// One validated step of the probe's stream. Ticks are on the engine's timeline: strictly
 /// increasing within a batch, and a channel's next batch starts after its last one unless a
 /// [`Event::Break`] comes first.
@@ -106,6 +159,10 @@ pub enum Event<'a> {
     },
     /// A count window.
     Count(Count),
+    /// One window's extremes of every cycle.
+    Extremes(Extremes),
+    /// One window's count of cycles shorter than the thresholds.
+    Thresholds(ThresholdCount),
     /// Samples of an analog channel, `interval_ticks` apart.
     Analog {
         /// Channel id.
@@ -204,6 +261,8 @@ impl Ingest {
             Message::Edges(e) => self.stamps(e, false, emit),
             Message::Lines(e) => self.stamps(e, true, emit),
             Message::Count(w) => self.count(w, emit),
+            Message::Extremes(x) => self.extremes(x, emit),
+            Message::Violations(v) => self.violations(v, emit),
             Message::Analog(a) => self.analog(a, emit),
             Message::Status(s) => emit(&Event::Status {
                 overflows: s.overflows,
@@ -373,6 +432,95 @@ impl Ingest {
         }));
     }
 
+    /// A window of a clock channel on the timeline: its start and end tick (None: it would run
+    /// past 2^64, and a break was emitted; or the channel is not a clock, and that was said).
+    fn window(
+        &mut self,
+        channel: u8,
+        start: u64,
+        ticks: u32,
+        emit: &mut impl FnMut(&Event<'_>),
+    ) -> Option<(u64, u64)> {
+        if !self.slots[usize::from(channel)].edge {
+            emit(&Event::Unknown {
+                channel,
+                lost_before: false,
+            });
+            return None;
+        }
+        self.settle(start);
+        let placed = self.offset.and_then(|off| {
+            let s = start.checked_add(off)?;
+            Some((s, s.checked_add(u64::from(ticks))?))
+        });
+        let Some((s, e)) = placed else {
+            emit(&Event::Break {
+                channel,
+                cause: BreakCause::Overflow,
+            });
+            return None;
+        };
+        self.newest = self.newest.max(e);
+        self.seen_data = true;
+        Some((s, e))
+    }
+
+    fn extremes(&mut self, x: &ExtremesWindow<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        let Some((start_tick, end_tick)) =
+            self.window(x.channel, x.start_tick, x.window_ticks, &mut emit)
+        else {
+            return;
+        };
+        let lost_before = x.flags & FLAG_LOST_BEFORE != 0;
+        if lost_before {
+            emit(&Event::Break {
+                channel: x.channel,
+                cause: BreakCause::Lost,
+            });
+        }
+        emit(&Event::Extremes(Extremes {
+            channel: x.channel,
+            lost_before,
+            start_tick,
+            end_tick,
+            cycles: x.cycles,
+            high: (x.high_min_ticks, x.high_max_ticks),
+            low: (x.low_min_ticks, x.low_max_ticks),
+            period: (x.period_min_ticks, x.period_max_ticks),
+            high_sum: x.high_sum_ticks,
+            low_sum: x.low_sum_ticks,
+        }));
+    }
+
+    fn violations(&mut self, v: &Violations<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        let Some((start_tick, end_tick)) =
+            self.window(v.channel, v.start_tick, v.window_ticks, &mut emit)
+        else {
+            return;
+        };
+        let off = start_tick - v.start_tick;
+        let mut stamps = [(0u64, 0u32, false); MAX_SHORT_STAMPS];
+        let mut n = 0u8;
+        for (slot, p) in stamps.iter_mut().zip(v.short_phases()) {
+            // a stamp the offset would carry past 2^64 is left out
+            if let Some(t) = p.tick.checked_add(off) {
+                *slot = (t, p.length_ticks, p.high);
+                n += 1;
+            }
+        }
+        emit(&Event::Thresholds(ThresholdCount {
+            channel: v.channel,
+            start_tick,
+            end_tick,
+            high_threshold: v.high_threshold_ticks,
+            low_threshold: v.low_threshold_ticks,
+            high_short: v.high_short,
+            low_short: v.low_short,
+            stamps,
+            stamp_count: n,
+        }));
+    }
+
     fn analog(&mut self, a: &Analog<'_>, mut emit: impl FnMut(&Event<'_>)) {
         let channel = a.channel;
         let lost_before = a.flags & FLAG_LOST_BEFORE != 0;
@@ -477,6 +625,7 @@ pub(super) fn hello_frame(out: &mut Vec<u8>, channels: &[firmware_protocol::Chan
     use firmware_protocol::{Channels, Hello, MAX_WIRE, encode_message};
     let m = Message::Hello(Hello {
         protocol_version: 1,
+        probe_class: 0,
         tick_num_hz: 125_000_000,
         tick_den: 1,
         timebase_ppm: 0,

@@ -319,8 +319,13 @@ pub fn trust_summary(snap: &Snapshot) -> String {
     let sampled: Vec<String> = snap
         .clocks
         .iter()
-        .filter(|c| c.observation != "continuous")
+        .filter(|c| !c.every_cycle_observed())
         .map(|c| match c.coverage {
+            Some(v) if c.observation == "window-extremes" => format!(
+                "{} timed on every cycle by the probe, but its windows of extremes cover {:.2} % of the time",
+                c.label,
+                v * 100.0
+            ),
             Some(v) if c.observation == "bursts" => {
                 format!(
                     "{} stamped in bursts, {:.2} % of its cycles",
@@ -332,6 +337,9 @@ pub fn trust_summary(snap: &Snapshot) -> String {
         })
         .collect();
     let mut out = match snap.completeness() {
+        "complete" if snap.clocks.iter().any(|c| c.observation == "window-extremes") => {
+            " — complete: every cycle observed (timed by the probe, its extremes sent per window), nothing lost".to_string()
+        }
         "complete" => " — complete: every cycle stamped, nothing lost".to_string(),
         "lost" => " — lost: data went missing, figures cover incomplete data".to_string(),
         _ => " — sampled: nothing lost, but not every cycle stamped".to_string(),

@@ -69,10 +69,12 @@ pub struct ClockSnapshot {
     /// Probe tick: the resolution of every single time, ns.
     pub resolution_ns: f64,
     /// How the cycles were observed: "continuous" (every edge stamped), "bursts" (stamped in
-    /// stretches: a burst-mode probe or a link that fell behind) or "count-windows".
+    /// stretches: a burst-mode probe or a link that fell behind), "count-windows" or
+    /// "window-extremes" (every cycle timed by the probe, its extremes sent per window).
     pub observation: String,
     /// Share of the elapsed cycles that were stamped (0…1); the worst-cycle figures are the
-    /// worst of these cycles only.
+    /// worst of these cycles only. Window extremes: the share of the elapsed time the windows
+    /// received cover (1.0 when every window arrived: every cycle was observed).
     pub coverage: Option<f64>,
     /// Edges seen.
     pub edges: u64,
@@ -177,6 +179,10 @@ pub struct ClockSnapshot {
     pub stalls: u64,
     /// Figures the probe cannot observe, and why.
     pub unavailable: Vec<Unavailable>,
+    /// The probe's threshold counts (a probe that counts the cycles shorter than thresholds
+    /// the host set; absent otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub violations: Option<super::extremes::ThresholdViolations>,
 }
 
 impl ClockSnapshot {
@@ -246,6 +252,7 @@ impl ClockSnapshot {
             glitches: 0,
             stalls: 0,
             unavailable: Vec::new(),
+            violations: None,
         }
     }
 
@@ -258,11 +265,23 @@ impl ClockSnapshot {
         }
     }
 
-    /// "N % of all" when not every cycle was stamped (None for a continuous stream).
+    /// "N % of all" when not every cycle was stamped (None for a continuous stream, and for
+    /// window extremes of which every window arrived).
     pub fn observed_share(&self) -> Option<String> {
         match self.coverage {
-            Some(c) if self.observation != "continuous" => Some(format!("{} of all", percent(c))),
+            Some(c) if !self.every_cycle_observed() => Some(format!("{} of all", percent(c))),
             _ => None,
+        }
+    }
+
+    /// Whether every cycle was observed: every edge stamped ("continuous"), or every cycle
+    /// timed by the probe and every window of its extremes received ("window-extremes" with a
+    /// coverage of 1).
+    pub fn every_cycle_observed(&self) -> bool {
+        match self.observation.as_str() {
+            "continuous" => true,
+            "window-extremes" => self.coverage.is_some_and(|c| c >= 1.0 - 1e-9),
+            _ => false,
         }
     }
 
