@@ -78,6 +78,7 @@ impl WindowSums {
 /// A counting or extremes probe's clock input.
 pub struct ClassInput {
     class: ProbeClass,
+    channel: u8,
     /// What the host set.
     pub settings: ClassSettings,
     level: Option<bool>,
@@ -100,10 +101,12 @@ fn clamp_u32(v: u64) -> u32 {
 }
 
 impl ClassInput {
-    /// The input of a probe of `class` with these settings; `seed` draws the level samples.
-    pub fn new(class: ProbeClass, settings: ClassSettings, seed: u64) -> ClassInput {
+    /// Channel `channel` of a probe of `class` with these settings; `seed` draws the level
+    /// samples.
+    pub fn new(class: ProbeClass, channel: u8, settings: ClassSettings, seed: u64) -> ClassInput {
         ClassInput {
             class,
+            channel,
             settings,
             level: None,
             last_rise: None,
@@ -256,7 +259,7 @@ impl ClassInput {
             ProbeClass::Counting => {
                 let counted = s.rises >= 2;
                 let m = Message::Count(CountWindow {
-                    channel: super::probe::CH_CLOCK,
+                    channel: self.channel,
                     method: methods::RECIPROCAL,
                     start_tick: if counted { s.first_rise } else { start },
                     gate_ticks: if counted {
@@ -281,7 +284,7 @@ impl ClassInput {
                 }
                 let (h, l, p) = (z(s.high), z(s.low), z(s.period));
                 let m = Message::Extremes(ExtremesWindow {
-                    channel: super::probe::CH_CLOCK,
+                    channel: self.channel,
                     flags,
                     start_tick: start,
                     window_ticks: w,
@@ -306,7 +309,7 @@ impl ClassInput {
                     let mut stamps = [0u8; STAMPS * 13];
                     let k = Violations::stamp_bytes(&self.stamps, &mut stamps);
                     let v = Message::Violations(Violations {
-                        channel: super::probe::CH_CLOCK,
+                        channel: self.channel,
                         flags,
                         start_tick: start,
                         window_ticks: w,

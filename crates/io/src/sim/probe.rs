@@ -121,6 +121,7 @@ impl SimProbe {
             let period = ticks(model.period_at_ns(0.0)).max(2);
             ClassInput::new(
                 class,
+                CH_CLOCK,
                 ClassSettings {
                     window_ticks: ticks(window_s * 1e9).max(1),
                     high_threshold: model.high_threshold_ns.map_or(0, ticks),

@@ -4,52 +4,14 @@
 //! threshold the host set). Accumulated per block; the worst cycles they give are the worst of
 //! every cycle, not of a sample.
 
-use serde::Serialize;
-
 use super::super::ingest::{Extremes, ThresholdCount};
 use super::acc::{ClockAcc, ShortRun};
 use super::config::K;
-use super::figures::ClockSnapshot;
+use super::figures::{ClockSnapshot, ShortPhaseEvent, ThresholdViolations};
 use super::state::ClockState;
 
 /// Short phases listed per session.
 const MAX_SHORT_EVENTS: usize = 200;
-
-/// One phase shorter than its threshold, as the probe stamped it.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
-pub struct ShortPhaseEvent {
-    /// When the phase began, s of probe time.
-    pub at_s: f64,
-    /// "high" or "low".
-    pub phase: &'static str,
-    /// Its length, ns (± one tick).
-    pub length_ns: f64,
-}
-
-/// The probe's threshold counts: every cycle whose high or low time was shorter than the
-/// threshold the host set, counted by the probe over the windows.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct ThresholdViolations {
-    /// High-time threshold in force, ns (None: not counted).
-    pub high_threshold_ns: Option<f64>,
-    /// Low-time threshold in force, ns (None: not counted).
-    pub low_threshold_ns: Option<f64>,
-    /// Cycles whose high time was shorter.
-    pub high_short: u64,
-    /// Cycles whose low time was shorter.
-    pub low_short: u64,
-    /// Windows counted.
-    pub windows: u64,
-    /// The first short phases the probe stamped (a few per window, at most 200).
-    pub first: Vec<ShortPhaseEvent>,
-}
-
-impl ThresholdViolations {
-    /// Short phases of either kind.
-    pub fn total(&self) -> u64 {
-        self.high_short + self.low_short
-    }
-}
 
 impl ClockState {
     /// One window's extremes (ticks on the engine timeline).

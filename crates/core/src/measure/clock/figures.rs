@@ -57,6 +57,42 @@ pub struct AllanPoint {
     pub terms: u64,
 }
 
+/// One phase shorter than its threshold, as the probe stamped it.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct ShortPhaseEvent {
+    /// When the phase began, s of probe time.
+    pub at_s: f64,
+    /// "high" or "low".
+    pub phase: &'static str,
+    /// Its length, ns (± one tick).
+    pub length_ns: f64,
+}
+
+/// The probe's threshold counts: every cycle whose high or low time was shorter than the
+/// threshold the host set, counted by the probe over the windows.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ThresholdViolations {
+    /// High-time threshold in force, ns (None: not counted).
+    pub high_threshold_ns: Option<f64>,
+    /// Low-time threshold in force, ns (None: not counted).
+    pub low_threshold_ns: Option<f64>,
+    /// Cycles whose high time was shorter.
+    pub high_short: u64,
+    /// Cycles whose low time was shorter.
+    pub low_short: u64,
+    /// Windows counted.
+    pub windows: u64,
+    /// The first short phases the probe stamped (a few per window, at most 200).
+    pub first: Vec<ShortPhaseEvent>,
+}
+
+impl ThresholdViolations {
+    /// Short phases of either kind.
+    pub fn total(&self) -> u64 {
+        self.high_short + self.low_short
+    }
+}
+
 /// The measured clock of one channel. Uncertainties are expanded (k = 2.5).
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ClockSnapshot {
@@ -182,7 +218,7 @@ pub struct ClockSnapshot {
     /// The probe's threshold counts (a probe that counts the cycles shorter than thresholds
     /// the host set; absent otherwise).
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub violations: Option<super::extremes::ThresholdViolations>,
+    pub violations: Option<ThresholdViolations>,
 }
 
 impl ClockSnapshot {

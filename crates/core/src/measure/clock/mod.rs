@@ -23,8 +23,10 @@ mod walk;
 pub use acc::ClockAcc;
 pub(crate) use acc::ShortRun;
 pub use config::{ClockConfig, K};
-pub use extremes::{ShortPhaseEvent, ThresholdViolations};
-pub use figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles, Unavailable};
+pub use figures::{
+    AllanPoint, ClockSnapshot, NCycle, Percentiles, ShortPhaseEvent, ThresholdViolations,
+    Unavailable,
+};
 pub use snapshot::snapshot;
 pub use state::{ClockState, Glitch, Stall};
 pub use tie::detrended;

@@ -99,7 +99,7 @@ pub struct ClockState {
     /// Recent stalls.
     pub(crate) stall_events: Vec<Stall>,
     /// The first short phases a threshold-counting probe stamped.
-    pub(crate) short_events: Vec<super::extremes::ShortPhaseEvent>,
+    pub(crate) short_events: Vec<super::figures::ShortPhaseEvent>,
     pub(super) scratch: Box<Scratch>,
 }
 
