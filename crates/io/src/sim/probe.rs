@@ -702,6 +702,67 @@ mod tests {
         assert!(f.iter().any(|(t, _)| *t == types::ANALOG));
     }
 
+    /// An extremes probe takes its thresholds and window from the host's CONFIGURE and sends
+    /// one VIOLATIONS per window after its EXTREMES; a stamping probe refuses them.
+    #[test]
+    fn an_extremes_probe_takes_its_thresholds_from_the_host() {
+        let mut m = BenchModel::scenario("steady").unwrap();
+        m.probe_class = ProbeClass::Extremes;
+        let mut p = SimProbe::new(m.clone(), vec![]);
+        let mut wire = [0u8; MAX_WIRE];
+        let mut host = Vec::new();
+        for (seq, param, value) in [
+            (0u16, params::HIGH_THRESHOLD_TICKS, 20u32),
+            (1, params::WINDOW_TICKS, 250_000),
+            (2, params::EDGE_MODE, 3),
+        ] {
+            let c = Message::Configure(proto::Configure {
+                channel: CH_CLOCK,
+                param,
+                value,
+            });
+            let n = proto::encode_message(&c, seq, &mut wire).unwrap();
+            host.extend_from_slice(&wire[..n]);
+        }
+        p.output().clear();
+        p.handle_host(&host);
+        p.start();
+        p.run_until(20e6);
+        p.flush_all();
+        let f = frames(&std::mem::take(p.output()));
+        let n_of = |t| f.iter().filter(|(ty, _)| *ty == t).count();
+        assert_eq!(n_of(types::ACK), 3);
+        // 20 ms in windows of 250 000 ticks (2 ms at 8 ns)
+        assert_eq!(n_of(types::EXTREMES), 10);
+        assert_eq!(n_of(types::VIOLATIONS), 10);
+        assert_eq!(n_of(types::EDGES), 0);
+        let v = f.iter().find(|(t, _)| *t == types::VIOLATIONS).unwrap();
+        let rf = proto::RawFrame {
+            header: proto::Header {
+                version: 1,
+                msg_type: types::VIOLATIONS,
+                seq: 0,
+            },
+            body: &v.1,
+            lost_before: 0,
+        };
+        let Message::Violations(v) = Message::decode(&rf).unwrap() else {
+            panic!()
+        };
+        assert_eq!((v.high_threshold_ticks, v.low_threshold_ticks), (20, 0));
+        assert_eq!(v.window_ticks, 250_000);
+        // a stamping probe has no thresholds
+        let mut s = SimProbe::new(BenchModel::scenario("steady").unwrap(), vec![]);
+        assert_eq!(
+            s.configure(CH_CLOCK, params::HIGH_THRESHOLD_TICKS, 20).0,
+            results::BAD_PARAM
+        );
+        assert_eq!(
+            s.configure(CH_CLOCK, params::EDGE_MODE, 3).0,
+            results::BAD_VALUE
+        );
+    }
+
     #[test]
     fn commands_are_acknowledged() {
         let mut p = SimProbe::new(BenchModel::scenario("steady").unwrap(), vec![]);
