@@ -280,9 +280,39 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
         );
     }
     let _ = writeln!(out, "  glitches      {}   stalls {}", c.glitches, c.stalls);
+    if let Some(v) = &c.violations {
+        let _ = writeln!(out, "  short phases  {}", violations_text(v));
+    }
     for u in &c.unavailable {
         let _ = writeln!(out, "  {}: unavailable — {}", u.figure, u.reason);
     }
+}
+
+/// The probe's threshold counts in words: "3 high times below 120.0 ns, 0 low times below
+/// 120.0 ns over 300 windows, the first a high phase of 16.00 ns at 0.030277 s".
+pub fn violations_text(v: &slackmeter_core::measure::clock::ThresholdViolations) -> String {
+    let part = |n: u64, what: &str, t: Option<f64>| match t {
+        Some(t) => format!(
+            "{n} {what} time{} below {}",
+            if n == 1 { "" } else { "s" },
+            ns(t)
+        ),
+        None => format!("{what} times not counted"),
+    };
+    let first = v.first.first().map_or(String::new(), |e| {
+        format!(
+            ", the first a {} phase of {} at {:.6} s",
+            e.phase,
+            ns(e.length_ns),
+            e.at_s
+        )
+    });
+    format!(
+        "{}, {} over {} windows (counted by the probe){first}",
+        part(v.high_short, "high", v.high_threshold_ns),
+        part(v.low_short, "low", v.low_threshold_ns),
+        v.windows
+    )
 }
 
 /// What the figures stand on: *complete* (every cycle stamped, nothing lost), *sampled* (the
