@@ -332,20 +332,6 @@ pub fn bins(buckets: &[(f64, u64)], n: usize) -> Vec<(f64, f64)> {
         .collect()
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn bins_keep_every_cycle() {
-        let b: Vec<(f64, u64)> = (0..100).map(|i| (f64::from(i) * 8.0, 2)).collect();
-        let merged = bins(&b, 10);
-        assert_eq!(merged.len(), 10);
-        assert_eq!(merged.iter().map(|x| x.1).sum::<f64>(), 200.0);
-        assert_eq!(bins(&b[..3], 10), vec![(0.0, 2.0), (8.0, 2.0), (16.0, 2.0)]);
-    }
-}
-
 /// One line of a chart: its legend name, marker, colour (unless colour is off) and points.
 fn line<'a>(
     app: &App,
@@ -360,4 +346,18 @@ fn line<'a>(
         .marker(marker)
         .style(st(app, colour))
         .data(data)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn bins_keep_every_cycle() {
+        let b: Vec<(f64, u64)> = (0..100).map(|i| (f64::from(i) * 8.0, 2)).collect();
+        let merged = bins(&b, 10);
+        assert_eq!(merged.len(), 10);
+        assert_eq!(merged.iter().map(|x| x.1).sum::<f64>(), 200.0);
+        assert_eq!(bins(&b[..3], 10), vec![(0.0, 2.0), (8.0, 2.0), (16.0, 2.0)]);
+    }
 }
