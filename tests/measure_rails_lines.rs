@@ -214,6 +214,7 @@ fn arbitrary_probe_messages_never_panic_the_engine() {
             let m = match pick {
                 0 => Message::Hello(Hello {
                     protocol_version: 1,
+                    probe_class: 0,
                     tick_num_hz: 1 + rnd(u64::MAX / 2),
                     tick_den: 1 + rnd(1000) as u32,
                     timebase_ppm: 50,

@@ -82,12 +82,12 @@ fn run_until(s: &mut Session, secs: u64, mut done: impl FnMut(&Session, &Event) 
 fn a_recording_started_mid_session_reports_its_clock_and_rails() {
     let dir = tmpdir("sim");
     let spec = || {
-        SourceSpec::Sim(SimSpec {
+        SourceSpec::Sim(Box::new(SimSpec {
             model: BenchModel::scenario("steady").unwrap(),
             notes: vec![],
             pace: Pace::Fast,
             duration_ns: Some(3e9),
-        })
+        }))
     };
     let header = || session::header("virtual probe", vec![], None, None);
     // from the start

@@ -15,8 +15,8 @@ pub use frame::{
 };
 pub use message::{
     Ack, Analog, BodyError, Channel, ChannelKind, Channels, Configure, CountWindow, DecodeError,
-    EdgeBatch, EdgeWriter, Edges, FLAG_BURST_START, FLAG_LOST_BEFORE, Hello, Log, Message, Status,
-    caps, methods, params, results, roles, types,
+    EdgeBatch, EdgeWriter, Edges, ExtremesWindow, FLAG_BURST_START, FLAG_LOST_BEFORE, Hello, Log,
+    Message, ShortPhase, Status, Violations, caps, classes, methods, params, results, roles, types,
 };
 
 /// Encode a whole message as one wire frame into `out` (needs at most [`MAX_WIRE`] bytes).

@@ -173,6 +173,7 @@ fn deliver(frames: &[Vec<u8>]) -> (Vec<u16>, Counters) {
 fn hello_frame(seq: u16) -> Vec<u8> {
     let hello = Message::Hello(Hello {
         protocol_version: 1,
+        probe_class: 0,
         tick_num_hz: 1,
         tick_den: 1,
         timebase_ppm: 0,

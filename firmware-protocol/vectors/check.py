@@ -57,8 +57,13 @@ def main(path):
             count = int.from_bytes(body[2:4], "little")
             first, step = int.from_bytes(body[4:12], "little"), int.from_bytes(body[12:16], "little")
             last_tick = first + max(count - 1, 0) * step
-        elif frame[1] == 0x03:  # COUNT: the window ends gate_ticks after start_tick
+        elif frame[1] in (0x03, 0x09, 0x0A):  # COUNT, EXTREMES, VIOLATIONS: start + length
             last_tick = int.from_bytes(body[2:10], "little") + int.from_bytes(body[10:14], "little")
+        if frame[1] == 0x09 and kv.get("reject") != "tick-overflow":  # EXTREMES: bins add up
+            cycles, nbins = int.from_bytes(body[14:18], "little"), body[66]
+            bins = [int.from_bytes(body[67 + 4 * i:71 + 4 * i], "little") for i in range(nbins)]
+            assert len(body) == 67 + 4 * nbins, kv["name"]
+            assert (sum(bins) == cycles or nbins == 0) == (kv.get("reject") != "bad-field"), kv["name"]
         wraps = last_tick is not None and last_tick >= 1 << 64
         # a vector marked "reject tick-overflow" must wrap, and no other may
         assert wraps == (kv.get("reject") == "tick-overflow"), (kv["name"], last_tick)
@@ -72,4 +77,5 @@ def main(path):
     print(f"{n} vectors ok")
 
 if __name__ == "__main__":
-    main(sys.argv[1])
+    for path in sys.argv[1:]:
+        main(path)

@@ -164,6 +164,7 @@ pub fn engine_feed(data: &[u8]) {
                     .collect();
                 let hello = Message::Hello(Hello {
                     protocol_version: proto::VERSION,
+                    probe_class: 0,
                     tick_num_hz: u64::from(t.u32()),
                     tick_den: u32::from(t.u8()),
                     timebase_ppm: t.u16(),

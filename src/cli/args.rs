@@ -194,7 +194,7 @@ pub fn rail(s: &str) -> Parsed<RailModel> {
 }
 
 /// Settings a probe takes with CONFIGURE (PROTOCOL.md §5.8), by the names `--set` uses.
-const SETTINGS: [(&str, u8); 8] = [
+const SETTINGS: [(&str, u8); 11] = [
     ("enable", params::ENABLE),
     ("edge-mode", params::EDGE_MODE),
     ("gate", params::GATE_TICKS),
@@ -203,6 +203,9 @@ const SETTINGS: [(&str, u8); 8] = [
     ("cal-scale", params::CAL_SCALE_NUM_UV),
     ("cal-offset", params::CAL_OFFSET_UV),
     ("status-interval", params::STATUS_INTERVAL_MS),
+    ("high-threshold", params::HIGH_THRESHOLD_TICKS),
+    ("low-threshold", params::LOW_THRESHOLD_TICKS),
+    ("window", params::WINDOW_TICKS),
 ];
 
 /// `CHANNEL:NAME=VALUE` (channel a number, a label from the probe's HELLO such as `CLK`, or
@@ -241,6 +244,7 @@ pub fn probe_setting(s: &str) -> Parsed<Setting> {
         ("edge-mode", "timestamps") => 0,
         ("edge-mode", "count") => 1,
         ("edge-mode", "both") => 2,
+        ("edge-mode", "extremes") => 3,
         ("enable", "on") => 1,
         ("enable", "off") => 0,
         ("cal-offset", _) => v
@@ -249,9 +253,11 @@ pub fn probe_setting(s: &str) -> Parsed<Setting> {
             .map_err(|_| format!("{v:?} is not a whole number of µV for cal-offset"))?,
         (n, _) => v.parse::<u32>().map_err(|_| {
             let hint = match n {
-                "edge-mode" => " (timestamps, count or both)",
+                "edge-mode" => " (timestamps, count, both or extremes)",
                 "enable" => " (on or off)",
-                "gate" | "sample-interval" => " (in the probe's ticks)",
+                "gate" | "sample-interval" | "high-threshold" | "low-threshold" | "window" => {
+                    " (in the probe's ticks)"
+                }
                 "status-interval" => " (in ms)",
                 _ => "",
             };
@@ -274,8 +280,9 @@ pub struct PortArgs {
     pub baud: u32,
     /// A probe setting sent before streaming starts, CHANNEL:NAME=VALUE (repeatable; CHANNEL an
     /// id, a label such as CLK, or `probe` for all): enable, edge-mode (timestamps, count,
-    /// both), gate and sample-interval (probe ticks), duty-samples, cal-scale, cal-offset (µV),
-    /// status-interval (ms).
+    /// both, extremes), gate and sample-interval (probe ticks), duty-samples, cal-scale,
+    /// cal-offset (µV), status-interval (ms), high-threshold, low-threshold and window (probe
+    /// ticks; an extremes probe).
     #[arg(long = "set", value_name = "CH:NAME=VALUE", value_parser = probe_setting)]
     pub settings: Vec<Setting>,
 }
@@ -408,6 +415,31 @@ pub struct SimModelArgs {
     /// Analog sample rate per rail, e.g. 1kHz (default 10 kHz).
     #[arg(long, value_parser = pos_freq)]
     pub analog_rate: Option<f64>,
+    /// How the virtual probe observes the clock: stamping (every edge stamped), counting
+    /// (count windows and level samples, as the ATmega328P reference at MHz rates) or extremes
+    /// (every cycle timed, each window's extremes and threshold counts sent).
+    #[arg(long, value_name = "CLASS", default_value = "stamping", value_parser = probe_class)]
+    pub probe_class: crate::sim::ProbeClass,
+    /// Window of a counting or extremes probe, e.g. 10ms (default 100 ms counting, 10 ms
+    /// extremes).
+    #[arg(long, value_parser = pos_time)]
+    pub window: Option<f64>,
+    /// Extremes probe: count the high times shorter than this, e.g. 120ns.
+    #[arg(long, value_parser = pos_time)]
+    pub high_threshold: Option<f64>,
+    /// Extremes probe: count the low times shorter than this, e.g. 120ns.
+    #[arg(long, value_parser = pos_time)]
+    pub low_threshold: Option<f64>,
+}
+
+/// A probe class by name.
+pub fn probe_class(s: &str) -> Parsed<crate::sim::ProbeClass> {
+    crate::sim::ProbeClass::parse(s).ok_or_else(|| {
+        format!(
+            "\"{s}\" is not a probe class: the classes are {}",
+            crate::sim::ProbeClass::NAMES.join(", ")
+        )
+    })
 }
 
 #[cfg(test)]
@@ -439,6 +471,10 @@ mod tests {
         );
         let c = probe_setting("9:cal-offset=-1500").unwrap();
         assert_eq!((c.param, c.value as i32), (params::CAL_OFFSET_UV, -1500));
+        let c = probe_setting("CLK:low-threshold=15").unwrap();
+        assert_eq!((c.param, c.value), (params::LOW_THRESHOLD_TICKS, 15));
+        let c = probe_setting("0:edge-mode=extremes").unwrap();
+        assert_eq!((c.param, c.value), (params::EDGE_MODE, 3));
         let c = probe_setting("2:enable=off").unwrap();
         assert_eq!((c.param, c.value), (params::ENABLE, 0));
     }
@@ -453,7 +489,8 @@ mod tests {
             (":gate=1", "no channel"),
             ("0:speed=1", "the settings are: enable, edge-mode"),
             ("0:gate=1ms", "in the probe's ticks"),
-            ("0:edge-mode=fast", "timestamps, count or both"),
+            ("0:edge-mode=fast", "timestamps, count, both or extremes"),
+            ("CLK:high-threshold=90ns", "in the probe's ticks"),
             ("8:cal-offset=1.5", "whole number of µV"),
         ] {
             let e = probe_setting(s).unwrap_err();

@@ -73,7 +73,8 @@ Example: slackmeter power --freq 4MHz --activity 0.3 --json"
     #[command(
         after_help = "Examples:\n  slackmeter sim --pty\n  slackmeter sim --scenario sagging --pty --link /tmp/probe\n  \
 slackmeter sim --freq 1.5MHz --duty 30% --jitter 2ns --tick 8ns --rail VCC=4.9V,ripple=20mV --out run.bin --duration 5s\n  \
-slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --pty"
+slackmeter sim --scenario sweep --sweep 1MHz..6MHz --over 30s --fault-on-typ --pty\n  \
+slackmeter sim --probe-class extremes --freq 8MHz --high-threshold 50ns --low-threshold 50ns --pty"
     )]
     #[command(mut_arg("design", |a| a.help(
         "Design whose typical timing --fault-on-typ fails by (the built-in demo design by default)"

@@ -74,6 +74,10 @@ pub fn build_model(a: &SimModelArgs, design: &Design, lib: &Library) -> CliResul
     if let Some(r) = a.reset_every {
         m.reset_interval_s = Some(r * 1e-9);
     }
+    m.probe_class = a.probe_class;
+    m.window_s = a.window.map(|ns| ns * 1e-9);
+    m.high_threshold_ns = a.high_threshold;
+    m.low_threshold_ns = a.low_threshold;
     if let Some((n, every_ns)) = a.bursts {
         m.burst_edges = Some(n);
         m.burst_every_s = every_ns * 1e-9;

@@ -86,7 +86,7 @@ fn source(a: &RecordArgs) -> CliResult<(SourceSpec, Header)> {
             pace: if a.fast { Pace::Fast } else { Pace::RealTime },
             duration_ns: a.duration,
         };
-        return Ok((SourceSpec::Sim(spec), header));
+        return Ok((SourceSpec::Sim(Box::new(spec)), header));
     };
     let stored = a.design.given(&lib)?.as_ref().map(embedded);
     let what = format!("probe on {}", port.display());

@@ -271,6 +271,8 @@ pub fn run(a: ReportArgs) -> CliResult<Outcome> {
             "recording_s": (!sum.stopped_at_to).then_some(sum.duration_s),
             "words": window,
         });
+        // the class the probe stated in its HELLO, beside how each clock was observed
+        v["probe_class"] = serde_json::json!(snap.probe.as_ref().map(|p| p.probe_class));
         if let Some(m) = &margin {
             v["margin"] = serde_json::to_value(m)?;
         }

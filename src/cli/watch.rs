@@ -69,7 +69,7 @@ pub fn run(a: WatchArgs) -> CliResult<Outcome> {
                 pace: Pace::RealTime,
                 duration_ns: None,
             };
-            (SourceSpec::Sim(spec), "virtual probe".to_string())
+            (SourceSpec::Sim(Box::new(spec)), "virtual probe".to_string())
         }
     };
     let design = (!a.no_design).then_some(design);

@@ -127,7 +127,7 @@ impl Session {
             }
             SourceSpec::Sim(spec) => {
                 fast = spec.pace == Pace::Fast;
-                (Feeder::sim(spec, t0_ns), Origin::Sim)
+                (Feeder::sim(*spec, t0_ns), Origin::Sim)
             }
             SourceSpec::Replay { path, speed } => {
                 let (f, ctl) = Feeder::replay(&path, speed)?;

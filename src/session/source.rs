@@ -261,8 +261,8 @@ fn run_replay(
 pub enum SourceSpec {
     /// A probe on a serial port.
     Port(crate::link::LinkConfig),
-    /// The virtual probe, in process.
-    Sim(SimSpec),
+    /// The virtual probe, in process (boxed: its bench model is large).
+    Sim(Box<SimSpec>),
     /// A recording, paced at real time × speed.
     Replay {
         /// The file.

@@ -682,6 +682,7 @@ mod tests {
         let probe = ProbeDesc {
             firmware: "fw".into(),
             protocol_version: 1,
+            probe_class: "stamping",
             tick_num_hz: 1,
             tick_den: 1,
             tick_ns: 1.0,

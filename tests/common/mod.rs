@@ -7,6 +7,7 @@ use firmware_protocol::*;
 pub fn hello_wire(chans: &[Channel<'_>], tick_num_hz: u64, tick_den: u32) -> Vec<u8> {
     let h = Message::Hello(Hello {
         protocol_version: 1,
+        probe_class: 0,
         tick_num_hz,
         tick_den,
         timebase_ppm: 0,

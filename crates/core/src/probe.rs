@@ -138,6 +138,9 @@ pub struct ProbeDesc {
     pub firmware: String,
     /// Protocol version it speaks.
     pub protocol_version: u8,
+    /// How it observes its clock inputs, as its HELLO states: "stamping", "counting",
+    /// "extremes", or "unstated" (a probe written before classes existed).
+    pub probe_class: &'static str,
     /// Tick rate numerator, Hz.
     pub tick_num_hz: u64,
     /// Tick rate denominator.
@@ -158,6 +161,7 @@ impl ProbeDesc {
         ProbeDesc {
             firmware: h.firmware.to_string(),
             protocol_version: h.protocol_version,
+            probe_class: proto::classes::word(h.probe_class).unwrap_or("unstated"),
             tick_num_hz: h.tick_num_hz,
             tick_den: h.tick_den,
             tick_ns: tick_ns(h.tick_num_hz, h.tick_den),
@@ -230,6 +234,7 @@ mod tests {
         ];
         let h = proto::Hello {
             protocol_version: 1,
+            probe_class: 0,
             tick_num_hz: 16_000_000,
             tick_den: 1,
             timebase_ppm: 50,

@@ -19,6 +19,10 @@ pub mod types {
     pub const ACK: u8 = 0x07;
     /// Free text from the probe.
     pub const LOG: u8 = 0x08;
+    /// One window's extremes of every cycle of a clock channel.
+    pub const EXTREMES: u8 = 0x09;
+    /// One window's count of cycles shorter than the host's thresholds.
+    pub const VIOLATIONS: u8 = 0x0A;
     /// Host asks for HELLO.
     pub const DESCRIBE: u8 = 0x41;
     /// Host starts streaming.
@@ -63,6 +67,33 @@ pub mod caps {
     pub const COUNT_WINDOWS: u8 = 2;
     /// Samples the level at pseudo-random times (COUNT `samples`/`samples_high`).
     pub const LEVEL_SAMPLING: u8 = 4;
+    /// Times every cycle and reports per window (EXTREMES).
+    pub const WINDOW_EXTREMES: u8 = 8;
+    /// Counts the cycles shorter than the host's thresholds (VIOLATIONS).
+    pub const THRESHOLD_COUNTS: u8 = 16;
+}
+
+/// Probe classes (HELLO byte 1): how the probe observes its clock inputs.
+pub mod classes {
+    /// Not stated (a probe written before classes existed): the capability bits tell.
+    pub const UNSTATED: u8 = 0;
+    /// Stamps edges (every edge, or in flagged bursts): EDGES.
+    pub const STAMPING: u8 = 1;
+    /// Counts edges over windows, with level samples: COUNT.
+    pub const COUNTING: u8 = 2;
+    /// Times every cycle and reports each window's extremes and threshold counts: EXTREMES,
+    /// VIOLATIONS (and EDGES where the link allows).
+    pub const EXTREMES: u8 = 3;
+    /// The class's word (as reports show it), None for a value no class has.
+    pub fn word(class: u8) -> Option<&'static str> {
+        match class {
+            UNSTATED => Some("unstated"),
+            STAMPING => Some("stamping"),
+            COUNTING => Some("counting"),
+            EXTREMES => Some("extremes"),
+            _ => None,
+        }
+    }
 }
 
 /// Line roles (HELLO `info` byte of a line channel; any other value is a line of no role).
@@ -107,7 +138,7 @@ pub mod results {
 pub mod params {
     /// Channel on (1) or off (0).
     pub const ENABLE: u8 = 1;
-    /// Edge channel mode: 0 timestamps, 1 count windows, 2 both.
+    /// Edge channel mode: 0 timestamps, 1 count windows, 2 both, 3 window extremes.
     pub const EDGE_MODE: u8 = 2;
     /// Count-window gate length in ticks.
     pub const GATE_TICKS: u8 = 3;
@@ -121,6 +152,12 @@ pub mod params {
     pub const CAL_OFFSET_UV: u8 = 7;
     /// Status message interval in ms (probe-wide, channel 0xFF).
     pub const STATUS_INTERVAL_MS: u8 = 8;
+    /// Shortest high time not counted as a violation, ticks (0: off).
+    pub const HIGH_THRESHOLD_TICKS: u8 = 9;
+    /// Shortest low time not counted as a violation, ticks (0: off).
+    pub const LOW_THRESHOLD_TICKS: u8 = 10;
+    /// Window length of EXTREMES and VIOLATIONS, ticks.
+    pub const WINDOW_TICKS: u8 = 11;
     /// Channel id meaning "the whole probe".
     pub const PROBE: u8 = 0xFF;
 }
@@ -141,3 +178,7 @@ pub(crate) const MAX_CHANNELS: usize = 16;
 pub const MAX_LOG: usize = 200;
 /// Largest encoded delta.
 pub(crate) const MAX_DELTA_BYTES: usize = 9;
+/// Most bins in an EXTREMES histogram.
+pub(crate) const MAX_BINS: usize = 16;
+/// Most short phases stamped in one VIOLATIONS message.
+pub(crate) const MAX_VIOLATION_STAMPS: usize = 8;

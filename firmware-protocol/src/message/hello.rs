@@ -145,6 +145,8 @@ impl<'a> Iterator for ChannelIter<'a> {
 pub struct Hello<'a> {
     /// Protocol version the probe implements.
     pub protocol_version: u8,
+    /// How the probe observes its clock inputs ([`classes`](super::classes); 0: not stated).
+    pub probe_class: u8,
     /// Tick rate numerator: tick rate = tick_num_hz / tick_den Hz.
     pub tick_num_hz: u64,
     /// Tick rate denominator (≥ 1).
@@ -163,7 +165,10 @@ impl<'a> Hello<'a> {
     /// The body's fields, its channel descriptors checked one by one and kept as bytes.
     pub(super) fn read(r: &mut Reader<'a>) -> Result<Hello<'a>, DecodeError> {
         let protocol_version = r.u8()?;
-        let _flags = r.u8()?;
+        let probe_class = r.u8()?;
+        if probe_class > super::classes::EXTREMES {
+            return Err(DecodeError::BadField("probe class"));
+        }
         let tick_num_hz = r.u64()?;
         let tick_den = r.u32()?;
         validate::tick_rate(tick_num_hz, tick_den).map_err(DecodeError::BadField)?;
@@ -179,6 +184,7 @@ impl<'a> Hello<'a> {
         let used = start.len() - r.buf.len();
         Ok(Hello {
             protocol_version,
+            probe_class,
             tick_num_hz,
             tick_den,
             timebase_ppm,
@@ -190,7 +196,10 @@ impl<'a> Hello<'a> {
 
     pub(super) fn write(&self, w: &mut Writer<'_>) -> Result<(), BodyError> {
         w.u8(self.protocol_version)?;
-        w.u8(0)?;
+        if self.probe_class > super::classes::EXTREMES {
+            return Err(BodyError::BadField("probe class"));
+        }
+        w.u8(self.probe_class)?;
         validate::tick_rate(self.tick_num_hz, self.tick_den).map_err(BodyError::BadField)?;
         w.u64(self.tick_num_hz)?;
         w.u32(self.tick_den)?;

@@ -11,18 +11,20 @@ mod codes;
 mod control;
 mod edges;
 mod error;
+mod extremes;
 mod hello;
 mod samples;
 mod validate;
 mod wire;
 
 pub use codes::{
-    ChannelKind, FLAG_BURST_START, FLAG_LOST_BEFORE, MAX_LOG, caps, methods, params, results,
-    roles, types,
+    ChannelKind, FLAG_BURST_START, FLAG_LOST_BEFORE, MAX_LOG, caps, classes, methods, params,
+    results, roles, types,
 };
 pub use control::{Ack, Configure, Log, Status};
 pub use edges::{EdgeBatch, EdgeWriter, Edges, Ticks};
 pub use error::{BodyError, DecodeError};
+pub use extremes::{ExtremesWindow, ShortPhase, Violations};
 pub use hello::{Channel, ChannelIter, Channels, Hello};
 pub use samples::{Analog, CountWindow};
 
@@ -49,6 +51,10 @@ pub enum Message<'a> {
     Ack(Ack),
     /// Probe log text.
     Log(Log<'a>),
+    /// One window's extremes of every cycle.
+    Extremes(ExtremesWindow<'a>),
+    /// One window's cycles shorter than the host's thresholds.
+    Violations(Violations<'a>),
     /// Host asks for HELLO.
     Describe,
     /// Host starts streaming.
@@ -74,6 +80,8 @@ impl<'a> Message<'a> {
             Message::Status(_) => STATUS,
             Message::Ack(_) => ACK,
             Message::Log(_) => LOG,
+            Message::Extremes(_) => EXTREMES,
+            Message::Violations(_) => VIOLATIONS,
             Message::Describe => DESCRIBE,
             Message::Start => START,
             Message::Stop => STOP,
@@ -101,6 +109,8 @@ impl<'a> Message<'a> {
             STATUS => Message::Status(Status::read(&mut r)?),
             ACK => Message::Ack(Ack::read(&mut r)?),
             LOG => Message::Log(Log::read(&mut r)?),
+            EXTREMES => Message::Extremes(ExtremesWindow::read(&mut r)?),
+            VIOLATIONS => Message::Violations(Violations::read(&mut r)?),
             DESCRIBE => Message::Describe,
             START => Message::Start,
             STOP => Message::Stop,
@@ -123,6 +133,8 @@ impl<'a> Message<'a> {
             Message::Status(s) => s.write(&mut w)?,
             Message::Ack(a) => a.write(&mut w)?,
             Message::Log(l) => l.write(&mut w)?,
+            Message::Extremes(x) => x.write(&mut w)?,
+            Message::Violations(v) => v.write(&mut w)?,
             Message::Describe | Message::Start | Message::Stop => {}
             Message::Configure(c) => c.write(&mut w)?,
             Message::Ping(n) => w.u32(*n)?,
@@ -170,6 +182,7 @@ mod tests {
         ];
         round_trip(Message::Hello(Hello {
             protocol_version: 1,
+            probe_class: classes::EXTREMES,
             tick_num_hz: 125_000_000,
             tick_den: 1,
             timebase_ppm: 50,
@@ -207,6 +220,52 @@ mod tests {
             value: 1000,
         }));
         round_trip(Message::Ping(0xDEAD_BEEF));
+        let bins: [u8; 8] = [3, 0, 0, 0, 1, 0, 0, 0];
+        round_trip(Message::Extremes(ExtremesWindow {
+            channel: 0,
+            flags: 1,
+            start_tick: 1 << 33,
+            window_ticks: 1_250_000,
+            cycles: 4,
+            high_min_ticks: 30,
+            high_max_ticks: 33,
+            low_min_ticks: 29,
+            low_max_ticks: 40,
+            period_min_ticks: 60,
+            period_max_ticks: 72,
+            high_sum_ticks: 125,
+            low_sum_ticks: 130,
+            bin_origin_ticks: 56,
+            bin_width_ticks: 8,
+            bins: &bins,
+        }));
+        let mut stamps = [0u8; 26];
+        let n = Violations::stamp_bytes(
+            &[
+                ShortPhase {
+                    tick: 99,
+                    length_ticks: 3,
+                    high: true,
+                },
+                ShortPhase {
+                    tick: 400,
+                    length_ticks: 20,
+                    high: false,
+                },
+            ],
+            &mut stamps,
+        );
+        round_trip(Message::Violations(Violations {
+            channel: 0,
+            flags: 0,
+            start_tick: 0,
+            window_ticks: 1000,
+            high_threshold_ticks: 25,
+            low_threshold_ticks: 25,
+            high_short: 1,
+            low_short: 7,
+            stamps: &stamps[..n],
+        }));
         round_trip(Message::Describe);
         round_trip(Message::Start);
         round_trip(Message::Stop);

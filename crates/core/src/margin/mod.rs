@@ -49,7 +49,11 @@ fn session_phases(
     };
     Ok(match (c.low_min_ns, c.high_min_ns, c.period_min_ns) {
         (Some(l), Some(h), Some(p)) => {
-            notes.push("measured worst cycles: the shortest low time, high time and period of the window (± one tick)".into());
+            if c.observation == "window-extremes" && c.every_cycle_observed() {
+                notes.push(format!("every cycle observed: the probe timed all {} cycles and sent each window's extremes, so the worst cycle is the true worst cycle (± one tick)", c.cycles));
+            } else {
+                notes.push("measured worst cycles: the shortest low time, high time and period of the window (± one tick)".into());
+            }
             (
                 Measured {
                     low_ns: l,

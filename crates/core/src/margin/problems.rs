@@ -24,6 +24,8 @@ pub enum ProblemKind {
     RailBelowMinimum,
     /// The worst cycles are the worst of a share of the cycles only.
     SampledCoverage,
+    /// The probe counted cycles whose phase was shorter than the thresholds the host set.
+    ThresholdViolations,
     /// Figures this probe cannot give.
     Unavailable,
     /// Data was lost or damaged on the way.
@@ -40,6 +42,7 @@ impl ProblemKind {
             ProblemKind::HeartbeatStopped => "heartbeat-stopped",
             ProblemKind::RailBelowMinimum => "rail-below-minimum",
             ProblemKind::SampledCoverage => "sampled-coverage",
+            ProblemKind::ThresholdViolations => "threshold-violations",
             ProblemKind::Unavailable => "unavailable",
             ProblemKind::DataLost => "data-lost",
         }
@@ -230,6 +233,37 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
                 "the worst cycles are the worst of the {} cycles the probe timed, {:.1} % of the clock's{how}: a rarer shorter cycle may have gone unseen",
                 c.cycles,
                 share * 100.0
+            ),
+        ));
+    }
+    if let Some(v) = c.violations.as_ref().filter(|v| v.total() > 0) {
+        let limit = |t: Option<f64>| {
+            t.map_or("not counted".to_string(), |t| {
+                format!("below {}", crate::units::ns(t))
+            })
+        };
+        let first = v.first.first();
+        out.push(Problem::new(
+            ProblemKind::ThresholdViolations,
+            v.total(),
+            first.map(|e| e.at_s),
+            format!(
+                "the probe counted {} cycle{} with a phase shorter than its threshold over {} windows ({} high time{} {}, {} low time{} {}){}",
+                v.total(),
+                if v.total() == 1 { "" } else { "s" },
+                v.windows,
+                v.high_short,
+                if v.high_short == 1 { "" } else { "s" },
+                limit(v.high_threshold_ns),
+                v.low_short,
+                if v.low_short == 1 { "" } else { "s" },
+                limit(v.low_threshold_ns),
+                first.map_or(String::new(), |e| format!(
+                    ", the first a {} phase of {} at {:.6} s",
+                    e.phase,
+                    crate::units::ns(e.length_ns),
+                    e.at_s
+                ))
             ),
         ));
     }

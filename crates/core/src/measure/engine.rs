@@ -283,6 +283,18 @@ impl Engine {
                 ticks,
             } => self.on_lines(channel, first_rising, ticks),
             Event::Count(w) => self.on_count(&w),
+            Event::Extremes(w) => {
+                self.advance(w.end_tick);
+                if let Some(c) = self.clocks.get_mut(&w.channel) {
+                    c.state.extremes_window(&w);
+                }
+            }
+            Event::Thresholds(v) => {
+                self.advance(v.end_tick);
+                if let Some(c) = self.clocks.get_mut(&v.channel) {
+                    c.state.threshold_window(&v);
+                }
+            }
             Event::Analog {
                 channel,
                 interval_ticks,

@@ -7,7 +7,8 @@
 //! another kind) is refused. Nothing here panics, whatever the probe sends.
 
 use firmware_protocol::{
-    Analog, CountWindow, Edges, FLAG_BURST_START, FLAG_LOST_BEFORE, Message, RawFrame, methods,
+    Analog, CountWindow, Edges, ExtremesWindow, FLAG_BURST_START, FLAG_LOST_BEFORE, Message,
+    RawFrame, Violations, methods,
 };
 
 use crate::probe::{AnalogScale, ChannelKind, ProbeDesc};
@@ -58,6 +59,58 @@ pub struct Count {
     pub samples_high: u32,
 }
 
+/// One window's extremes of every cycle of a clock channel (ticks; times on the engine's
+/// timeline).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Extremes {
+    /// Channel id.
+    pub channel: u8,
+    /// The probe flagged windows lost just before this one.
+    pub lost_before: bool,
+    /// Tick at which the window opened.
+    pub start_tick: u64,
+    /// Tick at which it closed (`start_tick` + its length).
+    pub end_tick: u64,
+    /// Cycles closed in it.
+    pub cycles: u32,
+    /// Shortest and longest high time.
+    pub high: (u32, u32),
+    /// Shortest and longest low time.
+    pub low: (u32, u32),
+    /// Shortest and longest period.
+    pub period: (u32, u32),
+    /// Sum of the high times.
+    pub high_sum: u64,
+    /// Sum of the low times.
+    pub low_sum: u64,
+}
+
+/// Most short phases a [`ThresholdCount`] carries.
+pub const MAX_SHORT_STAMPS: usize = 8;
+
+/// One window's count of cycles shorter than the probe's thresholds (ticks; engine timeline).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct ThresholdCount {
+    /// Channel id.
+    pub channel: u8,
+    /// Tick at which the window opened.
+    pub start_tick: u64,
+    /// Tick at which it closed.
+    pub end_tick: u64,
+    /// High-time threshold in force (0: off).
+    pub high_threshold: u32,
+    /// Low-time threshold in force (0: off).
+    pub low_threshold: u32,
+    /// Cycles whose high time was shorter.
+    pub high_short: u32,
+    /// Cycles whose low time was shorter.
+    pub low_short: u32,
+    /// The first short phases: (tick of the opening edge, length, high phase).
+    pub stamps: [(u64, u32, bool); MAX_SHORT_STAMPS],
+    /// How many of `stamps` are filled.
+    pub stamp_count: u8,
+}
+
 /// One validated step of the probe's stream. Ticks are on the engine's timeline: strictly
 /// increasing within a batch, and a channel's next batch starts after its last one unless a
 /// [`Event::Break`] comes first.
@@ -106,6 +159,10 @@ pub enum Event<'a> {
     },
     /// A count window.
     Count(Count),
+    /// One window's extremes of every cycle.
+    Extremes(Extremes),
+    /// One window's count of cycles shorter than the thresholds.
+    Thresholds(ThresholdCount),
     /// Samples of an analog channel, `interval_ticks` apart.
     Analog {
         /// Channel id.
@@ -204,6 +261,8 @@ impl Ingest {
             Message::Edges(e) => self.stamps(e, false, emit),
             Message::Lines(e) => self.stamps(e, true, emit),
             Message::Count(w) => self.count(w, emit),
+            Message::Extremes(x) => self.extremes(x, emit),
+            Message::Violations(v) => self.violations(v, emit),
             Message::Analog(a) => self.analog(a, emit),
             Message::Status(s) => emit(&Event::Status {
                 overflows: s.overflows,
@@ -373,6 +432,95 @@ impl Ingest {
         }));
     }
 
+    /// A window of a clock channel on the timeline: its start and end tick (None: it would run
+    /// past 2^64, and a break was emitted; or the channel is not a clock, and that was said).
+    fn window(
+        &mut self,
+        channel: u8,
+        start: u64,
+        ticks: u32,
+        emit: &mut impl FnMut(&Event<'_>),
+    ) -> Option<(u64, u64)> {
+        if !self.slots[usize::from(channel)].edge {
+            emit(&Event::Unknown {
+                channel,
+                lost_before: false,
+            });
+            return None;
+        }
+        self.settle(start);
+        let placed = self.offset.and_then(|off| {
+            let s = start.checked_add(off)?;
+            Some((s, s.checked_add(u64::from(ticks))?))
+        });
+        let Some((s, e)) = placed else {
+            emit(&Event::Break {
+                channel,
+                cause: BreakCause::Overflow,
+            });
+            return None;
+        };
+        self.newest = self.newest.max(e);
+        self.seen_data = true;
+        Some((s, e))
+    }
+
+    fn extremes(&mut self, x: &ExtremesWindow<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        let Some((start_tick, end_tick)) =
+            self.window(x.channel, x.start_tick, x.window_ticks, &mut emit)
+        else {
+            return;
+        };
+        let lost_before = x.flags & FLAG_LOST_BEFORE != 0;
+        if lost_before {
+            emit(&Event::Break {
+                channel: x.channel,
+                cause: BreakCause::Lost,
+            });
+        }
+        emit(&Event::Extremes(Extremes {
+            channel: x.channel,
+            lost_before,
+            start_tick,
+            end_tick,
+            cycles: x.cycles,
+            high: (x.high_min_ticks, x.high_max_ticks),
+            low: (x.low_min_ticks, x.low_max_ticks),
+            period: (x.period_min_ticks, x.period_max_ticks),
+            high_sum: x.high_sum_ticks,
+            low_sum: x.low_sum_ticks,
+        }));
+    }
+
+    fn violations(&mut self, v: &Violations<'_>, mut emit: impl FnMut(&Event<'_>)) {
+        let Some((start_tick, end_tick)) =
+            self.window(v.channel, v.start_tick, v.window_ticks, &mut emit)
+        else {
+            return;
+        };
+        let off = start_tick - v.start_tick;
+        let mut stamps = [(0u64, 0u32, false); MAX_SHORT_STAMPS];
+        let mut n = 0u8;
+        for (slot, p) in stamps.iter_mut().zip(v.short_phases()) {
+            // a stamp the offset would carry past 2^64 is left out
+            if let Some(t) = p.tick.checked_add(off) {
+                *slot = (t, p.length_ticks, p.high);
+                n += 1;
+            }
+        }
+        emit(&Event::Thresholds(ThresholdCount {
+            channel: v.channel,
+            start_tick,
+            end_tick,
+            high_threshold: v.high_threshold_ticks,
+            low_threshold: v.low_threshold_ticks,
+            high_short: v.high_short,
+            low_short: v.low_short,
+            stamps,
+            stamp_count: n,
+        }));
+    }
+
     fn analog(&mut self, a: &Analog<'_>, mut emit: impl FnMut(&Event<'_>)) {
         let channel = a.channel;
         let lost_before = a.flags & FLAG_LOST_BEFORE != 0;
@@ -477,6 +625,7 @@ pub(super) fn hello_frame(out: &mut Vec<u8>, channels: &[firmware_protocol::Chan
     use firmware_protocol::{Channels, Hello, MAX_WIRE, encode_message};
     let m = Message::Hello(Hello {
         protocol_version: 1,
+        probe_class: 0,
         tick_num_hz: 125_000_000,
         tick_den: 1,
         timebase_ppm: 0,
@@ -490,120 +639,4 @@ pub(super) fn hello_frame(out: &mut Vec<u8>, channels: &[firmware_protocol::Chan
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use firmware_protocol::{Channel, MAX_WIRE, StreamDecoder, encode_frame, types};
-
-    /// An EDGES frame of channel 0 from its first tick and deltas, written by hand (a writer
-    /// refuses deltas that wrap).
-    fn edges_frame(out: &mut Vec<u8>, seq: u16, first: u64, deltas: &[u8]) {
-        let mut body = vec![0u8, 1, 0];
-        body.extend_from_slice(&(deltas.len() as u16 + 1).to_le_bytes());
-        body.extend_from_slice(&first.to_le_bytes());
-        body.extend_from_slice(deltas);
-        let mut wire = [0u8; MAX_WIRE];
-        let len = encode_frame(types::EDGES, seq, &body, &mut wire).unwrap();
-        out.extend_from_slice(&wire[..len]);
-    }
-
-    /// What the ingest emits for a byte stream, as text.
-    fn events(bytes: &[u8]) -> Vec<String> {
-        let mut ing = Ingest::new();
-        let mut d = StreamDecoder::new();
-        let mut out = Vec::new();
-        d.push(bytes, |f| {
-            ing.frame(&f, |ev| {
-                out.push(match ev {
-                    Event::Probe { new, .. } => format!("probe new={new}"),
-                    e => format!("{e:?}"),
-                })
-            })
-        });
-        out
-    }
-
-    /// A batch whose ticks would run past 2^64 is refused by the message decoder and counted as
-    /// undecodable, never placed on the timeline; a later batch starting before the last one breaks continuity as a reversal.
-    #[test]
-    fn overflow_is_refused_and_reversal_becomes_a_break() {
-        let mut b = Vec::new();
-        let analog = Channel {
-            id: 3,
-            kind: firmware_protocol::ChannelKind::Analog,
-            info: 10,
-            label: "V",
-            scale_num_uv: 5000,
-            scale_den: 1,
-            offset_uv: 0,
-        };
-        hello_frame(&mut b, &[Channel::edge(0, 1, "CLK"), analog]);
-        let m = u64::MAX;
-        edges_frame(&mut b, 1, 1000, &[100, 100]);
-        edges_frame(&mut b, 2, m - 5, &[3, 3, 3]);
-        edges_frame(&mut b, 3, 10, &[10, 10]);
-        let ev = events(&b);
-        let want = [
-            "probe new=true".to_string(),
-            "Edges { channel: 0, first_rising: true, ticks: [1000, 1100, 1200] }".into(),
-            "Undecodable".into(),
-            "Break { channel: 0, cause: Reversal { to_tick: 10 } }".into(),
-            "Edges { channel: 0, first_rising: true, ticks: [10, 20, 30] }".into(),
-        ];
-        assert_eq!(ev, want);
-    }
-
-    /// After the same probe's HELLO, ticks that go on keep the timeline (a probe that kept
-    /// running while the link was down), ticks that start again are placed after everything
-    /// seen (a reset); a hole in the numbering breaks continuity as a link gap.
-    #[test]
-    fn a_probe_that_kept_running_keeps_its_timeline() {
-        let clk = [Channel::edge(0, 1, "CLK")];
-        let mut b = Vec::new();
-        hello_frame(&mut b, &clk);
-        edges_frame(&mut b, 1, 1000, &[100, 100]);
-        // the link was down: HELLO numbered 9 (frames 2–8 lost), the probe's ticks went on
-        let mut h = Vec::new();
-        hello_frame(&mut h, &clk);
-        let mut d = StreamDecoder::new();
-        let mut body = Vec::new();
-        d.push(&h, |f| body = f.body.to_vec());
-        let mut wire = [0u8; MAX_WIRE];
-        let n = encode_frame(types::HELLO, 9, &body, &mut wire).unwrap();
-        b.extend_from_slice(&wire[..n]);
-        edges_frame(&mut b, 10, 90_000, &[100, 100]);
-        // a reset: HELLO numbered 0, ticks from the start again
-        hello_frame(&mut b, &clk);
-        edges_frame(&mut b, 1, 50, &[100]);
-        let ev = events(&b);
-        let want = [
-            "probe new=true".to_string(),
-            "Edges { channel: 0, first_rising: true, ticks: [1000, 1100, 1200] }".into(),
-            "LinkGap { frames: 7 }".into(),
-            "probe new=false".into(),
-            "Edges { channel: 0, first_rising: true, ticks: [90000, 90100, 90200] }".into(),
-            "probe new=false".into(),
-            "Edges { channel: 0, first_rising: true, ticks: [90251, 90351] }".into(),
-        ];
-        assert_eq!(ev, want);
-    }
-
-    /// `place` finds the same prefix by its fast checks as by the tick-by-tick walk.
-    #[test]
-    fn placing_ticks_keeps_the_prefix_on_the_timeline() {
-        let m = u64::MAX;
-        for (ticks, off, single, want) in [
-            (vec![1u64, 2, 3], Some(0), true, 3),
-            (vec![1, 2, 3], Some(m - 2), true, 2),
-            (vec![1, 2, 3], None, true, 0),
-            (vec![m - 1, m, 0, 1], Some(0), false, 2),
-            (vec![5, 1 << 40, 1 << 50], Some(m - (1 << 50) + 1), false, 2),
-            (vec![5, 1 << 40, 1 << 50], Some(7), false, 3),
-        ] {
-            let mut t = ticks.clone();
-            assert_eq!(place(&mut t, off, single), want, "{ticks:?} + {off:?}");
-            for (a, b) in t[..want].iter().zip(&ticks) {
-                assert_eq!(*a, b + off.unwrap_or(0));
-            }
-        }
-    }
-}
+mod tests;

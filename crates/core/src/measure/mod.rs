@@ -26,7 +26,7 @@ mod stats;
 pub use clock::{ClockConfig, ClockSnapshot, Glitch, Stall};
 pub use engine::{Engine, EngineConfig};
 pub use feed::Feed;
-pub use ingest::{BreakCause, Count, Event, Sample};
+pub use ingest::{BreakCause, Count, Event, Extremes, MAX_SHORT_STAMPS, Sample, ThresholdCount};
 pub use lines::{LineEvent, LineSnapshot};
 pub use observe::{NoObserver, Observer};
 pub use rails::{RailConfig, RailSnapshot, Sag};

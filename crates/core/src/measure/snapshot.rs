@@ -135,11 +135,12 @@ impl Snapshot {
         self.lines.iter().find(|l| l.role == role)
     }
     /// What the figures stand on: "lost" (data went missing), "sampled" (nothing lost, but a
-    /// clock was not stamped on every cycle) or "complete".
+    /// clock was not observed on every cycle: bursts, count windows, missing extremes windows)
+    /// or "complete".
     pub fn completeness(&self) -> &'static str {
         if !self.trust.clean() {
             "lost"
-        } else if self.clocks.iter().any(|c| c.observation != "continuous") {
+        } else if self.clocks.iter().any(|c| !c.every_cycle_observed()) {
             "sampled"
         } else {
             "complete"

@@ -193,6 +193,13 @@ fn clock_rows_of(c: &ClockSnapshot) -> Vec<Vec<String>> {
         ));
     }
     r.push(row("glitches", c.glitches.to_string(), String::new()));
+    if let Some(v) = &c.violations {
+        r.push(row(
+            "short phases",
+            (v.high_short + v.low_short).to_string(),
+            super::recording::violations_text(v),
+        ));
+    }
     r.push(row("stalls", c.stalls.to_string(), String::new()));
     for u in &c.unavailable {
         r.push(row(&u.figure, "unavailable".into(), u.reason.clone()));

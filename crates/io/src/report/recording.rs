@@ -280,9 +280,39 @@ pub fn clock_lines(out: &mut String, c: &ClockSnapshot, movement: Option<&Moveme
         );
     }
     let _ = writeln!(out, "  glitches      {}   stalls {}", c.glitches, c.stalls);
+    if let Some(v) = &c.violations {
+        let _ = writeln!(out, "  short phases  {}", violations_text(v));
+    }
     for u in &c.unavailable {
         let _ = writeln!(out, "  {}: unavailable — {}", u.figure, u.reason);
     }
+}
+
+/// The probe's threshold counts in words: "3 high times below 120.0 ns, 0 low times below
+/// 120.0 ns over 300 windows, the first a high phase of 16.00 ns at 0.030277 s".
+pub fn violations_text(v: &slackmeter_core::measure::clock::ThresholdViolations) -> String {
+    let part = |n: u64, what: &str, t: Option<f64>| match t {
+        Some(t) => format!(
+            "{n} {what} time{} below {}",
+            if n == 1 { "" } else { "s" },
+            ns(t)
+        ),
+        None => format!("{what} times not counted"),
+    };
+    let first = v.first.first().map_or(String::new(), |e| {
+        format!(
+            ", the first a {} phase of {} at {:.6} s",
+            e.phase,
+            ns(e.length_ns),
+            e.at_s
+        )
+    });
+    format!(
+        "{}, {} over {} windows (counted by the probe){first}",
+        part(v.high_short, "high", v.high_threshold_ns),
+        part(v.low_short, "low", v.low_threshold_ns),
+        v.windows
+    )
 }
 
 /// What the figures stand on: *complete* (every cycle stamped, nothing lost), *sampled* (the
@@ -319,8 +349,13 @@ pub fn trust_summary(snap: &Snapshot) -> String {
     let sampled: Vec<String> = snap
         .clocks
         .iter()
-        .filter(|c| c.observation != "continuous")
+        .filter(|c| !c.every_cycle_observed())
         .map(|c| match c.coverage {
+            Some(v) if c.observation == "window-extremes" => format!(
+                "{} timed on every cycle by the probe, but its windows of extremes cover {:.2} % of the time",
+                c.label,
+                v * 100.0
+            ),
             Some(v) if c.observation == "bursts" => {
                 format!(
                     "{} stamped in bursts, {:.2} % of its cycles",
@@ -332,6 +367,9 @@ pub fn trust_summary(snap: &Snapshot) -> String {
         })
         .collect();
     let mut out = match snap.completeness() {
+        "complete" if snap.clocks.iter().any(|c| c.observation == "window-extremes") => {
+            " — complete: every cycle observed (timed by the probe, its extremes sent per window), nothing lost".to_string()
+        }
         "complete" => " — complete: every cycle stamped, nothing lost".to_string(),
         "lost" => " — lost: data went missing, figures cover incomplete data".to_string(),
         _ => " — sampled: nothing lost, but not every cycle stamped".to_string(),

@@ -2,9 +2,10 @@
 //! (no link, no measurement), so tests that run sim → link → measurement prove something.
 
 pub mod bench;
+pub mod classes;
 pub mod model;
 pub mod probe;
 pub mod pty;
 
-pub use model::{BenchModel, FaultLimit, RailModel, RippleShape, Sweep};
+pub use model::{BenchModel, FaultLimit, ProbeClass, RailModel, RippleShape, Sweep};
 pub use probe::SimProbe;

@@ -168,6 +168,72 @@ pub struct BenchModel {
     /// Spacing of the bursts.
     #[serde(default)]
     pub burst_every_s: f64,
+    /// How the virtual probe observes the clock (PROTOCOL.md probe classes).
+    #[serde(default)]
+    pub probe_class: ProbeClass,
+    /// Window of a counting or extremes probe, s (None: its default).
+    #[serde(default)]
+    pub window_s: Option<f64>,
+    /// High-time threshold of an extremes probe, ns (None: not counted).
+    #[serde(default)]
+    pub high_threshold_ns: Option<f64>,
+    /// Low-time threshold of an extremes probe, ns (None: not counted).
+    #[serde(default)]
+    pub low_threshold_ns: Option<f64>,
+}
+
+/// How a probe observes its clock (PROTOCOL.md §5.1, probe classes).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ProbeClass {
+    /// Every edge stamped (or bursts of stamped edges): EDGES.
+    #[default]
+    Stamping,
+    /// Reciprocal count windows with level samples, as the ATmega328P reference probe at MHz
+    /// rates: COUNT.
+    Counting,
+    /// Every cycle timed, each window's extremes and threshold counts sent: EXTREMES,
+    /// VIOLATIONS.
+    Extremes,
+}
+
+impl ProbeClass {
+    /// Every class, as `--probe-class` names them.
+    pub const NAMES: &'static [&'static str] = &["stamping", "counting", "extremes"];
+
+    /// The class of a `--probe-class` word.
+    pub fn parse(word: &str) -> Option<ProbeClass> {
+        match word {
+            "stamping" => Some(ProbeClass::Stamping),
+            "counting" => Some(ProbeClass::Counting),
+            "extremes" => Some(ProbeClass::Extremes),
+            _ => None,
+        }
+    }
+
+    /// Its word.
+    pub fn word(self) -> &'static str {
+        Self::NAMES[self as usize]
+    }
+
+    /// Its HELLO class byte.
+    pub fn code(self) -> u8 {
+        use firmware_protocol::classes;
+        match self {
+            ProbeClass::Stamping => classes::STAMPING,
+            ProbeClass::Counting => classes::COUNTING,
+            ProbeClass::Extremes => classes::EXTREMES,
+        }
+    }
+
+    /// Its window when none is given, s: 100 ms counting (as the reference probe), 10 ms
+    /// extremes.
+    pub fn default_window_s(self) -> f64 {
+        match self {
+            ProbeClass::Counting => 0.1,
+            _ => 0.01,
+        }
+    }
 }
 
 impl BenchModel {
@@ -215,6 +281,10 @@ impl BenchModel {
             seed: 1,
             burst_edges: None,
             burst_every_s: 0.1,
+            probe_class: ProbeClass::Stamping,
+            window_s: None,
+            high_threshold_ns: None,
+            low_threshold_ns: None,
         };
         match name {
             "steady" => Some(steady),
@@ -357,6 +427,7 @@ impl BenchModel {
         if let Some(r) = self.reset_interval_s {
             pos(r, "--reset-every")?;
         }
+        self.validate_class()?;
         if let Some(n) = self.burst_edges {
             if n < 2 {
                 return Err(format!(
@@ -399,6 +470,68 @@ impl BenchModel {
             }
             pos(r.ripple_hz, &format!("rail {} ripple-freq", r.name))?;
             pos(r.hum_hz, &format!("rail {} hum-freq", r.name))?;
+        }
+        Ok(())
+    }
+}
+
+impl BenchModel {
+    /// The probe class's own settings, and the combinations no class has.
+    fn validate_class(&self) -> Result<(), String> {
+        let class = self.probe_class;
+        if self.burst_edges.is_some() && class != ProbeClass::Stamping {
+            return Err(format!(
+                "--bursts stamps edges in bursts, which only a stamping probe does: a probe of \
+                 class {} sends no timestamps; drop --bursts or use --probe-class stamping",
+                class.word()
+            ));
+        }
+        if self.window_s.is_some() && class == ProbeClass::Stamping {
+            return Err(
+                "--window sets the window of a counting or extremes probe: a stamping probe has \
+                 none; add --probe-class counting or --probe-class extremes"
+                    .into(),
+            );
+        }
+        for (v, flag) in [
+            (self.high_threshold_ns, "--high-threshold"),
+            (self.low_threshold_ns, "--low-threshold"),
+        ] {
+            let Some(t) = v else { continue };
+            if class != ProbeClass::Extremes {
+                return Err(format!(
+                    "{flag} is counted by a probe of window extremes only: a {} probe has no \
+                     thresholds; add --probe-class extremes",
+                    class.word()
+                ));
+            }
+            let ticks = t / self.tick_ns;
+            if !(ticks.is_finite() && ticks >= 1.0 && ticks <= f64::from(u32::MAX)) {
+                return Err(format!(
+                    "{flag} must lie between one tick ({} ns) and 2^32 - 1 ticks, got {t} ns",
+                    self.tick_ns
+                ));
+            }
+        }
+        if let Some(w) = self.window_s {
+            let ticks = w * 1e9 / self.tick_ns;
+            if !(w.is_finite() && (1e-3..=10.0).contains(&w) && ticks <= f64::from(u32::MAX)) {
+                return Err(format!(
+                    "--window must lie between 1 ms and 10 s and be at most 2^32 - 1 ticks of {} \
+                     ns, got {} ms",
+                    self.tick_ns,
+                    w * 1e3
+                ));
+            }
+        } else if class != ProbeClass::Stamping
+            && class.default_window_s() * 1e9 / self.tick_ns > f64::from(u32::MAX)
+        {
+            return Err(format!(
+                "the default window of {} ms is more than 2^32 - 1 ticks of {} ns: give a shorter \
+                 --window",
+                class.default_window_s() * 1e3,
+                self.tick_ns
+            ));
         }
         Ok(())
     }

@@ -1,6 +1,7 @@
 //! The virtual probe's protocol side: bench model → frames, host commands → replies (pure).
 //!
-//! Channels: 0 CLK (edge, timestamps), 1 HEARTBEAT, 2 FAULT, 3 RESET (lines), 4… one analog
+//! Channels: 0 CLK (edge: timestamps, count windows or window extremes by the probe class),
+//! 1 HEARTBEAT, 2 FAULT, 3 RESET (lines), 4… one analog
 //! channel per rail (12 bits, 2000 µV per count). Time advances in 1 ms slices of simulated time,
 //! so the frames for a seed are the same whether written to a file or served live.
 
@@ -11,7 +12,8 @@ use firmware_protocol::{
 };
 
 use super::bench::{Bench, Slice};
-use super::model::{ADC_UV_PER_COUNT, BenchModel};
+use super::classes::{ClassInput, ClassSettings, DUTY_SAMPLES};
+use super::model::{ADC_UV_PER_COUNT, BenchModel, ProbeClass};
 
 /// Simulated time per step.
 pub const SLICE_NS: f64 = 1e6;
@@ -88,6 +90,9 @@ pub struct SimProbe {
     pub edges_sent: u64,
     burst_left: u32,
     next_burst_ns: f64,
+    class: ProbeClass,
+    /// The clock input of a counting or extremes probe (None: stamping).
+    class_input: Option<ClassInput>,
 }
 
 fn gcd(a: u64, b: u64) -> u64 {
@@ -108,6 +113,26 @@ impl SimProbe {
             .max(1.0) as u32;
         model.analog_rate_hz = 1e9 / (f64::from(interval_ticks) * model.tick_ns);
         let labels = model.rails.iter().map(|r| r.name.clone()).collect();
+        let class = model.probe_class;
+        let class_input = (class != ProbeClass::Stamping).then(|| {
+            let ticks =
+                |ns: f64| (ns / model.tick_ns).round().clamp(0.0, f64::from(u32::MAX)) as u32;
+            let window_s = model.window_s.unwrap_or(class.default_window_s());
+            let period = ticks(model.period_at_ns(0.0)).max(2);
+            ClassInput::new(
+                class,
+                CH_CLOCK,
+                ClassSettings {
+                    window_ticks: ticks(window_s * 1e9).max(1),
+                    high_threshold: model.high_threshold_ns.map_or(0, ticks),
+                    low_threshold: model.low_threshold_ns.map_or(0, ticks),
+                    duty_samples: DUTY_SAMPLES,
+                    // 16 bins from half the nominal period, each an eighth of it wide
+                    bins: (period / 2, (period / 8).max(1)),
+                },
+                model.seed ^ 0x5EED_C1A5_5000_0001,
+            )
+        });
         let analog = (0..model.rails.len())
             .map(|i| OpenAnalog {
                 channel: CH_RAIL0 + i as u8,
@@ -142,6 +167,8 @@ impl SimProbe {
             edges_sent: 0,
             burst_left: 0,
             next_burst_ns: 0.0,
+            class,
+            class_input,
         };
         p.send_hello();
         let notes = std::mem::take(&mut p.notes);
@@ -202,8 +229,13 @@ impl SimProbe {
     }
 
     fn send_hello(&mut self) {
+        let clock_caps = match self.class {
+            ProbeClass::Stamping => caps::TIMESTAMPS,
+            ProbeClass::Counting => caps::COUNT_WINDOWS | caps::LEVEL_SAMPLING,
+            ProbeClass::Extremes => caps::WINDOW_EXTREMES | caps::THRESHOLD_COUNTS,
+        };
         let mut chans = vec![
-            Channel::edge(CH_CLOCK, caps::TIMESTAMPS, "CLK"),
+            Channel::edge(CH_CLOCK, clock_caps, "CLK"),
             Channel::line(CH_HEARTBEAT, roles::HEARTBEAT, "HEARTBEAT"),
             Channel::line(CH_FAULT, roles::FAULT, "FAULT"),
             Channel::line(CH_RESET, roles::RESET, "RESET"),
@@ -222,6 +254,7 @@ impl SimProbe {
         }
         let hello = Message::Hello(Hello {
             protocol_version: proto::VERSION,
+            probe_class: self.class.code(),
             tick_num_hz: self.tick_num_hz,
             tick_den: self.tick_den,
             timebase_ppm: 0,
@@ -239,6 +272,9 @@ impl SimProbe {
         self.status.overflows = self.status.overflows.saturating_add(1);
         self.status.edges_dropped = self.status.edges_dropped.saturating_add(frames);
         self.clock.lost = true;
+        if let Some(c) = &mut self.class_input {
+            c.lost = true;
+        }
         for l in &mut self.lines {
             l.lost = true;
         }
@@ -321,11 +357,55 @@ impl SimProbe {
                 1,
             ),
             params::EDGE_MODE if channel == CH_CLOCK => {
-                // the virtual probe timestamps every edge; it has no count windows
-                if value == 0 {
-                    (results::OK, 0)
+                // each virtual probe observes the clock one way: its class's mode
+                let mode = match self.class {
+                    ProbeClass::Stamping => 0,
+                    ProbeClass::Counting => 1,
+                    ProbeClass::Extremes => 3,
+                };
+                if value == mode {
+                    (results::OK, mode)
                 } else {
-                    (results::BAD_VALUE, 0)
+                    (results::BAD_VALUE, mode)
+                }
+            }
+            params::HIGH_THRESHOLD_TICKS | params::LOW_THRESHOLD_TICKS
+                if channel == CH_CLOCK && self.class == ProbeClass::Extremes =>
+            {
+                let s = &mut self
+                    .class_input
+                    .as_mut()
+                    .expect("an extremes input")
+                    .settings;
+                if param == params::HIGH_THRESHOLD_TICKS {
+                    s.high_threshold = value;
+                } else {
+                    s.low_threshold = value;
+                }
+                (results::OK, value)
+            }
+            params::WINDOW_TICKS | params::GATE_TICKS
+                if channel == CH_CLOCK && self.class != ProbeClass::Stamping =>
+            {
+                let s = &mut self.class_input.as_mut().expect("a class input").settings;
+                if value == 0 {
+                    (results::BAD_VALUE, s.window_ticks)
+                } else {
+                    s.window_ticks = value;
+                    (results::OK, value)
+                }
+            }
+            params::DUTY_SAMPLES if channel == CH_CLOCK && self.class == ProbeClass::Counting => {
+                let s = &mut self
+                    .class_input
+                    .as_mut()
+                    .expect("a counting input")
+                    .settings;
+                if value <= 100_000 {
+                    s.duty_samples = value;
+                    (results::OK, value)
+                } else {
+                    (results::BAD_VALUE, s.duty_samples)
                 }
             }
             params::STATUS_INTERVAL_MS if channel == params::PROBE => {
@@ -355,8 +435,28 @@ impl SimProbe {
         let mut slice = std::mem::take(&mut self.slice);
         self.bench.advance(SLICE_NS, &mut slice);
         let now = self.bench.now_ns();
+        if self.streaming
+            && let Some(input) = &mut self.class_input
+        {
+            let tick_ns = self.bench.model.tick_ns;
+            input.open_at(((now - SLICE_NS) / tick_ns) as u64);
+            let before = input.cycles;
+            let (out, seq, status) = (&mut self.out, &mut self.seq, &mut self.status);
+            input.feed(
+                &slice.clock,
+                slice.clock_first_rising,
+                (now / tick_ns) as u64,
+                (SLICE_NS / tick_ns) as u64 + 1,
+                &mut |ty, body| emit(out, seq, status, ty, body),
+            );
+            self.edges_sent += 2 * (input.cycles - before);
+        }
         if self.streaming {
-            let mut to = slice.clock.len();
+            let mut to = if self.class_input.is_some() {
+                0
+            } else {
+                slice.clock.len()
+            };
             if let Some(n) = self.bench.model.burst_edges {
                 // bursts: stamp n consecutive edges, then nothing until the next burst is due
                 if self.burst_left == 0 && now - SLICE_NS >= self.next_burst_ns {
@@ -532,8 +632,15 @@ impl SimProbe {
         }
     }
 
-    /// Send every open batch now (end of a run).
+    /// Send every open batch now (end of a run), and every window that has ended.
     pub fn flush_all(&mut self) {
+        if let Some(input) = &mut self.class_input {
+            let now_tick = (self.bench.now_ns() / self.bench.model.tick_ns) as u64;
+            let (out, seq, status) = (&mut self.out, &mut self.seq, &mut self.status);
+            input.feed(&[], true, now_tick, 0, &mut |ty, body| {
+                emit(out, seq, status, ty, body)
+            });
+        }
         Self::flush_edges(
             &mut self.clock,
             &mut self.out,
@@ -560,113 +667,4 @@ fn emit(out: &mut Vec<u8>, seq: &mut u16, status: &mut Status, msg_type: u8, bod
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::sim::model::BenchModel;
-
-    fn frames(bytes: &[u8]) -> Vec<(u8, Vec<u8>)> {
-        let mut d = StreamDecoder::new();
-        let mut out = Vec::new();
-        d.push(bytes, |f| out.push((f.header.msg_type, f.body.to_vec())));
-        assert_eq!(d.counters.rejected(), 0);
-        assert_eq!(d.counters.lost_frames, 0);
-        out
-    }
-
-    #[test]
-    fn hello_first_then_data_only_after_start() {
-        let mut p = SimProbe::new(
-            BenchModel::scenario("steady").unwrap(),
-            vec!["sim: test".into()],
-        );
-        p.run_until(5e6);
-        let f = frames(&std::mem::take(p.output()));
-        assert_eq!(f[0].0, types::HELLO);
-        assert_eq!(f[1].0, types::LOG);
-        assert!(
-            f.iter().all(|(t, _)| *t != types::EDGES),
-            "no data before START"
-        );
-        p.start();
-        p.run_until(30e6);
-        p.flush_all();
-        let f = frames(&std::mem::take(p.output()));
-        assert!(f.iter().any(|(t, _)| *t == types::EDGES));
-        assert!(f.iter().any(|(t, _)| *t == types::ANALOG));
-    }
-
-    #[test]
-    fn commands_are_acknowledged() {
-        let mut p = SimProbe::new(BenchModel::scenario("steady").unwrap(), vec![]);
-        p.output().clear();
-        let mut wire = [0u8; MAX_WIRE];
-        let mut host = Vec::new();
-        for (seq, m) in [
-            (0u16, Message::Ping(42)),
-            (
-                1,
-                Message::Configure(proto::Configure {
-                    channel: params::PROBE,
-                    param: params::STATUS_INTERVAL_MS,
-                    value: 500,
-                }),
-            ),
-            (
-                2,
-                Message::Configure(proto::Configure {
-                    channel: 77,
-                    param: 1,
-                    value: 1,
-                }),
-            ),
-            (3, Message::Start),
-            (4, Message::Describe),
-        ] {
-            let n = proto::encode_message(&m, seq, &mut wire).unwrap();
-            host.extend_from_slice(&wire[..n]);
-        }
-        // a damaged command
-        let n = proto::encode_message(&Message::Stop, 5, &mut wire).unwrap();
-        wire[2] ^= 0x40;
-        host.extend_from_slice(&wire[..n]);
-        p.handle_host(&host);
-        let f = frames(&std::mem::take(p.output()));
-        let acks: Vec<Ack> = f
-            .iter()
-            .filter(|(t, _)| *t == types::ACK)
-            .map(|(t, b)| {
-                let rf = proto::RawFrame {
-                    header: proto::Header {
-                        version: 1,
-                        msg_type: *t,
-                        seq: 0,
-                    },
-                    body: b,
-                    lost_before: 0,
-                };
-                match Message::decode(&rf).unwrap() {
-                    Message::Ack(a) => a,
-                    _ => unreachable!(),
-                }
-            })
-            .collect();
-        assert_eq!(
-            acks[0],
-            Ack {
-                acked_seq: 0xFFFF,
-                command: 0,
-                result: results::BAD_FRAME,
-                value: 0
-            }
-        );
-        assert_eq!(acks[1].value, 42);
-        assert_eq!((acks[2].result, acks[2].value), (results::OK, 500));
-        assert_eq!(acks[3].result, results::BAD_CHANNEL);
-        assert_eq!((acks[4].acked_seq, acks[4].command), (3, types::START));
-        assert!(
-            f.iter().any(|(t, _)| *t == types::HELLO),
-            "DESCRIBE answered by HELLO"
-        );
-        assert!(p.streaming());
-    }
-}
+mod tests;

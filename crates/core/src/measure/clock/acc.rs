@@ -163,6 +163,94 @@ pub struct ClockAcc {
     pub(super) count_reciprocal: bool,
     pub(super) samples: u64,
     pub(super) samples_high: u64,
+    /// Window extremes (when the probe times every cycle and sends extremes per window).
+    pub(super) ext: ExtAcc,
+}
+
+/// The merged extremes of a probe's windows (ticks): every cycle's worst, sums for the means,
+/// the windows' coverage and the threshold counts.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(super) struct ExtAcc {
+    pub(super) windows: u64,
+    pub(super) cycles: u64,
+    pub(super) high: (u32, u32),
+    pub(super) low: (u32, u32),
+    pub(super) period: (u32, u32),
+    /// Largest range (max − min) of the period, high and low time within one window.
+    pub(super) range: [u32; 3],
+    pub(super) high_sum: u64,
+    pub(super) low_sum: u64,
+    /// Ticks the windows received cover, and the first start and last end among them.
+    pub(super) covered: u64,
+    pub(super) span: (u64, u64),
+    /// Start of the window with the shortest high and low time.
+    pub(super) high_min_at: u64,
+    pub(super) low_min_at: u64,
+    /// Threshold counts: windows counted, thresholds in force (the latest), short phases.
+    pub(super) counted_windows: u64,
+    pub(super) thresholds: (u32, u32),
+    pub(super) high_short: u64,
+    pub(super) low_short: u64,
+}
+
+impl Default for ExtAcc {
+    fn default() -> Self {
+        ExtAcc {
+            windows: 0,
+            cycles: 0,
+            high: (u32::MAX, 0),
+            low: (u32::MAX, 0),
+            period: (u32::MAX, 0),
+            range: [0; 3],
+            high_sum: 0,
+            low_sum: 0,
+            covered: 0,
+            span: (u64::MAX, 0),
+            high_min_at: 0,
+            low_min_at: 0,
+            counted_windows: 0,
+            thresholds: (0, 0),
+            high_short: 0,
+            low_short: 0,
+        }
+    }
+}
+
+impl ExtAcc {
+    /// Fold a later block's extremes into these.
+    pub(super) fn merge(&mut self, o: &ExtAcc) {
+        if o.high.0 < self.high.0 {
+            self.high_min_at = o.high_min_at;
+        }
+        if o.low.0 < self.low.0 {
+            self.low_min_at = o.low_min_at;
+        }
+        let mm = |a: (u32, u32), b: (u32, u32)| (a.0.min(b.0), a.1.max(b.1));
+        self.high = mm(self.high, o.high);
+        self.low = mm(self.low, o.low);
+        self.period = mm(self.period, o.period);
+        for i in 0..3 {
+            self.range[i] = self.range[i].max(o.range[i]);
+        }
+        self.windows += o.windows;
+        self.cycles += o.cycles;
+        self.high_sum = self.high_sum.saturating_add(o.high_sum);
+        self.low_sum = self.low_sum.saturating_add(o.low_sum);
+        self.covered = self.covered.saturating_add(o.covered);
+        self.span = (self.span.0.min(o.span.0), self.span.1.max(o.span.1));
+        self.counted_windows += o.counted_windows;
+        if o.counted_windows > 0 {
+            self.thresholds = o.thresholds;
+        }
+        self.high_short += o.high_short;
+        self.low_short += o.low_short;
+    }
+
+    /// Share of the elapsed time the windows received cover (1.0 when every window arrived).
+    pub(super) fn coverage(&self) -> Option<f64> {
+        let elapsed = self.span.1.checked_sub(self.span.0)?;
+        (elapsed > 0).then(|| (self.covered as f64 / elapsed as f64).clamp(0.0, 1.0))
+    }
 }
 
 impl ClockAcc {
@@ -194,6 +282,7 @@ impl ClockAcc {
             count_reciprocal: false,
             samples: 0,
             samples_high: 0,
+            ext: ExtAcc::default(),
         }
     }
 
@@ -257,6 +346,7 @@ impl ClockAcc {
         self.count_reciprocal |= o.count_reciprocal;
         self.samples += o.samples;
         self.samples_high += o.samples_high;
+        self.ext.merge(&o.ext);
     }
 }
 

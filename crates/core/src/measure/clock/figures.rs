@@ -57,6 +57,42 @@ pub struct AllanPoint {
     pub terms: u64,
 }
 
+/// One phase shorter than its threshold, as the probe stamped it.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct ShortPhaseEvent {
+    /// When the phase began, s of probe time.
+    pub at_s: f64,
+    /// "high" or "low".
+    pub phase: &'static str,
+    /// Its length, ns (± one tick).
+    pub length_ns: f64,
+}
+
+/// The probe's threshold counts: every cycle whose high or low time was shorter than the
+/// threshold the host set, counted by the probe over the windows.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ThresholdViolations {
+    /// High-time threshold in force, ns (None: not counted).
+    pub high_threshold_ns: Option<f64>,
+    /// Low-time threshold in force, ns (None: not counted).
+    pub low_threshold_ns: Option<f64>,
+    /// Cycles whose high time was shorter.
+    pub high_short: u64,
+    /// Cycles whose low time was shorter.
+    pub low_short: u64,
+    /// Windows counted.
+    pub windows: u64,
+    /// The first short phases the probe stamped (a few per window, at most 200).
+    pub first: Vec<ShortPhaseEvent>,
+}
+
+impl ThresholdViolations {
+    /// Short phases of either kind.
+    pub fn total(&self) -> u64 {
+        self.high_short + self.low_short
+    }
+}
+
 /// The measured clock of one channel. Uncertainties are expanded (k = 2.5).
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct ClockSnapshot {
@@ -69,10 +105,12 @@ pub struct ClockSnapshot {
     /// Probe tick: the resolution of every single time, ns.
     pub resolution_ns: f64,
     /// How the cycles were observed: "continuous" (every edge stamped), "bursts" (stamped in
-    /// stretches: a burst-mode probe or a link that fell behind) or "count-windows".
+    /// stretches: a burst-mode probe or a link that fell behind), "count-windows" or
+    /// "window-extremes" (every cycle timed by the probe, its extremes sent per window).
     pub observation: String,
     /// Share of the elapsed cycles that were stamped (0…1); the worst-cycle figures are the
-    /// worst of these cycles only.
+    /// worst of these cycles only. Window extremes: the share of the elapsed time the windows
+    /// received cover (1.0 when every window arrived: every cycle was observed).
     pub coverage: Option<f64>,
     /// Edges seen.
     pub edges: u64,
@@ -177,6 +215,10 @@ pub struct ClockSnapshot {
     pub stalls: u64,
     /// Figures the probe cannot observe, and why.
     pub unavailable: Vec<Unavailable>,
+    /// The probe's threshold counts (a probe that counts the cycles shorter than thresholds
+    /// the host set; absent otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub violations: Option<ThresholdViolations>,
 }
 
 impl ClockSnapshot {
@@ -246,6 +288,7 @@ impl ClockSnapshot {
             glitches: 0,
             stalls: 0,
             unavailable: Vec::new(),
+            violations: None,
         }
     }
 
@@ -258,11 +301,23 @@ impl ClockSnapshot {
         }
     }
 
-    /// "N % of all" when not every cycle was stamped (None for a continuous stream).
+    /// "N % of all" when not every cycle was stamped (None for a continuous stream, and for
+    /// window extremes of which every window arrived).
     pub fn observed_share(&self) -> Option<String> {
         match self.coverage {
-            Some(c) if self.observation != "continuous" => Some(format!("{} of all", percent(c))),
+            Some(c) if !self.every_cycle_observed() => Some(format!("{} of all", percent(c))),
             _ => None,
+        }
+    }
+
+    /// Whether every cycle was observed: every edge stamped ("continuous"), or every cycle
+    /// timed by the probe and every window of its extremes received ("window-extremes" with a
+    /// coverage of 1).
+    pub fn every_cycle_observed(&self) -> bool {
+        match self.observation.as_str() {
+            "continuous" => true,
+            "window-extremes" => self.coverage.is_some_and(|c| c >= 1.0 - 1e-9),
+            _ => false,
         }
     }
 

@@ -4,7 +4,7 @@
 //! By concern: `config` (settings and shared constants), `acc` (block accumulators, fit and run
 //! sums), `state` (the per-edge state machine, the reference path), `bulk` (clean stretches as
 //! arrays, identical to the per-edge path), `buffers` (their working arrays), `tie` (detrended
-//! TIE records), `count` (count windows), `figures` (what is reported), `snapshot` (the
+//! TIE records), `count` (count windows), `extremes` (window extremes and threshold counts), `figures` (what is reported), `snapshot` (the
 //! figures and their uncertainty model) and `walk` (the quantisation a mean keeps when the
 //! edges sit on few phases of the tick).
 
@@ -13,6 +13,7 @@ mod buffers;
 mod bulk;
 mod config;
 mod count;
+mod extremes;
 mod figures;
 mod snapshot;
 mod state;
@@ -22,7 +23,10 @@ mod walk;
 pub use acc::ClockAcc;
 pub(crate) use acc::ShortRun;
 pub use config::{ClockConfig, K};
-pub use figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles, Unavailable};
+pub use figures::{
+    AllanPoint, ClockSnapshot, NCycle, Percentiles, ShortPhaseEvent, ThresholdViolations,
+    Unavailable,
+};
 pub use snapshot::snapshot;
 pub use state::{ClockState, Glitch, Stall};
 pub use tie::detrended;

@@ -13,6 +13,7 @@ use super::super::stats::{DevHistogram, IntStats};
 use super::acc::ClockAcc;
 use super::config::{BATCH, K, MIN_TIE_STRETCH};
 use super::count::{counted_figures, counted_only};
+use super::extremes::{extremes_figures, extremes_only, violations};
 use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
 use super::state::ClockState;
 use super::walk::coherent_quantisation_ticks;
@@ -47,6 +48,11 @@ pub fn snapshot(
     s.counted_cycles = a.count_edges;
     s.glitches = a.glitches;
     s.stalls = a.stalls;
+    s.violations = violations(a, state);
+    if extremes_only(a) {
+        extremes_figures(&mut s, a, timebase_ppm);
+        return s;
+    }
     if counted_only(a) {
         counted_figures(&mut s, a, timebase_ppm);
         s.observation = "count-windows".into();

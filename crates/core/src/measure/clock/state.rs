@@ -99,6 +99,8 @@ pub struct ClockState {
     pub(crate) glitch_events: Vec<Glitch>,
     /// Recent stalls.
     pub(crate) stall_events: Vec<Stall>,
+    /// The first short phases a threshold-counting probe stamped.
+    pub(crate) short_events: Vec<super::figures::ShortPhaseEvent>,
     pub(super) scratch: Box<Scratch>,
 }
 
@@ -145,6 +147,7 @@ impl ClockState {
             runs: [None, None],
             glitch_events: Vec::new(),
             stall_events: Vec::new(),
+            short_events: Vec::new(),
         }
     }
 
