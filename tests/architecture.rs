@@ -17,6 +17,7 @@ const ALLOWED: &[(&str, &[&str])] = &[
     ("core/probe", &[]),
     ("core/budget", &["core/units", "core/diag"]),
     ("core/power", &["core/budget", "core/units", "core/diag"]),
+    ("core/import", &["core/budget", "core/units", "core/diag"]),
     ("core/measure", &["core/probe", "core/units"]),
     (
         "core/margin",
