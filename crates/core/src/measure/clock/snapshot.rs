@@ -47,6 +47,7 @@ pub fn snapshot(
     s.counted_cycles = a.count_edges;
     s.glitches = a.glitches;
     s.stalls = a.stalls;
+    s.cycles_set_aside = a.set_aside_cycles;
     if counted_only(a) {
         counted_figures(&mut s, a, timebase_ppm);
         s.observation = "count-windows".into();
