@@ -212,7 +212,7 @@ fn strongest_period(x: &[f64], re: &mut Vec<f64>, im: &mut Vec<f64>) -> Option<f
         }
         -(sr * sr + si * si)
     };
-    let f = golden_min((k as f64 - 1.0) * bin, (k as f64 + 1.0) * bin, 24, power);
+    let f = golden_min((k as f64 - 1.0) * bin, (k as f64 + 1.0) * bin, 16, power);
     // then the period whose harmonics together hold the most power (the approximate
     // non-linear least-squares pitch estimator, Christensen & Jakobsson 2009): with every
     // harmonic counted, a sawtooth's harmonics do not pull the period as they pull one peak
@@ -241,7 +241,7 @@ fn strongest_period(x: &[f64], re: &mut Vec<f64>, im: &mut Vec<f64>) -> Option<f
             .sum::<f64>()
     };
     let half_bin = 0.5 / n as f64;
-    let f = golden_min(f - half_bin, f + half_bin, 24, harmonic_sum);
+    let f = golden_min(f - half_bin, f + half_bin, 16, harmonic_sum);
     (f * n as f64 >= MIN_CYCLES && f < 0.5).then_some(f)
 }
 
@@ -477,13 +477,17 @@ fn fft(re: &mut [f64], im: &mut [f64]) {
             im.swap(i, j);
         }
     }
+    // the twiddles e^(−2πi k/n) once; a stage of length len takes every (n/len)-th
+    let twiddles: Vec<(f64, f64)> = (0..n / 2)
+        .map(|k| (-2.0 * std::f64::consts::PI * k as f64 / n as f64).sin_cos())
+        .collect();
     let mut len = 2;
     while len <= n {
-        let ang = -2.0 * std::f64::consts::PI / len as f64;
         let half = len / 2;
+        let stride = n / len;
         for start in (0..n).step_by(len) {
             for k in 0..half {
-                let (ws, wc) = (ang * k as f64).sin_cos();
+                let (ws, wc) = twiddles[k * stride];
                 let (a, b) = (start + k, start + k + half);
                 let tr = re[b] * wc - im[b] * ws;
                 let ti = re[b] * ws + im[b] * wc;
