@@ -355,7 +355,8 @@ fn ripple_that_is_not_one_tone_keeps_its_pkpk_rms_and_noise() {
     // uncorrelated parts add in power); noise: Gaussian plus the 2 mV ADC step (uniform,
     // 2/√12 mV RMS, Widrow's model of quantisation)
     // (ripple pk-pk, Hz, shape, hum pk-pk, Hz, noise RMS, pk-pk and noise tolerance)
-    let cases: [(f64, f64, RippleShape, f64, f64, f64, f64, f64); 5] = [
+    type Case = (f64, f64, RippleShape, f64, f64, f64, f64, f64);
+    let cases: [Case; 5] = [
         (
             30.0,
             250.0,
