@@ -355,13 +355,63 @@ fn ripple_that_is_not_one_tone_keeps_its_pkpk_rms_and_noise() {
     // the truth is the bench model's waveform (sim/bench.rs): pk-pk over each 100 ms, RMS from the closed forms (sawtooth and triangle of amplitude A: A/√3; sine A/√2;
     // uncorrelated parts add in power); noise: Gaussian plus the 2 mV ADC step (uniform,
     // 2/√12 mV RMS, Widrow's model of quantisation)
-    let cases: [(f64, f64, RippleShape, f64, f64, f64); 4] = [
-        (30.0, 250.0, RippleShape::Sawtooth, 0.0, 100.0, 2.0),
-        (20.0, 1250.0, RippleShape::Sawtooth, 12.0, 100.0, 1.5),
-        (16.0, 640.0, RippleShape::Triangle, 10.0, 120.0, 1.0),
-        (10.0, 2210.0, RippleShape::Sine, 14.0, 100.0, 2.0),
+    // (ripple pk-pk, Hz, shape, hum pk-pk, Hz, noise RMS, pk-pk and noise tolerance)
+    type Case = (f64, f64, RippleShape, f64, f64, f64, f64, f64);
+    let cases: [Case; 5] = [
+        (
+            30.0,
+            250.0,
+            RippleShape::Sawtooth,
+            0.0,
+            100.0,
+            2.0,
+            0.05,
+            0.05,
+        ),
+        // a period that is not a whole number of samples (38.9): the drop is averaged over a
+        // phase bin (the documented limit)
+        (
+            30.0,
+            257.0,
+            RippleShape::Sawtooth,
+            0.0,
+            100.0,
+            2.0,
+            0.08,
+            0.10,
+        ),
+        (
+            20.0,
+            1250.0,
+            RippleShape::Sawtooth,
+            12.0,
+            100.0,
+            1.5,
+            0.05,
+            0.05,
+        ),
+        (
+            16.0,
+            640.0,
+            RippleShape::Triangle,
+            10.0,
+            120.0,
+            1.0,
+            0.05,
+            0.05,
+        ),
+        (
+            10.0,
+            2210.0,
+            RippleShape::Sine,
+            14.0,
+            100.0,
+            2.0,
+            0.05,
+            0.05,
+        ),
     ];
-    for (ripple, hz, shape, hum, hum_hz, noise) in cases {
+    for (ripple, hz, shape, hum, hum_hz, noise, pk_tol, noise_tol) in cases {
         let mut m = BenchModel::scenario("steady").unwrap();
         m.freq_hz = 100e3;
         let rail = RailModel {
@@ -415,7 +465,7 @@ fn ripple_that_is_not_one_tone_keeps_its_pkpk_rms_and_noise() {
             r.ripple_hz
         );
         assert!(
-            (pk - want_pk).abs() < 0.05 * want_pk,
+            (pk - want_pk).abs() < pk_tol * want_pk,
             "{what}: pk-pk {pk} vs {want_pk}"
         );
         assert!(
@@ -423,7 +473,7 @@ fn ripple_that_is_not_one_tone_keeps_its_pkpk_rms_and_noise() {
             "{what}: RMS {rms} vs {want_rms}"
         );
         assert!(
-            (nz - want_noise).abs() < 0.05 * want_noise,
+            (nz - want_noise).abs() < noise_tol * want_noise,
             "{what}: noise {nz} vs {want_noise}"
         );
         let strongest = if shape_ms > hum * hum / 8.0 {

@@ -346,6 +346,28 @@ fn short_real_periods_at_duty_10_and_90_are_not_set_aside() {
 }
 
 #[test]
+fn a_stall_inside_the_first_period_leaves_the_figures() {
+    // The truth is the edge list: a clean 36-tick clock (18 high, 18 low) whose first low
+    // phase lasts ten periods more. The cycles judged with the seed that stalled period gave
+    // leave the figures (counted as set aside); the longest period, the jitter and the worst
+    // phases are the clean clock's, and every cycle is either in the figures or set aside.
+    let mut ticks = vec![1000u64, 1018];
+    let mut t = 1018 + 18 + 360;
+    for _ in 0..20_000 {
+        ticks.push(t);
+        ticks.push(t + 18);
+        t += 36;
+    }
+    let c = jitter_of(&ticks, TICK_1NS);
+    assert!(c.cycles_set_aside > 0, "nothing set aside");
+    assert_eq!(c.cycles + c.cycles_set_aside, 20_000, "every cycle once");
+    assert_eq!(c.period_max_ns, Some(36.0));
+    assert_eq!(c.period_min_ns, Some(36.0));
+    assert_eq!((c.high_min_ns, c.low_min_ns), (Some(18.0), Some(18.0)));
+    assert_eq!(c.glitches, 0);
+}
+
+#[test]
 fn a_glitch_keeps_its_time_and_width() {
     // a 20 ns high pulse 700 ns into cycle 50 (rise at 50 100 ns): the glitch list says so
     let mut f = Feed::new(engine_cfg([10, 100]));

@@ -567,6 +567,9 @@ mod validate_tests {
             (Box::new(|m| m.stall_periods = -5.0), "--stall-periods"),
             (Box::new(|m| m.stall_periods = 1e9), "--stall-periods"),
             (Box::new(|m| m.analog_rate_hz = 1e9), "analog sample rate"),
+            (Box::new(|m| m.rails[0].ripple_hz = 0.0), "ripple-freq"),
+            (Box::new(|m| m.rails[0].hum_mv = -1.0), "hum"),
+            (Box::new(|m| m.rails[0].hum_hz = f64::NAN), "hum-freq"),
             // 100 MHz at 50 % duty: 5 ns phases against an 8 ns tick
             (Box::new(|m| m.freq_hz = 100e6), "cannot represent"),
             (

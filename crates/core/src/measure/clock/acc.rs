@@ -150,6 +150,9 @@ pub struct ClockAcc {
     pub glitches: u64,
     /// Stalls.
     pub stalls: u64,
+    /// Cycles left out of the figures: judged with typical values that a stall or slow start
+    /// inside the very first period seeded, before the engine seeded again.
+    pub set_aside_cycles: u64,
     /// Contiguous runs of periods (each gap, loss or glitch starts a new one).
     pub runs: u64,
     /// First and last tick of the stamped periods (the elapsed time they lie in).
@@ -273,6 +276,7 @@ impl ClockAcc {
             edges: 0,
             glitches: 0,
             stalls: 0,
+            set_aside_cycles: 0,
             runs: 0,
             span: (u64::MAX, 0),
             idle_ticks: 0,
@@ -337,6 +341,7 @@ impl ClockAcc {
         self.edges += o.edges;
         self.glitches += o.glitches;
         self.stalls += o.stalls;
+        self.set_aside_cycles += o.set_aside_cycles;
         self.runs += o.runs;
         self.cover(o.span.0, o.span.1);
         self.idle_ticks += o.idle_ticks;

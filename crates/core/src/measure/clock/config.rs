@@ -56,6 +56,10 @@ pub const SPACING_FRACTION: f64 = 0.85;
 /// first period).
 pub const REFRESH: u32 = 512;
 
+/// Periods of the first refresh segments (1, 16, 256): a new seed within them drops the cycles
+/// judged with the old one from the figures.
+pub const SEEDED_CYCLES: u64 = 1 + 16 + 256;
+
 /// Periods per batch: summing 256 contiguous periods lifts their random walk far above the
 /// quantisation of the two end stamps, so period noise is measurable even below one tick.
 pub const BATCH: u32 = 256;

@@ -7,7 +7,7 @@ use rand::{Rng, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 /// A stream of (tick, rising) with the troubles a bench sees: jitter, glitches next to
-/// edges, runts ending just before an edge, stalls, a dropped edge (polarity break), time
+/// edges, runts ending just before an edge, a stall inside the first period, stalls, a dropped edge (polarity break), time
 /// running backwards (a probe restart).
 fn stream(seed: u64, n: usize) -> Vec<(u64, bool)> {
     let mut r = Xoshiro256PlusPlus::seed_from_u64(seed);
@@ -18,6 +18,15 @@ fn stream(seed: u64, n: usize) -> Vec<(u64, bool)> {
     let mut out = Vec::with_capacity(n);
     let mut t = r.random_range(0..1u64 << 40);
     let mut rising = r.random_bool(0.5);
+    // now and then a start inside a stall: the first period is ten long (a new seed follows)
+    if r.random_bool(0.25) {
+        out.push((t, rising));
+        rising = !rising;
+        t += period / 2 + 1;
+        out.push((t, rising));
+        rising = !rising;
+        t += 10 * period;
+    }
     while out.len() < n {
         let base = if rising {
             (period as f64 * (1.0 - duty)) as u64

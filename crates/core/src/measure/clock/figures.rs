@@ -213,6 +213,10 @@ pub struct ClockSnapshot {
     pub glitches: u64,
     /// Stalls counted.
     pub stalls: u64,
+    /// Cycles left out of every figure: the first cycles of a run, judged with typical values
+    /// that a stall or slow start inside the very first period seeded (the engine seeded again
+    /// and dropped them; their edges still count).
+    pub cycles_set_aside: u64,
     /// Figures the probe cannot observe, and why.
     pub unavailable: Vec<Unavailable>,
     /// The probe's threshold counts (a probe that counts the cycles shorter than thresholds
@@ -287,6 +291,7 @@ impl ClockSnapshot {
             histograms: [Vec::new(), Vec::new(), Vec::new()],
             glitches: 0,
             stalls: 0,
+            cycles_set_aside: 0,
             unavailable: Vec::new(),
             violations: None,
         }

@@ -48,6 +48,7 @@ pub fn snapshot(
     s.counted_cycles = a.count_edges;
     s.glitches = a.glitches;
     s.stalls = a.stalls;
+    s.cycles_set_aside = a.set_aside_cycles;
     s.violations = violations(a, state);
     if extremes_only(a) {
         extremes_figures(&mut s, a, timebase_ppm);

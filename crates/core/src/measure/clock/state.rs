@@ -8,7 +8,8 @@ use super::super::allan::AllanStream;
 use super::acc::{ClockAcc, FitSums, RunAcc, ShortRun, seg_add};
 use super::buffers::{RiseHistory, Scratch};
 use super::config::{
-    BATCH, ClockConfig, MAX_GAP_TICKS, MIN_TIE_STRETCH, REFRESH, SHORT_RUN_NS, SPACING_FRACTION,
+    BATCH, ClockConfig, MAX_GAP_TICKS, MIN_TIE_STRETCH, REFRESH, SEEDED_CYCLES, SHORT_RUN_NS,
+    SPACING_FRACTION,
 };
 use super::tie::close_record;
 
@@ -89,6 +90,10 @@ pub struct ClockState {
     pub(super) allan_countdown: u64,
     /// The current block.
     pub acc: Option<ClockAcc>,
+    /// The current block holds every cycle since the first period seeded the typical values
+    /// (no block was handed over since), and the glitch list's length at that seed.
+    pub(super) seed_whole: bool,
+    pub(super) seed_events: usize,
     /// Edges seen while there was no block (before the first period, or after a block was
     /// handed over): counted into the next block, so edge counts are exact.
     pub(super) loose_edges: u64,
@@ -142,6 +147,8 @@ impl ClockState {
             allan_every: 1,
             allan_countdown: 0,
             acc: None,
+            seed_whole: false,
+            seed_events: 0,
             loose_edges: 0,
             run: RunAcc::default(),
             runs: [None, None],
@@ -236,13 +243,16 @@ impl ClockState {
 
     fn ensure_acc(&mut self, first_period: Option<i64>) -> Option<&mut ClockAcc> {
         if self.acc.is_none() {
-            if self.refs.is_none() {
+            let seeding = self.refs.is_none();
+            if seeding {
                 let p = first_period?;
                 let (h, l) = (p / 2, p - p / 2);
                 self.refs = Some((p, h.max(1), l.max(1)));
                 self.typ_period = p as f64;
             }
             self.acc = self.empty_acc();
+            self.seed_whole = seeding;
+            self.seed_events = self.glitch_events.len();
             if let Some(a) = self.acc.as_mut() {
                 a.edges += std::mem::take(&mut self.loose_edges);
             }
@@ -272,6 +282,7 @@ impl ClockState {
             self.seg = [(0, 0); 3];
             (self.typ_period, self.typ_high, self.typ_low) = (0.0, 0.0, 0.0);
             self.segment = 1;
+            self.drop_seeded_cycles();
         }
         let typ = [&mut self.typ_period, &mut self.typ_high, &mut self.typ_low];
         for ((sum, n), typ) in self.seg.iter_mut().zip(typ) {
@@ -314,6 +325,48 @@ impl ClockState {
         } else {
             u64::MAX
         };
+    }
+
+    /// The cycles judged since a wrong first seed leave the figures: when the current block
+    /// holds all of them (none handed over yet) and they are the first refresh segments'
+    /// ([`SEEDED_CYCLES`] at most), the block starts afresh (edges, stalls and count windows
+    /// kept; the pulses set aside under the wrong seed were real phases, so they leave the
+    /// glitch count and list) with the dropped periods counted as set aside, and every
+    /// statistic that spans cycles (TIE fit and record, N-cycle rises, batch, Allan stream,
+    /// the previous period) starts again with the next period. Both paths reach this at the
+    /// same edge (the refresh comes after the period that completes a segment).
+    fn drop_seeded_cycles(&mut self) {
+        let (Some(a), Some((p, h, l))) = (self.acc.as_ref(), self.refs) else {
+            return;
+        };
+        if !self.seed_whole || a.period.n > SEEDED_CYCLES {
+            return;
+        }
+        let mut fresh = ClockAcc::new(p, h, l);
+        fresh.edges = a.edges;
+        fresh.stalls = a.stalls;
+        // each pulse set aside merged two cycles' periods into one: the cycles are the
+        // periods and those pulses
+        fresh.set_aside_cycles = a.set_aside_cycles + a.period.n + a.glitches;
+        fresh.count_edges = a.count_edges;
+        fresh.count_ticks = a.count_ticks;
+        fresh.count_windows = a.count_windows;
+        fresh.count_reciprocal = a.count_reciprocal;
+        fresh.samples = a.samples;
+        fresh.samples_high = a.samples_high;
+        // the stretch goes on: one run, its periods from the next one
+        fresh.runs = 1;
+        self.acc = Some(fresh);
+        self.glitch_events.truncate(self.seed_events);
+        self.stretch = FitSums::default();
+        self.fit_origin = None;
+        self.record.clear();
+        self.rises.clear();
+        self.batch_sum = 0;
+        self.batch_n = 0;
+        self.prev_period = None;
+        self.allan = None;
+        self.allan_countdown = 0;
     }
 
     /// One edge (ticks strictly increasing, polarities alternating; anything else starts over
@@ -541,7 +594,6 @@ impl ClockState {
         let k = idx - 1;
         let (pref, _, _) = self.refs.expect("refs set with the first period");
         seg_add(&mut self.seg[0], p as u64, 1);
-        self.count_periods(1);
         let prev = self.prev_period.replace(p);
         // phase of this rising edge against the session's reference clock; the first period
         // also brings its opening edge into the fit
@@ -633,6 +685,8 @@ impl ClockState {
             self.allan_countdown = every;
             al.push(u as f64 * self.tick_ns);
         }
+        // the refresh after the period is in (as the bulk path counts a step's periods)
+        self.count_periods(1);
     }
 }
 
@@ -667,5 +721,11 @@ mod tests {
         assert!(a.period.n > cycles - 300, "{} periods", a.period.n);
         let mean = a.period.mean().expect("periods");
         assert!((mean - 36.0).abs() < 0.5, "mean period {mean} ticks");
+        // the cycles judged with the wrong seed left the figures, counted as set aside: the
+        // longest period is the clock's, and the edges are all counted
+        assert!(a.set_aside_cycles > 0, "nothing set aside");
+        assert_eq!(a.period.n + a.set_aside_cycles, cycles, "every period once");
+        assert_eq!(a.period.max, 36, "longest period");
+        assert_eq!(a.edges, 2 + 2 * cycles);
     }
 }
