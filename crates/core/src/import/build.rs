@@ -92,6 +92,9 @@ fn edge_word(e: Edge) -> &'static str {
     }
 }
 
+/// The nets on one group of a component's pins, with each pin's bit.
+type NetsOf<'a> = dyn Fn(usize, &str) -> Vec<(String, String)> + 'a;
+
 /// A matched component.
 struct Comp<'a> {
     reference: String,
@@ -261,13 +264,13 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
                     let out_group = delays[0].split("->").nth(1).unwrap_or("").trim();
                     let next = if inverts { flip(edge) } else { edge };
                     for out in c.pins.iter().filter(|p| p.group == out_group && bit(&p.name) == bit(&pin.name)) {
-                        if let Some(&no) = net_of.get(&(ci, out.number)) {
-                            if let std::collections::hash_map::Entry::Vacant(e) = domain.entry(no) {
-                                let mut v = via.clone();
-                                v.push(format!("{} {}", c.reference, delays[0]));
-                                e.insert((next, v.clone()));
-                                queue.push((no, next, v));
-                            }
+                        if let Some(&no) = net_of.get(&(ci, out.number))
+                            && let std::collections::hash_map::Entry::Vacant(e) = domain.entry(no)
+                        {
+                            let mut v = via.clone();
+                            v.push(format!("{} {}", c.reference, delays[0]));
+                            e.insert((next, v.clone()));
+                            queue.push((no, next, v));
                         }
                     }
                 }
@@ -432,7 +435,7 @@ fn write(
     clocked: &[Clocked],
     chains: &[String],
     todos: &[String],
-    nets_of: &dyn Fn(usize, &str) -> Vec<(String, String)>,
+    nets_of: &NetsOf,
 ) -> String {
     let mut out = format!(
         "# Imported from {} by `slackmeter import` (master clock: net {}). Delays come from the\n\
