@@ -287,6 +287,22 @@ fn what_it_cannot_decide_is_listed_with_the_part_pin_and_net() {
         &NoIncludes,
     )
     .unwrap_or_else(|e| panic!("{e:?}\n{}", done.design));
+    // a capture of a net only an unknown part drives is left out, and said so
+    let no_driver = base.replace("(value \"SN74HC245N\")", "(value \"XQ245\")");
+    let done = run_import(&no_driver, "CLK").unwrap();
+    assert!(
+        done.todos
+            .iter()
+            .any(|x| x.starts_with("U1 D->CLK: net B0 is driven by no part this import times")),
+        "{:#?}",
+        done.todos
+    );
+    Design::parse_with(
+        Source::new("t.toml", done.design.clone()),
+        &Library::builtin(),
+        &NoIncludes,
+    )
+    .unwrap_or_else(|e| panic!("{e:?}\n{}", done.design));
     // a clock net that is not there
     let e = run_import(&base, "MCLK").unwrap_err();
     assert!(e.contains("no net named \"MCLK\""), "{e}");
