@@ -408,38 +408,3 @@ fn the_command_writes_the_design_and_lists_the_todos_on_stderr() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
-
-#[test]
-#[ignore]
-fn timing_probe() {
-    let lib = Library::builtin();
-    let text = two_stage();
-    let t0 = std::time::Instant::now();
-    for _ in 0..20 {
-        let _ = import::parse(&Source::new("m.net", text.as_str())).unwrap();
-    }
-    let t1 = std::time::Instant::now();
-    let n = import::parse(&Source::new("m.net", text.as_str())).unwrap();
-    let m = map();
-    let o = Options {
-        clock: "CLK",
-        map: &m,
-        name: "m",
-        source: "m.net",
-    };
-    for _ in 0..20 {
-        let _ = import::import(&n, &lib, &o).unwrap();
-    }
-    let t2 = std::time::Instant::now();
-    let d = import::import(&n, &lib, &o).unwrap().design;
-    for _ in 0..20 {
-        let _ = Design::parse_with(Source::new("m.toml", d.clone()), &lib, &NoIncludes);
-    }
-    let t3 = std::time::Instant::now();
-    eprintln!(
-        "parse {:?} import {:?} design {:?}",
-        (t1 - t0) / 20,
-        (t2 - t1) / 20,
-        (t3 - t2) / 20
-    );
-}

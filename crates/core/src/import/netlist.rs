@@ -224,48 +224,6 @@ mod tests {
         assert_eq!(n.nets[1].nodes[0].pin, "10");
     }
 
-    /// A netlist of `parts` 74HC574s in a ring, each pin on its own net (the size benchmark's
-    /// shape); run with `--ignored --nocapture` to see the time.
-    pub fn ring(parts: usize) -> String {
-        let mut s = String::from("(export (version \"E\")\n  (components\n");
-        for i in 0..parts {
-            s += &format!(
-                "    (comp (ref \"U{i}\") (value \"74HC574\") (footprint \"DIP-20\") (sheetpath (names \"/\") (tstamps \"/\")))\n"
-            );
-        }
-        s += "  )\n  (nets\n";
-        for i in 0..parts {
-            for b in 0..8 {
-                let next = (i + 1) % parts;
-                s += &format!(
-                    "    (net (code \"{}\") (name \"/Q{i}_{b}\") (node (ref \"U{i}\") (pin \"{}\") (pintype \"output\")) (node (ref \"U{next}\") (pin \"{}\") (pintype \"input\")))\n",
-                    i * 8 + b,
-                    19 - b,
-                    2 + b
-                );
-            }
-        }
-        s + "  )\n)\n"
-    }
-
-    #[test]
-    #[ignore]
-    fn size_probe() {
-        let text = ring(500);
-        let t = std::time::Instant::now();
-        let v = lexpr::from_str(&text).unwrap();
-        eprintln!("value parse {:?}", t.elapsed());
-        drop(v);
-        let t = std::time::Instant::now();
-        let n = read(&text).unwrap();
-        eprintln!(
-            "{} bytes, {} nets: {:?}",
-            text.len(),
-            n.nets.len(),
-            t.elapsed()
-        );
-    }
-
     #[test]
     fn a_truncated_or_foreign_file_is_a_located_error() {
         let cut = &SMALL[..SMALL.find("(net (code 2)").unwrap()];
