@@ -335,11 +335,11 @@ fn design_file_doc_supply_example_is_valid_wiring() {
         .skip(1)
         .filter_map(|s| s.split("```").next())
         .collect();
+    // the long tables' example and the supply example (the compact forms' example between them)
     let supply = blocks
         .iter()
         .find(|b| b.contains("[supply]"))
         .expect("the supply example");
-    // the first example is the long-form design the supply example's sections belong to
     let text = format!("{}\n{}", blocks[0], supply);
     let (d, lib) = load(&text);
     let w = Wiring::of(&d).unwrap().expect("a [supply] table");

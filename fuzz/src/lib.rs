@@ -13,7 +13,7 @@ use slackmeter_core::measure::{EngineConfig, Feed, Window};
 use std::io::Cursor;
 
 /// Names of the targets, as in `fuzz_targets/` and `regressions/`.
-pub const TARGETS: [&str; 7] = [
+pub const TARGETS: [&str; 8] = [
     "stream_decoder",
     "message_body",
     "engine_feed",
@@ -21,6 +21,7 @@ pub const TARGETS: [&str; 7] = [
     "recording_chunks",
     "design_file",
     "part_library",
+    "netlist",
 ];
 
 /// Run target `name` on `data` (for the regression replay).
@@ -33,6 +34,7 @@ pub fn run(name: &str, data: &[u8]) {
         "recording_chunks" => recording_chunks(data),
         "design_file" => design_file(data),
         "part_library" => part_library(data),
+        "netlist" => netlist(data),
         _ => panic!("no fuzz target {name}"),
     }
 }
@@ -388,4 +390,26 @@ pub fn design_file(data: &[u8]) {
 pub fn part_library(data: &[u8]) {
     let text = String::from_utf8_lossy(data);
     let _ = Library::from_sources(&[Source::new("fuzz-parts.toml", text.as_ref())]);
+}
+
+/// Any text as a KiCad netlist: read, imported against the built-in library (clock net "CLK"),
+/// and the design it writes read back.
+pub fn netlist(data: &[u8]) {
+    static LIB: std::sync::OnceLock<Library> = std::sync::OnceLock::new();
+    let lib = LIB.get_or_init(Library::builtin);
+    let text = String::from_utf8_lossy(data);
+    let Ok(n) = slackmeter_core::import::parse(&Source::new("fuzz.net", text.as_ref())) else {
+        return;
+    };
+    let map = std::collections::BTreeMap::new();
+    let o = slackmeter_core::import::Options {
+        clock: "CLK",
+        map: &map,
+        name: "fuzz",
+        source: "fuzz.net",
+    };
+    if let Ok(done) = slackmeter_core::import::import(&n, lib, &o) {
+        let no_files = slackmeter_core::budget::design::NoIncludes;
+        let _ = Design::parse_with(Source::new("fuzz.toml", done.design), lib, &no_files);
+    }
 }

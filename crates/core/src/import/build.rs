@@ -92,6 +92,9 @@ fn edge_word(e: Edge) -> &'static str {
     }
 }
 
+/// The nets on one group of a component's pins, with each pin's bit.
+type NetsOf<'a> = dyn Fn(usize, &str) -> Vec<(String, String)> + 'a;
+
 /// A matched component.
 struct Comp<'a> {
     reference: String,
@@ -261,13 +264,13 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
                     let out_group = delays[0].split("->").nth(1).unwrap_or("").trim();
                     let next = if inverts { flip(edge) } else { edge };
                     for out in c.pins.iter().filter(|p| p.group == out_group && bit(&p.name) == bit(&pin.name)) {
-                        if let Some(&no) = net_of.get(&(ci, out.number)) {
-                            if let std::collections::hash_map::Entry::Vacant(e) = domain.entry(no) {
-                                let mut v = via.clone();
-                                v.push(format!("{} {}", c.reference, delays[0]));
-                                e.insert((next, v.clone()));
-                                queue.push((no, next, v));
-                            }
+                        if let Some(&no) = net_of.get(&(ci, out.number))
+                            && let std::collections::hash_map::Entry::Vacant(e) = domain.entry(no)
+                        {
+                            let mut v = via.clone();
+                            v.push(format!("{} {}", c.reference, delays[0]));
+                            e.insert((next, v.clone()));
+                            queue.push((no, next, v));
                         }
                     }
                 }
@@ -396,7 +399,7 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
         }
     }
     Ok(Import {
-        design: write(o, &comps, &clocked, &chains, &todos, &nets_of),
+        design: write(o, &comps, &clocked, &chains, &mut todos, &nets_of),
         todos,
         skipped,
     })
@@ -431,9 +434,10 @@ fn write(
     comps: &[Comp],
     clocked: &[Clocked],
     chains: &[String],
-    todos: &[String],
-    nets_of: &dyn Fn(usize, &str) -> Vec<(String, String)>,
+    todos: &mut Vec<String>,
+    nets_of: &NetsOf,
 ) -> String {
+    let regs = registers(comps, clocked, chains, todos, nets_of);
     let mut out = format!(
         "# Imported from {} by `slackmeter import` (master clock: net {}). Delays come from the\n\
          # part library; none is made up. Each TODO needs a decision before the budget is trusted.\n\n",
@@ -479,7 +483,44 @@ fn write(
         out += &format!("  {},\n", q(c));
     }
     out += "]\n";
-    // one register group per master edge and clock path
+    out += &regs;
+    out
+}
+
+/// The register groups, one per master edge and clock path; a capture of a net nothing in the
+/// design drives (no launch, no chain) is a TODO instead.
+fn registers(
+    comps: &[Comp],
+    clocked: &[Clocked],
+    chains: &[String],
+    todos: &mut Vec<String>,
+    nets_of: &NetsOf,
+) -> String {
+    let mut timed: std::collections::HashSet<String> = chains
+        .iter()
+        .filter_map(|c| c.rsplit(" -> ").next().map(str::to_string))
+        .collect();
+    for k in clocked {
+        for a in comps[k.comp]
+            .part
+            .arcs
+            .iter()
+            .filter(|a| a.kind == ArcKind::Delay)
+        {
+            let mut s = a.name.split("->").map(str::trim);
+            if s.next() == Some(k.group.as_str()) {
+                let y = s.next().unwrap_or("");
+                timed.extend(nets_of(k.comp, y).into_iter().map(|n| n.0));
+            }
+        }
+    }
+    let mut regs = String::new();
+    let mut keys: Vec<(Edge, Vec<String>)> = Vec::new();
+    for k in clocked {
+        if !keys.iter().any(|(e, v)| *e == k.edge && *v == k.via) {
+            keys.push((k.edge, k.via.clone()));
+        }
+    }
     let mut keys: Vec<(Edge, Vec<String>)> = Vec::new();
     for k in clocked {
         if !keys.iter().any(|(e, v)| *e == k.edge && *v == k.via) {
@@ -487,11 +528,11 @@ fn write(
         }
     }
     for (edge, via) in keys {
-        out += &format!("\n[[register]]\nedge = {}\n", q(edge_word(edge)));
+        regs += &format!("\n[[register]]\nedge = {}\n", q(edge_word(edge)));
         if !via.is_empty() {
-            out += &format!("clock_via = {}\n", list(&via));
+            regs += &format!("clock_via = {}\n", list(&via));
         }
-        out += "members = [\n";
+        regs += "members = [\n";
         for k in clocked.iter().filter(|k| k.edge == edge && k.via == via) {
             let c = &comps[k.comp];
             for a in &c.part.arcs {
@@ -505,7 +546,7 @@ fn write(
                 if a.kind == ArcKind::Delay && x == k.group {
                     let qs = signals(y);
                     if !qs.is_empty() {
-                        out += &format!(
+                        regs += &format!(
                             "  {{ ref = {}, arc = {}, q = {} }},\n",
                             q(&c.reference),
                             q(&a.name),
@@ -513,9 +554,16 @@ fn write(
                         );
                     }
                 } else if a.kind == ArcKind::Setup && y == k.group {
-                    let ds = signals(x);
+                    let (ds, untimed): (Vec<String>, Vec<String>) =
+                        signals(x).into_iter().partition(|s| timed.contains(s));
+                    for s in untimed {
+                        todos.push(format!(
+                            "{} {}: net {s} is driven by no part this import times (an unknown part, or a gate whose inputs are not connected): its capture is left out",
+                            c.reference, a.name
+                        ));
+                    }
                     if !ds.is_empty() {
-                        out += &format!(
+                        regs += &format!(
                             "  {{ ref = {}, check = {}, d = {} }},\n",
                             q(&c.reference),
                             q(&a.name),
@@ -525,7 +573,7 @@ fn write(
                 }
             }
         }
-        out += "]\n";
+        regs += "]\n";
     }
-    out
+    regs
 }

@@ -197,7 +197,7 @@ fn check_arcs(
 /// The pin count of "DIP-N".
 fn pin_count(package: &Spanned<String>) -> Option<u32> {
     let n: u32 = package.get_ref().strip_prefix("DIP-")?.parse().ok()?;
-    (n >= 4 && n % 2 == 0).then_some(n)
+    (n >= 4 && n.is_multiple_of(2)).then_some(n)
 }
 
 #[cfg(test)]
