@@ -398,7 +398,8 @@ mod tests {
     #[test]
     fn extremes_rules_refuse_what_breaks_them() {
         assert_eq!(decodes(&window()), Ok(()));
-        let cases: [(fn(&mut ExtremesWindow<'static>), &str); 8] = [
+        type Breaks = fn(&mut ExtremesWindow<'static>);
+        let cases: [(Breaks, &str); 8] = [
             (|w| w.window_ticks = 0, "window length"),
             (|w| w.high_min_ticks = 64, "high time"),
             (|w| w.low_min_ticks = 0, "low time"),
