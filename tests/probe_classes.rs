@@ -515,3 +515,69 @@ fn bad_class_combinations_are_refused_in_words() {
         assert!(err.contains(want), "{args:?}: {err}");
     }
 }
+
+/// End to end over a pseudo-terminal: the host sets an extremes probe's thresholds with
+/// `--set` (CONFIGURE, in ticks), and the recording's report shows them in force and counted.
+#[test]
+fn the_host_sets_the_thresholds_over_the_link() {
+    let dir = std::env::temp_dir().join(format!("slackmeter-classes-pty-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let link = dir.join("probe");
+    let mut sim = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .args([
+            "sim",
+            "--pty",
+            "--probe-class",
+            "extremes",
+            "--glitch-rate",
+            "100Hz",
+        ])
+        .args(["--duration", "20s", "--link"])
+        .arg(&link)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let t0 = std::time::Instant::now();
+    while std::fs::read_link(&link).is_err() {
+        assert!(
+            t0.elapsed().as_secs() < 10,
+            "the virtual probe did not start"
+        );
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    let rec = dir.join("pty.smrec");
+    let out = slackmeter(&[
+        "record",
+        link.to_str().unwrap(),
+        "--set",
+        "CLK:high-threshold=13",
+        "--set",
+        "CLK:low-threshold=13",
+        "--duration",
+        "2s",
+        "-o",
+        rec.to_str().unwrap(),
+    ]);
+    let _ = sim.kill();
+    let _ = sim.wait();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = slackmeter(&["report", rec.to_str().unwrap(), "--json"]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let c = &v["clocks"][0];
+    assert_eq!(v["probe_class"], "extremes");
+    assert_eq!(c["observation"], "window-extremes");
+    // 13 ticks of 8 ns
+    assert_eq!(c["violations"]["high_threshold_ns"], 104.0);
+    assert_eq!(c["violations"]["low_threshold_ns"], 104.0);
+    assert!(
+        c["violations"]["high_short"].as_u64().unwrap()
+            + c["violations"]["low_short"].as_u64().unwrap()
+            > 0
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -143,7 +143,7 @@ pub fn engine_feed(data: &[u8]) {
         steps += 1;
         let op = t.u8();
         let mut body = [0u8; MAX_BODY];
-        let (msg_type, n) = match op % 9 {
+        let (msg_type, n) = match op % 11 {
             0 => {
                 let count = usize::from(t.u8() % 9);
                 let chans: Vec<Channel<'_>> = (0..count)
@@ -244,6 +244,65 @@ pub fn engine_feed(data: &[u8]) {
                     rx_bad_frames: t.u16(),
                     buffer_fill_pct: t.u8(),
                     state: t.u8(),
+                });
+                match m.encode_body(&mut body) {
+                    Ok(n) => (m.msg_type(), n),
+                    Err(_) => continue,
+                }
+            }
+            9 => {
+                // window extremes: extremes and sums drawn, most of them refused by the rules
+                let cycles = u32::from(t.u8());
+                let (hmin, lmin) = (u32::from(t.u16()), u32::from(t.u16()));
+                let (hmax, lmax) = (hmin + u32::from(t.u8()), lmin + u32::from(t.u8()));
+                let bins: Vec<u8> = if t.u8() & 1 == 1 {
+                    cycles.to_le_bytes().to_vec()
+                } else {
+                    Vec::new()
+                };
+                let m = Message::Extremes(proto::ExtremesWindow {
+                    channel: t.u8() % 10,
+                    flags: t.u8() & 1,
+                    start_tick: tick(&mut t),
+                    window_ticks: t.u32(),
+                    cycles,
+                    high_min_ticks: hmin,
+                    high_max_ticks: hmax,
+                    low_min_ticks: lmin,
+                    low_max_ticks: lmax,
+                    period_min_ticks: hmin + lmin,
+                    period_max_ticks: hmax + lmax,
+                    high_sum_ticks: u64::from(cycles) * u64::from(hmin),
+                    low_sum_ticks: u64::from(cycles) * u64::from(lmax),
+                    bin_origin_ticks: t.u32(),
+                    bin_width_ticks: t.u32(),
+                    bins: &bins,
+                });
+                match m.encode_body(&mut body) {
+                    Ok(n) => (m.msg_type(), n),
+                    Err(_) => continue,
+                }
+            }
+            10 => {
+                let mut stamps = [0u8; 8 * 13];
+                let phases: Vec<proto::ShortPhase> = (0..t.u8() % 9)
+                    .map(|_| proto::ShortPhase {
+                        tick: tick(&mut t),
+                        length_ticks: u32::from(t.u8()),
+                        high: t.u8() & 1 == 1,
+                    })
+                    .collect();
+                let k = proto::Violations::stamp_bytes(&phases, &mut stamps);
+                let m = Message::Violations(proto::Violations {
+                    channel: t.u8() % 10,
+                    flags: t.u8() & 1,
+                    start_tick: tick(&mut t),
+                    window_ticks: t.u32(),
+                    high_threshold_ticks: u32::from(t.u16()),
+                    low_threshold_ticks: u32::from(t.u16()),
+                    high_short: u32::from(t.u8()),
+                    low_short: u32::from(t.u8()),
+                    stamps: &stamps[..k],
                 });
                 match m.encode_body(&mut body) {
                     Ok(n) => (m.msg_type(), n),

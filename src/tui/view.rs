@@ -257,7 +257,12 @@ fn clock(f: &mut Frame, app: &App, r: Rect) {
             ));
         }
     }
-    rows.push(row(4, fit(&[format!("edges      {}", c.edges)], w), fs));
+    let count = if c.observation == "window-extremes" {
+        format!("cycles     {} (timed by the probe)", c.cycles)
+    } else {
+        format!("edges      {}", c.edges)
+    };
+    rows.push(row(4, fit(&[count], w), fs));
     let lines = by_priority(rows, r.height.saturating_sub(2) as usize);
     f.render_widget(Paragraph::new(lines).block(block), r);
 }

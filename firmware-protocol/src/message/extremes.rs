@@ -337,3 +337,165 @@ enum Bad {
     Field(&'static str),
     Overflow,
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::frame::MAX_BODY;
+
+    fn window() -> ExtremesWindow<'static> {
+        ExtremesWindow {
+            channel: 0,
+            flags: 0,
+            start_tick: 1000,
+            window_ticks: 500,
+            cycles: 4,
+            high_min_ticks: 60,
+            high_max_ticks: 63,
+            low_min_ticks: 61,
+            low_max_ticks: 65,
+            period_min_ticks: 122,
+            period_max_ticks: 127,
+            high_sum_ticks: 246,
+            low_sum_ticks: 252,
+            bin_origin_ticks: 120,
+            bin_width_ticks: 4,
+            bins: &[2, 0, 0, 0, 2, 0, 0, 0],
+        }
+    }
+
+    fn decodes(w: &ExtremesWindow<'_>) -> Result<(), DecodeError> {
+        // written without the checks, then read with them
+        let mut buf = [0u8; MAX_BODY];
+        let mut wr = Writer::new(&mut buf);
+        for v in [w.channel, w.flags] {
+            wr.u8(v).unwrap();
+        }
+        wr.u64(w.start_tick).unwrap();
+        for v in [
+            w.window_ticks,
+            w.cycles,
+            w.high_min_ticks,
+            w.high_max_ticks,
+            w.low_min_ticks,
+            w.low_max_ticks,
+            w.period_min_ticks,
+            w.period_max_ticks,
+        ] {
+            wr.u32(v).unwrap();
+        }
+        wr.u64(w.high_sum_ticks).unwrap();
+        wr.u64(w.low_sum_ticks).unwrap();
+        wr.u32(w.bin_origin_ticks).unwrap();
+        wr.u32(w.bin_width_ticks).unwrap();
+        wr.u8((w.bins.len() / 4) as u8).unwrap();
+        wr.put(w.bins).unwrap();
+        let n = wr.len;
+        ExtremesWindow::read(&mut Reader { buf: &buf[..n] }).map(|_| ())
+    }
+
+    /// Every rule of PROTOCOL.md §5.9 refuses what breaks it, in both directions.
+    #[test]
+    fn extremes_rules_refuse_what_breaks_them() {
+        assert_eq!(decodes(&window()), Ok(()));
+        type Breaks = fn(&mut ExtremesWindow<'static>);
+        let cases: [(Breaks, &str); 8] = [
+            (|w| w.window_ticks = 0, "window length"),
+            (|w| w.high_min_ticks = 64, "high time"),
+            (|w| w.low_min_ticks = 0, "low time"),
+            (|w| w.period_max_ticks = 100, "period"),
+            (|w| w.high_sum_ticks = 239, "high-time sum"),
+            (|w| w.low_sum_ticks = 261, "low-time sum"),
+            (|w| w.bin_width_ticks = 0, "histogram bin width"),
+            (|w| w.cycles = 0, "extremes of a window without cycles"),
+        ];
+        for (breaks, field) in cases {
+            let mut w = window();
+            breaks(&mut w);
+            assert_eq!(decodes(&w), Err(DecodeError::BadField(field)), "{field}");
+            let mut out = [0u8; MAX_BODY];
+            assert_eq!(
+                w.write(&mut Writer::new(&mut out)),
+                Err(BodyError::BadField(field)),
+                "{field}"
+            );
+        }
+        let mut w = window();
+        w.start_tick = u64::MAX - 499;
+        assert_eq!(decodes(&w), Err(DecodeError::TickOverflow));
+        w.start_tick = u64::MAX - 500;
+        assert_eq!(decodes(&w), Ok(()), "the last tick may be 2^64 - 1");
+    }
+
+    /// The rules of §5.10: counts need a threshold, stamps are short phases, no more stamps
+    /// than counted phases, a phase byte is 0 or 1.
+    #[test]
+    fn violation_rules_refuse_what_breaks_them() {
+        let stamp = |high: bool, len: u32| {
+            let mut b = [0u8; SHORT_PHASE_BYTES];
+            Violations::stamp_bytes(
+                &[ShortPhase {
+                    tick: 5,
+                    length_ticks: len,
+                    high,
+                }],
+                &mut b,
+            );
+            b
+        };
+        let ok = stamp(true, 9);
+        fn v(stamps: &[u8], high_thr: u32, high_short: u32) -> Violations<'_> {
+            Violations {
+                channel: 0,
+                flags: 0,
+                start_tick: 0,
+                window_ticks: 100,
+                high_threshold_ticks: high_thr,
+                low_threshold_ticks: 0,
+                high_short,
+                low_short: 0,
+                stamps,
+            }
+        }
+        let check = |v: &Violations<'_>| {
+            let mut out = [0u8; MAX_BODY];
+            let mut w = Writer::new(&mut out);
+            v.write(&mut w).map(|_| w.len)
+        };
+        let good: &[u8] = &ok;
+        assert!(check(&v(good, 10, 1)).is_ok());
+        assert_eq!(
+            check(&v(&[], 0, 1)),
+            Err(BodyError::BadField("high-time count without a threshold"))
+        );
+        assert_eq!(
+            check(&v(good, 9, 1)),
+            Err(BodyError::BadField("violation length"))
+        );
+        assert_eq!(
+            check(&v(good, 10, 0)),
+            Err(BodyError::BadField("more stamps than short phases"))
+        );
+        let low_stamp = stamp(false, 3);
+        let low: &[u8] = &low_stamp;
+        assert_eq!(
+            check(&v(low, 10, 1)),
+            Err(BodyError::BadField("violation length")),
+            "a low stamp with the low threshold off"
+        );
+        let mut bad = ok;
+        bad[12] = 2;
+        let bad: &[u8] = &bad;
+        assert_eq!(
+            check(&v(bad, 10, 1)),
+            Err(BodyError::BadField("violation phase"))
+        );
+        // what encodes decodes to the same
+        let mut out = [0u8; MAX_BODY];
+        let n = check(&v(good, 10, 1)).unwrap();
+        let mut w = Writer::new(&mut out);
+        v(good, 10, 1).write(&mut w).unwrap();
+        let back = Violations::read(&mut Reader { buf: &out[..n] }).unwrap();
+        assert_eq!(back, v(good, 10, 1));
+    }
+}

@@ -237,10 +237,13 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
         ));
     }
     if let Some(v) = c.violations.as_ref().filter(|v| v.total() > 0) {
-        let limit = |t: Option<f64>| {
-            t.map_or("not counted".to_string(), |t| {
-                format!("below {}", crate::units::ns(t))
-            })
+        let part = |n: u64, what: &str, t: Option<f64>| match t {
+            Some(t) => format!(
+                "{n} {what} time{} below {}",
+                if n == 1 { "" } else { "s" },
+                crate::units::ns(t)
+            ),
+            None => format!("{what} times not counted"),
         };
         let first = v.first.first();
         out.push(Problem::new(
@@ -248,16 +251,12 @@ pub(super) fn problems(snap: &Snapshot, c: &ClockSnapshot, mean_phases: bool) ->
             v.total(),
             first.map(|e| e.at_s),
             format!(
-                "the probe counted {} cycle{} with a phase shorter than its threshold over {} windows ({} high time{} {}, {} low time{} {}){}",
+                "the probe counted {} cycle{} with a phase shorter than its threshold over {} windows ({}, {}){}",
                 v.total(),
                 if v.total() == 1 { "" } else { "s" },
                 v.windows,
-                v.high_short,
-                if v.high_short == 1 { "" } else { "s" },
-                limit(v.high_threshold_ns),
-                v.low_short,
-                if v.low_short == 1 { "" } else { "s" },
-                limit(v.low_threshold_ns),
+                part(v.high_short, "high", v.high_threshold_ns),
+                part(v.low_short, "low", v.low_threshold_ns),
                 first.map_or(String::new(), |e| format!(
                     ", the first a {} phase of {} at {:.6} s",
                     e.phase,

@@ -19,7 +19,8 @@ impl ClockState {
         if self.acc.is_none() {
             if self.refs.is_none() {
                 let p = if w.cycles > 0 {
-                    ((w.high_sum + w.low_sum) / u64::from(w.cycles)).max(1) as i64
+                    (w.high_sum.saturating_add(w.low_sum) / u64::from(w.cycles)).clamp(1, 1 << 40)
+                        as i64
                 } else {
                     1
                 };
@@ -53,7 +54,7 @@ impl ClockState {
         e.low_sum = e.low_sum.saturating_add(w.low_sum);
         // each window is a short run of its own (failure onsets, the time-resolved series)
         let n = f64::from(w.cycles);
-        let mean_p = (w.high_sum + w.low_sum) as f64 / n;
+        let mean_p = (w.high_sum as f64 + w.low_sum as f64) / n;
         let run = ShortRun {
             end_s: w.end_tick as f64 * q * 1e-9,
             cycles: u64::from(w.cycles),
@@ -136,7 +137,7 @@ pub(super) fn extremes_figures(s: &mut ClockSnapshot, a: &ClockAcc, timebase_ppm
         return;
     }
     let n = e.cycles as f64;
-    let total = (e.high_sum + e.low_sum) as f64;
+    let total = e.high_sum as f64 + e.low_sum as f64;
     let mean_p = total / n;
     let mean_ns = mean_p * q;
     let f = 1e9 / mean_ns;

@@ -114,3 +114,84 @@ fn placing_ticks_keeps_the_prefix_on_the_timeline() {
         }
     }
 }
+
+/// EXTREMES and VIOLATIONS are placed on the timeline like any window: refused for a channel
+/// that is not a clock, a lost-before flag breaks continuity, and after a probe reset (a HELLO
+/// numbered 0, ticks from the start again) window and stamps move past everything seen.
+#[test]
+fn extremes_windows_are_placed_on_the_timeline() {
+    use firmware_protocol::{ExtremesWindow, ShortPhase, Violations, encode_message};
+    let clk = [Channel::edge(0, 8, "CLK"), Channel::line(1, 3, "HB")];
+    let x = |channel: u8, start: u64, flags: u8| {
+        Message::Extremes(ExtremesWindow {
+            channel,
+            flags,
+            start_tick: start,
+            window_ticks: 1000,
+            cycles: 2,
+            high_min_ticks: 100,
+            high_max_ticks: 101,
+            low_min_ticks: 99,
+            low_max_ticks: 100,
+            period_min_ticks: 199,
+            period_max_ticks: 201,
+            high_sum_ticks: 201,
+            low_sum_ticks: 199,
+            bin_origin_ticks: 0,
+            bin_width_ticks: 1,
+            bins: &[],
+        })
+    };
+    let mut stamps = [0u8; 13];
+    Violations::stamp_bytes(
+        &[ShortPhase {
+            tick: 1500,
+            length_ticks: 9,
+            high: true,
+        }],
+        &mut stamps,
+    );
+    let v = Message::Violations(Violations {
+        channel: 0,
+        flags: 0,
+        start_tick: 1000,
+        window_ticks: 1000,
+        high_threshold_ticks: 10,
+        low_threshold_ticks: 0,
+        high_short: 1,
+        low_short: 0,
+        stamps: &stamps,
+    });
+    let mut b = Vec::new();
+    let put = |b: &mut Vec<u8>, m: &Message<'_>, seq: u16| {
+        let mut wire = [0u8; MAX_WIRE];
+        let n = encode_message(m, seq, &mut wire).unwrap();
+        b.extend_from_slice(&wire[..n]);
+    };
+    hello_frame(&mut b, &clk);
+    put(&mut b, &x(0, 0, 0), 1);
+    put(&mut b, &x(0, 1000, 1), 2);
+    put(&mut b, &v, 3);
+    // on the heartbeat line: not a clock
+    put(&mut b, &x(1, 2000, 0), 4);
+    // a reset: HELLO numbered 0, then a window from tick 0 again
+    hello_frame(&mut b, &clk);
+    put(&mut b, &x(0, 0, 0), 1);
+    let ev = events(&b);
+    let short: Vec<String> = ev
+        .iter()
+        .map(|e| e.split(", high").next().unwrap().to_string())
+        .collect();
+    let want = [
+        "probe new=true",
+        "Extremes(Extremes { channel: 0, lost_before: false, start_tick: 0, end_tick: 1000, cycles: 2",
+        "Break { channel: 0, cause: Lost }",
+        "Extremes(Extremes { channel: 0, lost_before: true, start_tick: 1000, end_tick: 2000, cycles: 2",
+        "Thresholds(ThresholdCount { channel: 0, start_tick: 1000, end_tick: 2000",
+        "Unknown { channel: 1, lost_before: false }",
+        "probe new=false",
+        "Extremes(Extremes { channel: 0, lost_before: false, start_tick: 2001, end_tick: 3001, cycles: 2",
+    ];
+    assert_eq!(short, want, "{ev:#?}");
+    assert!(ev[4].contains("stamps: [(1500, 9, true)"), "{}", ev[4]);
+}
