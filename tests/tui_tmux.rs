@@ -91,7 +91,7 @@ fn watch_in_tmux_mark_freeze_lose_the_link_and_quit() {
     cap("STREAMING", 20);
     let screen = cap("MHz ±", 20);
     for what in [
-        "frequency  2.0",
+        "frequency  ",
         "STREAMING",
         "recent 10 s",
         "worst high",
