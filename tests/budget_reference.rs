@@ -1190,3 +1190,61 @@ fn the_373s_transparent_row_matches_its_table() {
         assert_eq!(max_at(&lib, "74HC373", "D->Q", ArcKind::Delay, v, t), want);
     }
 }
+
+#[test]
+fn the_164_shift_register_rows_match_their_tables() {
+    let lib = Library::builtin();
+    let max = |p: &str, a: &str, k: ArcKind, v: f64, t: f64| max_at(&lib, p, a, k, v, t);
+    // TI CD74HC164, Japanese edition JAJSOB3E (May 2024) of the SCHS155 data sheet, tables in
+    // English. 5.6 switching characteristics, HC types: CLR to Q max 140/28/24 (25 °C) |
+    // 175/35/30 (−40…85 °C) | 210/42/36 (−55…125 °C).
+    assert_eq!(
+        max("74HC164/ti-cd", "CLR->Q", ArcKind::Delay, 2.0, 25.0),
+        140.0
+    );
+    assert_eq!(
+        max("74HC164/ti-cd", "CLR->Q", ArcKind::Delay, 6.0, 125.0),
+        36.0
+    );
+    // 5.5 prerequisite for switching, HC types: set-up 60/12/10 | 75/15/13 | 90/18/15, hold 4
+    // at every supply and temperature, clock pulse width 80/16/14 | 100/20/17 | 120/24/20,
+    // removal (CLR to clock) the same, f_max 6/30/35 | 5/24/28 | 4/20/24 MHz.
+    assert_eq!(
+        max("74HC164/ti-cd", "D->CLK", ArcKind::Setup, 4.5, 85.0),
+        15.0
+    );
+    assert_eq!(
+        max("74HC164/ti-cd", "D->CLK", ArcKind::Setup, 2.0, 125.0),
+        90.0
+    );
+    assert_eq!(
+        max("74HC164/ti-cd", "D->CLK", ArcKind::Hold, 6.0, 125.0),
+        4.0
+    );
+    assert_eq!(
+        max("74HC164/ti-cd", "CLK", ArcKind::PulseWidth, 6.0, 85.0),
+        17.0
+    );
+    assert_eq!(
+        max("74HC164/ti-cd", "CLR->CLK", ArcKind::Setup, 4.5, 25.0),
+        16.0
+    );
+    let f = max("74HC164/ti-cd", "CLK", ArcKind::Fmax, 4.5, 125.0);
+    assert!((f - period_of_mhz(20.0)).abs() < 0.01, "{f}");
+    // Same document, HCT types at 4.5 V: CLK to Q 36 | 45 | 54, CLR to Q 38 | 46 | 57,
+    // f_max 27 | 22 | 18 MHz, clock pulse width 18 | 23 | 27, hold 4. Between 4.5 and 5.5 V
+    // the 4.5 V column holds.
+    assert_eq!(
+        max("74HCT164/ti-cd", "CLK->Q", ArcKind::Delay, 4.5, 85.0),
+        45.0
+    );
+    assert_eq!(max("74HCT164", "CLK->Q", ArcKind::Delay, 5.0, 125.0), 54.0);
+    assert_eq!(max("74HCT164", "CLR->Q", ArcKind::Delay, 4.5, 125.0), 57.0);
+    assert_eq!(max("74HCT164", "CLK", ArcKind::PulseWidth, 4.5, 25.0), 18.0);
+    assert_eq!(max("74HCT164", "D->CLK", ArcKind::Hold, 4.5, 85.0), 4.0);
+    let f = max("74HCT164", "CLK", ArcKind::Fmax, 4.5, 85.0);
+    assert!((f - period_of_mhz(22.0)).abs() < 0.01, "{f}");
+    // the set-up row of the HCT table names a 6 V supply, so it was left out: none is held
+    let p = lib.part_index("74HCT164/ti-cd").unwrap();
+    assert!(lib.parts[p].arc("D->CLK", ArcKind::Setup).is_none());
+}
