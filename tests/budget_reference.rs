@@ -1280,3 +1280,23 @@ fn the_164_and_4040_rows_match_their_tables() {
     let p = lib.part_index("74HCT164/ti-cd").unwrap();
     assert!(lib.parts[p].arc("D->CLK", ArcKind::Setup).is_none());
 }
+
+#[test]
+fn the_ac74_timing_requirements_match_their_table() {
+    let lib = Library::builtin();
+    let max = |a: &str, k: ArcKind, v: f64, t: f64| max_at(&lib, "74AC74/ti-cd", a, k, v, t);
+    // TI CD74AC74 SCHS231E (Japanese edition JAJSV60E), 4.8 timing requirements at
+    // 5 V ± 0.5 V, −55…125 °C | −40…85 °C: fclock 110 | 125 MHz, tw CLK 4.5 | 3.9 ns,
+    // tsu data 3.5 | 3.1 ns, th 0 | 0 ns, trec 2.7 | 2.4 ns. The column holds from 4.5 V up.
+    assert_eq!(max("CLK", ArcKind::PulseWidth, 5.0, 85.0), 3.9);
+    assert_eq!(max("CLK", ArcKind::PulseWidth, 5.5, 125.0), 4.5);
+    assert_eq!(max("D->CLK", ArcKind::Setup, 4.5, 25.0), 3.1);
+    assert_eq!(max("D->CLK", ArcKind::Setup, 5.0, 125.0), 3.5);
+    assert_eq!(max("D->CLK", ArcKind::Hold, 5.0, 85.0), 0.0);
+    assert_eq!(max("CLR->CLK", ArcKind::Setup, 5.0, -40.0), 2.4);
+    let f = max("CLK", ArcKind::Fmax, 5.0, 125.0);
+    assert!((f - period_of_mhz(110.0)).abs() < 0.01, "{f}");
+    // no delay row was read, so none is held
+    let p = lib.part_index("74AC74/ti-cd").unwrap();
+    assert!(lib.parts[p].arc("CLK->Q", ArcKind::Delay).is_none());
+}
