@@ -206,7 +206,7 @@ fn parts_without_section(d: &Design, at: &Sites) -> Vec<Found> {
 
 #[cfg(test)]
 mod tests {
-    use super::super::{Checked, NoIncludes};
+    use super::super::{Checked, InMemory, NoIncludes};
     use super::*;
     use crate::budget::library::model::Library;
     use crate::diag::Source;
@@ -407,6 +407,35 @@ mod tests {
         assert_eq!(
             found(text),
             vec![(Lint::UndrivenInput, il, ic), (Lint::UnusedOutput, ol, oc)]
+        );
+    }
+
+    #[test]
+    fn a_finding_in_an_included_file_points_into_that_file() {
+        // the included board reads "qq" (its own name, prefixed b_): driven nowhere
+        let board = "[design]\nname = \"board\"\n\
+                     [[part]]\nref = \"U2\"\ntype = \"74HC04\"\n\
+                     [[arc]]\nfrom = \"qq\"\nto = \"d\"\npart = \"U2\"\narc = \"A->Y\"\n";
+        let top = design(Q_TO_D).replacen(
+            "[[part]]\nref = \"U2\"\ntype = \"74HC04\"\n",
+            "[[part]]\nref = \"U2\"\ntype = \"74HC04\"\n\
+             [[include]]\nfile = \"board.toml\"\nprefix = \"b_\"\nconnect = { d = \"d\" }\n",
+            1,
+        );
+        let reader = InMemory(vec![("board.toml".into(), board.into())]);
+        let (il, ic) = place(&top, "\"board.toml\"", 0);
+        let c = Design::check(Source::new("t.toml", top), &Library::builtin(), &reader);
+        assert_eq!(c.findings.len(), 1, "{:?}", c.findings);
+        let f = &c.findings[0].located;
+        assert_eq!(f.file, "board.toml");
+        assert_eq!((f.line, f.column), place(board, "\"qq\"", 0));
+        assert!(f.message.contains("\"b_qq\""), "{}", f.message);
+        assert!(
+            f.help
+                .as_deref()
+                .is_some_and(|h| h.contains(&format!("included at t.toml:{il}:{ic}"))),
+            "{:?}",
+            f.help
         );
     }
 }
