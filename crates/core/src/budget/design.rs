@@ -161,7 +161,7 @@ fn resolve(
 pub struct Checked {
     /// The resolved design (none when the file does not load).
     pub design: Option<Design>,
-    /// The problems, errors of each check before the next check's (each in file order).
+    /// The problems, grouped by check, each group in file order.
     pub findings: Vec<Finding>,
 }
 
