@@ -90,9 +90,11 @@ fn every_situation_has_one_code_for_every_command() {
         ("missing file", vec!["failures".into(), missing_file.clone()], 2),
         ("missing file", vec!["parts".into(), "--parts".into(), missing_file.clone()], 2),
         ("missing file", vec!["power".into(), missing_file.clone()], 2),
+        ("missing file", vec!["check".into(), missing_file.clone()], 2),
         // a design that does not load
         ("bad design", vec!["budget".into(), bad_design.clone()], 2),
         ("bad design", vec!["power".into(), bad_design.clone()], 2),
+        ("bad design", vec!["check".into(), bad_design.clone()], 2),
         ("bad design", vec!["power".into(), no_supply.clone()], 2),
         ("bad design", vec!["budget".into(), no_supply.clone(), "--rails".into(), "predicted".into()], 2),
         // a device that never ends is refused after a bounded read
@@ -126,6 +128,7 @@ fn every_situation_has_one_code_for_every_command() {
         ("fine", vec!["report".into(), steady.clone()], 0),
         ("fine", vec!["budget".into()], 0),
         ("fine", vec!["power".into()], 0),
+        ("fine", vec!["check".into()], 0),
         ("fine", vec!["budget".into(), "--rails".into(), "predicted".into()], 0),
         ("fine", vec!["budget".into(), "--help".into()], 0),
     ];
@@ -140,8 +143,8 @@ fn every_situation_has_one_code_for_every_command() {
     }
     // a flag no command has: the command line is bad, whatever the command
     for cmd in [
-        "budget", "parts", "power", "sim", "ports", "listen", "record", "report", "export",
-        "failures", "watch", "replay",
+        "budget", "check", "parts", "power", "sim", "ports", "listen", "record", "report",
+        "export", "failures", "watch", "replay",
     ] {
         let (got, err) = code(&[cmd.into(), "--no-such-flag".into()]);
         if got != 2 {

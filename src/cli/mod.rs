@@ -5,6 +5,7 @@
 pub mod analysis;
 pub mod args;
 pub mod budget;
+pub mod check;
 pub mod design;
 pub mod error;
 pub mod export;
@@ -53,6 +54,13 @@ pub enum Command {
 Quantities take SI units with or without a space: --vcc 4.75V, --freq \"1.8 MHz\", --temp 85, --duty 30%."
     )]
     Budget(self::budget::BudgetArgs),
+    /// Check a design file without solving it: inputs nothing drives, outputs nothing reads,
+    /// captures no launch reaches, parts outside every section; each finding located.
+    #[command(
+        after_help = "Without DESIGN the built-in demo machine (designs/larkspur-8.toml) is checked.\n\
+Exit 0 when there are no errors (warnings alone keep 0), 2 when there are."
+    )]
+    Check(self::check::CheckArgs),
     /// List the part library (built-in parts plus a --parts folder).
     Parts(self::parts::PartsArgs),
     /// Budget the supply: each section's current (static, dynamic, LEDs), the drop along its
@@ -121,6 +129,7 @@ slackmeter sim --probe-class extremes --freq 8MHz --high-threshold 50ns --low-th
 pub fn dispatch(command: Command) -> CliResult<Outcome> {
     match command {
         Command::Budget(a) => self::budget::run(a),
+        Command::Check(a) => self::check::run(a),
         Command::Parts(a) => self::parts::run(a),
         Command::Power(a) => self::power::run(a),
         Command::Import(a) => self::import::run(a),

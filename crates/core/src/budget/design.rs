@@ -15,6 +15,7 @@ mod compact;
 mod expand;
 mod files;
 mod graph;
+pub mod lint;
 mod load;
 pub(super) mod model;
 mod moved;
@@ -23,6 +24,7 @@ mod raw;
 mod timing;
 
 pub use files::{FromDisk, InMemory, IncludeReader, NoIncludes};
+pub use lint::{Lint, Severity};
 use load::{Loader, Res};
 pub use model::{
     Capture, ClockPlan, Clocked, Delay, Design, Edge, GraphArc, Instance, Launch, Operating,
@@ -61,48 +63,166 @@ impl Design {
     /// includes as long-form entries, then the board, the timing entries and overrides, then
     /// the graph's order; the first problem found is the error.
     pub fn parse_with(src: Source, lib: &Library, reader: &dyn IncludeReader) -> Res<Design> {
-        let raw: raw::RawDesign =
-            toml::from_str(&src.text).map_err(|e| Box::new(src.toml_error(&e)))?;
-        let mut ctx = expand::Ctx::new(&src, reader);
-        let flat = expand::expand(&src, 0, &raw, &mut ctx)?;
-        let files = ctx.files;
-        let mut ld = Loader::new(&files, lib);
-        let operating = ld.operating(raw.operating.as_ref().map(|o| o.get_ref()))?;
-        let (clock, clock_name) = ld.clock(raw.clock.as_ref().map(|c| c.get_ref()))?;
-        let sections = ld.sections(&raw.section)?;
-        ld.instances(&flat.parts, &sections)?;
-        let mut launches = ld.launches(&flat.launches)?;
-        let (mut arcs, arc_spans) = ld.arcs(&flat.arcs)?;
-        let mut captures = ld.captures(&flat.captures)?;
-        let clocked = clocked_parts(&ld, &flat)?;
-        ld.apply_overrides(&flat.overrides, &mut launches, &mut arcs, &mut captures)?;
-        if launches.is_empty() || captures.is_empty() {
-            return Err(nothing_to_time(&ld));
-        }
-        let graph = graph::topological_order(&arcs, ld.signals.len())
-            .map_err(|cycle| loop_error(&ld, &arcs, &arc_spans, &cycle))?;
-        let mut design = Design {
-            name: raw.design.name,
-            source: src.clone(),
-            operating,
-            clock,
-            clock_name,
-            sections,
-            instances: ld.instances,
-            signals: ld.signals,
-            launches,
-            arcs,
-            captures,
-            order: graph.order,
-            fanout: graph.fanout,
-            warnings: Vec::new(),
-            clocked,
-        };
-        design.warnings = graph::unreached_captures(&design);
+        let (design, files, _, first_capture) = resolve(src, lib, reader)?;
         if design.warnings.len() == design.captures.len() {
-            return Err(nothing_reached(&files, &flat.captures[0].signal));
+            return Err(nothing_reached(&files, &first_capture));
         }
         Ok(design)
+    }
+
+    /// Load design text as [`Design::parse_with`] does, then check it without solving
+    /// (`lint`): every finding located; a file that does not load is its one error.
+    pub fn check(src: Source, lib: &Library, reader: &dyn IncludeReader) -> Checked {
+        let (design, files, sites, _) = match resolve(src, lib, reader) {
+            Ok(x) => x,
+            Err(e) => {
+                return Checked {
+                    design: None,
+                    findings: vec![Finding {
+                        lint: Lint::Load,
+                        located: *e,
+                    }],
+                };
+            }
+        };
+        let findings = lint::lint(&design, &sites)
+            .into_iter()
+            .map(|f| Finding {
+                lint: f.lint,
+                located: files.error(f.span, f.message, f.label, Some(f.help)),
+            })
+            .collect();
+        Checked {
+            design: Some(design),
+            findings,
+        }
+    }
+}
+
+/// The named steps that resolve a design: the file and its includes as long-form entries, the
+/// board, the timing entries and overrides, the graph's order; the first problem is the error.
+/// With the design: its files, where each entry was written, and the first capture's name.
+fn resolve(
+    src: Source,
+    lib: &Library,
+    reader: &dyn IncludeReader,
+) -> Res<(Design, files::Files, lint::Sites, toml::Spanned<String>)> {
+    let raw: raw::RawDesign =
+        toml::from_str(&src.text).map_err(|e| Box::new(src.toml_error(&e)))?;
+    let mut ctx = expand::Ctx::new(&src, reader);
+    let flat = expand::expand(&src, 0, &raw, &mut ctx)?;
+    let files = ctx.files;
+    let mut ld = Loader::new(&files, lib);
+    let operating = ld.operating(raw.operating.as_ref().map(|o| o.get_ref()))?;
+    let (clock, clock_name) = ld.clock(raw.clock.as_ref().map(|c| c.get_ref()))?;
+    let sections = ld.sections(&raw.section)?;
+    ld.instances(&flat.parts, &sections)?;
+    let mut launches = ld.launches(&flat.launches)?;
+    let (mut arcs, arc_spans) = ld.arcs(&flat.arcs)?;
+    let mut captures = ld.captures(&flat.captures)?;
+    let clocked = clocked_parts(&ld, &flat)?;
+    ld.apply_overrides(&flat.overrides, &mut launches, &mut arcs, &mut captures)?;
+    if launches.is_empty() || captures.is_empty() {
+        return Err(nothing_to_time(&ld));
+    }
+    let graph = graph::topological_order(&arcs, ld.signals.len())
+        .map_err(|cycle| loop_error(&ld, &arcs, &arc_spans, &cycle))?;
+    let sites = lint::Sites {
+        launch_to: flat.launches.iter().map(|l| l.to.span()).collect(),
+        arc_from: flat.arcs.iter().map(|a| a.from.span()).collect(),
+        arc_to: flat.arcs.iter().map(|a| a.to.span()).collect(),
+        capture_signal: flat.captures.iter().map(|c| c.signal.span()).collect(),
+        part_ref: flat.parts.iter().map(|p| p.reference.span()).collect(),
+    };
+    let mut design = Design {
+        name: raw.design.name,
+        source: src.clone(),
+        operating,
+        clock,
+        clock_name,
+        sections,
+        instances: ld.instances,
+        signals: ld.signals,
+        launches,
+        arcs,
+        captures,
+        order: graph.order,
+        fanout: graph.fanout,
+        warnings: Vec::new(),
+        clocked,
+    };
+    design.warnings = graph::unreached_captures(&design);
+    let first_capture = flat.captures[0].signal.clone();
+    Ok((design, files, sites, first_capture))
+}
+
+/// What `Design::check` found: the design when it loads, and every finding, located.
+#[derive(Debug)]
+pub struct Checked {
+    /// The resolved design (none when the file does not load).
+    pub design: Option<Design>,
+    /// The problems, grouped by check, each group in file order.
+    pub findings: Vec<Finding>,
+}
+
+impl Checked {
+    /// Whether any finding is an error (`check` fails), not only warnings.
+    pub fn has_errors(&self) -> bool {
+        self.findings
+            .iter()
+            .any(|f| f.severity() == Severity::Error)
+    }
+}
+
+/// One problem of a design: which check, and where (file:line:column, what, how to fix).
+#[derive(Debug)]
+pub struct Finding {
+    /// The check that found it.
+    pub lint: Lint,
+    /// The located message, label and fix.
+    pub located: SourceError,
+}
+
+impl Finding {
+    /// Error or warning (by the check).
+    pub fn severity(&self) -> Severity {
+        self.lint.severity()
+    }
+}
+
+impl std::fmt::Display for Finding {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let e = &self.located;
+        let word = match self.severity() {
+            Severity::Error => "error",
+            Severity::Warning => "warning",
+        };
+        write!(
+            f,
+            "{}:{}:{}: {word}: {}",
+            e.file, e.line, e.column, e.message
+        )
+    }
+}
+
+impl std::error::Error for Finding {}
+
+/// The located error's snippet, label and fix, with the finding's own severity.
+impl miette::Diagnostic for Finding {
+    fn severity(&self) -> Option<miette::Severity> {
+        Some(match Finding::severity(self) {
+            Severity::Error => miette::Severity::Error,
+            Severity::Warning => miette::Severity::Warning,
+        })
+    }
+    fn help<'a>(&'a self) -> Option<Box<dyn std::fmt::Display + 'a>> {
+        miette::Diagnostic::help(&self.located)
+    }
+    fn source_code(&self) -> Option<&dyn miette::SourceCode> {
+        miette::Diagnostic::source_code(&self.located)
+    }
+    fn labels(&self) -> Option<Box<dyn Iterator<Item = miette::LabeledSpan> + '_>> {
+        miette::Diagnostic::labels(&self.located)
     }
 }
 
