@@ -364,16 +364,14 @@ impl ClockState {
         let rise_ticks = &rises[1..];
         let idx0 = kidx + 1;
         a.cover(rises[0], rises[nr]);
-        let rp = RunSums::about(period, ep.0, ep.1);
+        // the histograms first: for a wider run they give the sums too
+        let rp = a.hist_period.record_run_about(period, ep.0, ep.1);
         a.period.add_sums(&rp, period, rise_ticks, idx0);
-        a.hist_period.record_run(period, &rp);
-        let rl = RunSums::about(low, el.0, el.1);
+        let rl = a.hist_low.record_run_about(low, el.0, el.1);
         a.low.add_sums(&rl, low, rise_ticks, idx0);
-        a.hist_low.record_run(low, &rl);
-        let rh = RunSums::about(high, eh.0, eh.1);
+        let rh = a.hist_high.record_run_about(high, eh.0, eh.1);
         a.high
             .add_sums(&rh, high, &falls[1..], kidx + high_from as u64);
-        a.hist_high.record_run(high, &rh);
         let (sum_p, sum_l, sum_h) = (rp.sum(), rl.sum(), rh.sum());
         // cycle to cycle (extremes taken while the differences are made)
         sc.tmp[0] = period[0] - pp;
