@@ -308,6 +308,87 @@ fn runts_are_set_aside_at_any_duty_width_and_place() {
     assert!(failures.is_empty(), "{}", failures.join("\n"));
 }
 
+/// Edge ticks of a jitter-free clock whose period and phases are not whole ticks (`p` and `h`
+/// ticks, each edge stamped at the tick it falls in), with or without an extra pulse in
+/// cycle 60 of the long phase (`at` and `w` ticks into it).
+fn fractional_clock(p: f64, h: f64, runt: Option<(f64, f64)>) -> Vec<u64> {
+    let long_is_high = h > p - h;
+    let mut edges = Vec::new();
+    for k in 0..200u64 {
+        let r = 1000.0 + k as f64 * p;
+        edges.push(r);
+        let start = if long_is_high { r } else { r + h };
+        if k == 60
+            && let Some((at, w)) = runt
+        {
+            if long_is_high {
+                edges.extend([start + at, start + at + w]);
+                edges.push(r + h);
+            } else {
+                edges.push(r + h);
+                edges.extend([start + at, start + at + w]);
+            }
+        } else {
+            edges.push(r + h);
+        }
+    }
+    edges.iter().map(|t| t.floor() as u64).collect()
+}
+
+#[test]
+fn runts_as_wide_as_the_short_phase_are_set_aside_near_the_resolution() {
+    // A clock of 9 to 13 ticks a period, the short phase 2 to 3.5 ticks and neither a whole
+    // number of ticks (so real short phases read one tick apart and some look like runts):
+    // a runt in the long phase from 40 % to 100 % of the short phase wide (past the
+    // half-phase threshold), anywhere that leaves both fragments a tick or more. The truth is
+    // the same clock stamped without the runt: its shortest high, low and period.
+    let mut failures = Vec::new();
+    for (p, short) in [(9.36f64, 2.31f64), (10.4, 2.6), (12.7, 3.4), (11.3, 2.2)] {
+        for short_is_high in [true, false] {
+            let h = if short_is_high { short } else { p - short };
+            let len = p - short;
+            let clean = jitter_of(&fractional_clock(p, h, None), TICK_1NS);
+            for wf in [0.4, 0.6, 0.75, 0.9, 1.0] {
+                let w = wf * short;
+                let mut at = 1.0;
+                while at + w + 1.0 <= len {
+                    let ticks = fractional_clock(p, h, Some((at, w)));
+                    if ticks.windows(2).any(|t| t[1] <= t[0]) {
+                        // a runt under a tick stamped in one tick: no probe sees it
+                        at += 0.37;
+                        continue;
+                    }
+                    let c = jitter_of(&ticks, TICK_1NS);
+                    let ok = c.glitches == 1
+                        && c.high_min_ns == clean.high_min_ns
+                        && c.low_min_ns == clean.low_min_ns
+                        && c.period_min_ns == clean.period_min_ns;
+                    if !ok {
+                        failures.push(format!(
+                            "p {p} h {h:.2} at {at:.2} w {w:.2}: {} glitches, high {:?} low \
+                             {:?} period {:?} (clean {:?} {:?} {:?})",
+                            c.glitches,
+                            c.high_min_ns,
+                            c.low_min_ns,
+                            c.period_min_ns,
+                            clean.high_min_ns,
+                            clean.low_min_ns,
+                            clean.period_min_ns
+                        ));
+                    }
+                    at += 0.37;
+                }
+            }
+        }
+    }
+    assert!(
+        failures.is_empty(),
+        "{} failures:\n{}",
+        failures.len(),
+        failures.join("\n")
+    );
+}
+
 #[test]
 fn short_real_periods_at_duty_10_and_90_are_not_set_aside() {
     // Real cycles whose period falls short by more than half the shorter phase are held back

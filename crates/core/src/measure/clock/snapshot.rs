@@ -212,7 +212,7 @@ fn stamped_figures(s: &mut ClockSnapshot, a: &ClockAcc, state: &ClockState, time
         );
     }
     let pref = state.refs.map_or(0, |r| r.0);
-    s.n_cycle = n_cycle_figures(&a.ncycle, state.cfg.n_cycles, mean_p, pref, q);
+    s.n_cycle = n_cycle_figures(&a.ncycle, state.cfg.n_cycles, mean_p, sp, pref, q);
     s.period_percentiles = percentiles(&a.hist_period, q);
     s.high_percentiles = percentiles(&a.hist_high, q);
     s.low_percentiles = percentiles(&a.hist_low, q);
@@ -366,11 +366,14 @@ fn duty_uncertainty(high_ns: f64, u_high_ns: f64, period_ns: f64, u_period_ns: f
     .sqrt()
 }
 
-/// N-cycle errors against N·(mean period) rather than N·reference (the sums hold the latter).
+/// N-cycle errors against N·(mean period) rather than N·reference (the sums hold the latter);
+/// `sp_ticks` is the period spread, which with the N-cycle spread tells how much of it
+/// accumulates (independent periods) and how much does not (white phase noise, quantisation).
 fn n_cycle_figures(
     sums: &[IntStats; 2],
     ns: [u32; 2],
     mean_p: f64,
+    sp_ticks: f64,
     pref: i64,
     q: f64,
 ) -> Vec<NCycle> {
@@ -383,9 +386,9 @@ fn n_cycle_figures(
             let max_abs = ((st.max as f64 - shift).abs()).max((st.min as f64 - shift).abs());
             let rms = (sd * sd + (m - shift).powi(2)).sqrt();
             let debiased_ns = ((rms * rms - 1.0 / 6.0).max(0.0)).sqrt() * q;
-            // overlapping spans: about one independent sample per N cycles; two stamps
-            // (q²/6); a steady clock reads up to half a tick
-            let n_eff = st.n as f64 / f64::from(n.max(1));
+            // overlapping spans are correlated; two stamps (q²/6); a steady clock reads up to
+            // half a tick
+            let n_eff = st.n as f64 / n_cycle_correlation_sum(rms * rms, sp_ticks, n);
             let u = spread_uncertainty_ns(rms * q, debiased_ns, n_eff, q, 1.0 / 6.0, 0.5);
             out.push(NCycle {
                 n,
@@ -409,4 +412,65 @@ fn percentiles(h: &DevHistogram, q: f64) -> Option<Percentiles> {
         p99: at(0.99)?,
         p99_9: at(0.999)?,
     })
+}
+
+/// Σ ρ_j² over all lags of the overlapping N-cycle errors, the factor by which they hold fewer
+/// independent samples than their count (the variance of a sample variance, Bartlett 1946).
+/// `var_n` (N-cycle, ticks²) and `sp_ticks` split the spread into an accumulating part
+/// (independent periods: N·σ², errors overlapping by (N − j)/N at lag j) and a part that does
+/// not accumulate (white phase noise and the stamps' quantisation: −½ at lag N).
+fn n_cycle_correlation_sum(var_n: f64, sp_ticks: f64, n: u32) -> f64 {
+    let nf = f64::from(n.max(1));
+    if n <= 1 {
+        return 1.0;
+    }
+    let v_p = (sp_ticks * sp_ticks - 1.0 / 6.0).max(0.0);
+    let v_n = (var_n - 1.0 / 6.0).max(0.0);
+    let rw = ((v_n - v_p) / (nf - 1.0)).max(0.0) * nf;
+    let w = if var_n > 0.0 {
+        (rw / var_n).min(1.0)
+    } else {
+        0.0
+    };
+    // Σ_{j=1}^{N−1} ((N − j)/N)² = (N − 1)(2N − 1)/(6N)
+    let overlap = (nf - 1.0) * (2.0 * nf - 1.0) / (6.0 * nf);
+    1.0 + 2.0 * w * w * overlap + 2.0 * (0.5 * (1.0 - w)).powi(2)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::n_cycle_correlation_sum;
+
+    /// Σ ρ² of a moving sum of N white terms, ρ_j = (N − j)/N (the autocorrelation of an
+    /// MA(N − 1) process with equal weights; Box & Jenkins, from memory), summed directly.
+    fn moving_sum_reference(n: u32) -> f64 {
+        let nf = f64::from(n);
+        1.0 + 2.0
+            * (1..n)
+                .map(|j| ((nf - f64::from(j)) / nf).powi(2))
+                .sum::<f64>()
+    }
+
+    #[test]
+    fn accumulating_spread_matches_the_moving_sum_autocorrelation() {
+        for n in [2u32, 3, 8, 32, 100] {
+            // periods independent with σ = 10 ticks and no stamp noise beyond the quantisation
+            let sp = (100.0_f64 + 1.0 / 6.0).sqrt();
+            let var_n = f64::from(n) * 100.0 + 1.0 / 6.0;
+            let got = n_cycle_correlation_sum(var_n, sp, n);
+            let want = moving_sum_reference(n);
+            assert!((got - want).abs() < 0.01 * want, "N {n}: {got} vs {want}");
+        }
+    }
+
+    #[test]
+    fn white_phase_noise_has_one_correlated_lag() {
+        // edges jitter independently: every span is a difference of two, ρ = −½ at lag N only
+        // (first difference of white noise, MA(1); textbook, from memory): Σ ρ² = 1.5
+        for n in [2u32, 8, 64] {
+            let got = n_cycle_correlation_sum(8.0, 8.0_f64.sqrt(), n);
+            assert!((got - 1.5).abs() < 1e-9, "N {n}: {got}");
+        }
+        assert_eq!(n_cycle_correlation_sum(5.0, 2.0, 1), 1.0);
+    }
 }

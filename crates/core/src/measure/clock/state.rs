@@ -428,7 +428,8 @@ impl ClockState {
     /// its phases lie from the typical ones (ticks, one tick allowed for quantisation):
     /// B and C are real phases (or close two typical periods); B is a runt inside the phase A opened (A + B + C is one
     /// phase); or C is a runt inside the phase P opened (A is a whole phase, B + C only the
-    /// start of one). The best fit wins; within a tick, the edges are kept.
+    /// start of one); or B is real and C the start of a phase a runt cuts later. The best fit
+    /// wins; within a tick, the edges are kept.
     fn decide(&mut self, pt: u64, pr: bool, nt: u64, nr: bool, tick: u64, rising: bool) {
         let (b, c) = ((nt - pt) as f64, (tick - nt) as f64);
         let a = self.last_edge.map(|le| (pt - le) as f64);
@@ -449,9 +450,17 @@ impl ClockState {
             Some(a) => (off(a + b + c, typ_a), off(a, typ_a) + over(b + c, typ_b)),
             None => (over(b + c, typ_a), over(b + c, typ_b)),
         };
+        // or B real and C only the start of a phase that a runt cuts further on (A whole): P
+        // is real, and the next decision, one pulse on, sees that runt whole (and can still
+        // set aside N and M as a runt inside B's phase). It has no tick of doubt: it must fit
+        // at least as well as both readings with a runt here
+        let start = match a {
+            Some(a) => off(a, typ_a) + off(b, typ_b) + over(c, typ_a),
+            None => off(b, typ_b) + over(c, typ_a),
+        };
         // a tick of doubt keeps the edges: near the resolution (or while the typical values
         // come from the first cycles) a short real phase and a runt differ by less
-        if keep <= inner.min(outer) + 1.0 {
+        if keep <= inner.min(outer) + 1.0 || start <= inner.min(outer) {
             // real phases: P is committed, M is judged after N as any newest edge
             self.commit(pt, pr);
             self.pending = Some((nt, nr));
