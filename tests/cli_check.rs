@@ -150,3 +150,35 @@ fn the_demo_design_has_no_finding() {
     let doc: serde_json::Value = serde_json::from_str(&out).expect("stdout is JSON");
     assert_eq!(doc["findings"].as_array().map(Vec::len), Some(0));
 }
+
+#[test]
+fn a_microstep_with_two_bus_drivers_on_fails_at_the_second_bit() {
+    let f = "tests/designs/check/bus-contention.toml";
+    let (code, _, err) = check(&[f]);
+    assert_eq!(code, 2, "{err}");
+    let at = place(f, "\"sum_out\", \"a_in\"");
+    assert!(
+        err.contains(&format!(
+            "{at}: error: microstep \"add 2\" turns on 2 drivers of bus \"bus\" at once"
+        )),
+        "{at} in\n{err}"
+    );
+    assert!(err.contains("1 error, 0 warnings"), "{err}");
+    let (code, out, _) = check(&[f, "--json"]);
+    assert_eq!(code, 2);
+    let doc: serde_json::Value = serde_json::from_str(&out).expect("stdout is JSON");
+    assert_eq!(doc["findings"][0]["check"], "bus-contention");
+    // the same machine with the clash taken out of the step is clean
+    let fixed =
+        std::env::temp_dir().join(format!("slackmeter-contention-{}.toml", std::process::id()));
+    let text = std::fs::read_to_string(root().join(f)).unwrap();
+    std::fs::write(
+        &fixed,
+        text.replace("\"a_out\", \"sum_out\", \"a_in\"", "\"sum_out\", \"a_in\""),
+    )
+    .unwrap();
+    let (code, out, err) = check(&[fixed.to_str().unwrap()]);
+    let _ = std::fs::remove_file(&fixed);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("0 errors, 0 warnings"), "{out}");
+}

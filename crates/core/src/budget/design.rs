@@ -12,6 +12,7 @@ use crate::diag::{Source, SourceError};
 mod board;
 mod chain;
 mod compact;
+mod contention;
 mod expand;
 mod files;
 mod graph;
@@ -87,6 +88,7 @@ impl Design {
         };
         let findings = lint::lint(&design, &sites)
             .into_iter()
+            .chain(contention::lint(&sites.control))
             .map(|f| Finding {
                 lint: f.lint,
                 located: files.error(f.span, f.message, f.label, Some(f.help)),
@@ -133,6 +135,30 @@ fn resolve(
         arc_to: flat.arcs.iter().map(|a| a.to.span()).collect(),
         capture_signal: flat.captures.iter().map(|c| c.signal.span()).collect(),
         part_ref: flat.parts.iter().map(|p| p.reference.span()).collect(),
+        control: lint::Control {
+            drivers: flat
+                .drivers
+                .iter()
+                .map(|d| lint::Driver {
+                    bus: d.bus.get_ref().clone(),
+                    part: d.part.get_ref().clone(),
+                    part_span: d.part.span(),
+                    when: d.when.as_ref().map(|w| (w.get_ref().clone(), w.span())),
+                })
+                .collect(),
+            steps: raw
+                .microstep
+                .iter()
+                .map(|s| lint::Step {
+                    name: s.name.get_ref().clone(),
+                    on: s
+                        .on
+                        .iter()
+                        .map(|b| (b.get_ref().clone(), b.span()))
+                        .collect(),
+                })
+                .collect(),
+        },
     };
     let mut design = Design {
         name: raw.design.name,

@@ -1,6 +1,7 @@
 //! The compact forms of a design file as serde reads them: register groups, buses and includes
 //! (instance groups are `refs = [...]` in `[[part]]`, chains are strings). `expand.rs` turns
-//! them into the long-form entries of `raw.rs`.
+//! them into the long-form entries of `raw.rs`. `[[microstep]]` and a driver's `when` say which
+//! drivers are on together, for `check`.
 
 use std::collections::BTreeMap;
 
@@ -77,6 +78,21 @@ pub(super) struct RawDriver {
     pub enable: Option<Spanned<Names>>,
     pub data_arc: Option<Spanned<String>>,
     pub enable_arc: Option<Spanned<String>>,
+    /// The control bit of the microcode that turns this driver on (see `[[microstep]]`); only
+    /// `check` reads it, to find two drivers on at once.
+    pub when: Option<Spanned<String>>,
+    #[allow(dead_code)]
+    pub notes: Option<String>,
+}
+
+/// `[[microstep]]`: one step of the machine's control word, the control bits it asserts. Only
+/// `check` reads it: a bus whose drivers' `when` bits two of these name is driven twice.
+#[derive(Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(super) struct RawMicrostep {
+    pub name: Spanned<String>,
+    #[serde(default)]
+    pub on: Vec<Spanned<String>>,
     #[allow(dead_code)]
     pub notes: Option<String>,
 }

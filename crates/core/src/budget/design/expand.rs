@@ -30,6 +30,26 @@ pub(super) struct Flat {
     pub arcs: Vec<RawArc>,
     pub captures: Vec<RawCapture>,
     pub overrides: Vec<RawOverride>,
+    /// Every bus driver with the control bit that turns it on (for `check`).
+    pub drivers: Vec<BusDriver>,
+}
+
+/// A bus driver as `check` sees it: the bus, the part, its `when` control bit.
+#[derive(Clone)]
+pub(super) struct BusDriver {
+    pub bus: Spanned<String>,
+    pub part: Spanned<String>,
+    pub when: Option<Spanned<String>>,
+}
+
+impl Moved for BusDriver {
+    fn moved(self, by: usize) -> Self {
+        BusDriver {
+            bus: moved(self.bus, by),
+            part: moved(self.part, by),
+            when: self.when.map(|w| moved(w, by)),
+        }
+    }
 }
 
 /// Entries with the place they were written (a byte offset in their file) to keep file order.
@@ -40,6 +60,7 @@ struct Keyed {
     arcs: Vec<(usize, RawArc)>,
     captures: Vec<(usize, RawCapture)>,
     overrides: Vec<(usize, RawOverride)>,
+    drivers: Vec<(usize, BusDriver)>,
 }
 
 /// What reading a design's files shares.
@@ -78,6 +99,7 @@ pub(super) fn expand(src: &Source, base: usize, raw: &RawDesign, ctx: &mut Ctx) 
             .extend(inner.captures.into_iter().map(|x| (at, x)));
         k.overrides
             .extend(inner.overrides.into_iter().map(|x| (at, x)));
+        k.drivers.extend(inner.drivers.into_iter().map(|x| (at, x)));
     }
     Ok(k.sorted())
 }
@@ -290,6 +312,14 @@ fn registers(src: &Source, g: &RawRegisters, k: &mut Keyed) -> Res<()> {
 fn bus(src: &Source, b: &RawBus, k: &mut Keyed) -> Res<()> {
     for d in &b.drivers {
         let at = d.part.span().start;
+        k.drivers.push((
+            at,
+            BusDriver {
+                bus: b.signal.clone(),
+                part: d.part.clone(),
+                when: d.when.clone(),
+            },
+        ));
         let arc_of = |own: &Option<Spanned<String>>, shared: &Option<Spanned<String>>, key| {
             own.clone().or_else(|| shared.clone()).ok_or_else(|| {
                 src.fail(
@@ -444,6 +474,11 @@ fn top_only(src: &Source, raw: &RawDesign) -> Res<()> {
         .map(|o| (o.span(), "[operating]"))
         .or_else(|| raw.clock.as_ref().map(|c| (c.span(), "[clock]")))
         .or_else(|| raw.section.first().map(|s| (s.name.span(), "[[section]]")))
+        .or_else(|| {
+            raw.microstep
+                .first()
+                .map(|s| (s.name.span(), "[[microstep]]"))
+        })
         .or_else(|| raw.supply.as_ref().map(|s| (s.span(), "[supply]")))
         .or_else(|| raw.feed.first().map(|s| (s.span(), "[[feed]]")))
         .or_else(|| raw.led.first().map(|s| (s.span(), "[[led]]")))
@@ -476,6 +511,7 @@ impl Keyed {
         all(&mut self.arcs, by);
         all(&mut self.captures, by);
         all(&mut self.overrides, by);
+        all(&mut self.drivers, by);
     }
 
     /// In file order (a stable sort: entries written in one place keep their order).
@@ -491,6 +527,7 @@ impl Keyed {
             arcs: strip(&mut self.arcs),
             captures: strip(&mut self.captures),
             overrides: strip(&mut self.overrides),
+            drivers: strip(&mut self.drivers),
         }
     }
 }
@@ -536,6 +573,11 @@ impl Flat {
         }
         for o in &mut self.overrides {
             o.part = rename(&o.part);
+        }
+        // control bits are the machine's own control word: an include does not rename them
+        for d in &mut self.drivers {
+            d.bus = rename(&d.bus);
+            d.part = rename(&d.part);
         }
     }
 }

@@ -1,5 +1,6 @@
 //! The checks `slackmeter check` makes on a resolved design, without solving it: inputs nothing
-//! drives, outputs nothing reads, captures no launch reaches, parts outside every section.
+//! drives, outputs nothing reads, captures no launch reaches, parts outside every section (and,
+//! in `contention.rs`, buses driven twice in one microstep).
 
 use std::ops::Range;
 
@@ -21,6 +22,12 @@ pub enum Lint {
     UnreachedCapture,
     /// A part instance in no section although the design has sections.
     NoSection,
+    /// A microstep turns on two drivers of one bus (their `when` control bits).
+    BusContention,
+    /// A bus driver the microsteps cannot be checked against: no `when`, or no microsteps.
+    UncheckedDriver,
+    /// A driver's `when` bit that no microstep asserts: it never drives (a misspelt bit?).
+    NeverEnabled,
 }
 
 /// How bad a finding is: errors make `check` fail, warnings do not.
@@ -37,8 +44,12 @@ impl Lint {
     /// The severity of every finding of this check.
     pub fn severity(self) -> Severity {
         match self {
-            Lint::Load | Lint::UndrivenInput | Lint::UnreachedCapture => Severity::Error,
-            Lint::UnusedOutput | Lint::NoSection => Severity::Warning,
+            Lint::Load | Lint::UndrivenInput | Lint::UnreachedCapture | Lint::BusContention => {
+                Severity::Error
+            }
+            Lint::UnusedOutput | Lint::NoSection | Lint::UncheckedDriver | Lint::NeverEnabled => {
+                Severity::Warning
+            }
         }
     }
 }
@@ -52,6 +63,31 @@ pub(super) struct Sites {
     pub arc_to: Vec<Range<usize>>,
     pub capture_signal: Vec<Range<usize>>,
     pub part_ref: Vec<Range<usize>>,
+    /// The buses' drivers and the microsteps, for the contention checks.
+    pub control: Control,
+}
+
+/// A bus driver: its bus, its part (with where it was written) and its `when` bit.
+#[derive(Clone, Debug, Default)]
+pub(super) struct Driver {
+    pub bus: String,
+    pub part: String,
+    pub part_span: Range<usize>,
+    pub when: Option<(String, Range<usize>)>,
+}
+
+/// A microstep: its name and the control bits it asserts, each with its span.
+#[derive(Clone, Debug, Default)]
+pub(super) struct Step {
+    pub name: String,
+    pub on: Vec<(String, Range<usize>)>,
+}
+
+/// What the contention checks (`contention.rs`) read: every bus driver and every microstep, in file order.
+#[derive(Clone, Debug, Default)]
+pub(super) struct Control {
+    pub drivers: Vec<Driver>,
+    pub steps: Vec<Step>,
 }
 
 /// One problem, not yet placed in a file.

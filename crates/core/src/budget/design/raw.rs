@@ -25,6 +25,8 @@ pub(super) struct RawDesign {
     #[serde(default)]
     pub bus: Vec<super::compact::RawBus>,
     #[serde(default)]
+    pub microstep: Vec<super::compact::RawMicrostep>,
+    #[serde(default)]
     pub chains: Vec<Spanned<String>>,
     #[serde(default)]
     pub include: Vec<super::compact::RawInclude>,
