@@ -178,3 +178,113 @@ pub(super) fn extremes_figures(s: &mut ClockSnapshot, a: &ClockAcc, timebase_ppm
         s.mark_unavailable(fig, why);
     }
 }
+
+/// A block with stamped cycles and window extremes (a probe that stamps what its link carries
+/// and times every cycle): the worst high time, low time and period become the worst of every
+/// cycle the windows timed, and the coverage and observation theirs; the statistics of single
+/// cycles (jitter, TIE, histograms) stay those of the stamped cycles.
+pub(super) fn merge_extremes(s: &mut ClockSnapshot, a: &ClockAcc) {
+    let e = &a.ext;
+    if e.windows == 0 || e.cycles == 0 {
+        return;
+    }
+    let q = s.resolution_ns;
+    let at = |t: u64| t as f64 * q * 1e-9;
+    let ns = |t: u32| f64::from(t) * q;
+    if s.high_min_ns.is_none_or(|v| ns(e.high.0) < v) {
+        s.high_min_ns = Some(ns(e.high.0));
+        s.high_min_at_s = Some(at(e.high_min_at));
+        s.high_min_cycle = None;
+    }
+    if s.low_min_ns.is_none_or(|v| ns(e.low.0) < v) {
+        s.low_min_ns = Some(ns(e.low.0));
+        s.low_min_at_s = Some(at(e.low_min_at));
+        s.low_min_cycle = None;
+    }
+    let max = |v: Option<f64>, t: u32| Some(v.map_or(ns(t), |v| v.max(ns(t))));
+    let min = |v: Option<f64>, t: u32| Some(v.map_or(ns(t), |v| v.min(ns(t))));
+    s.high_max_ns = max(s.high_max_ns, e.high.1);
+    s.low_max_ns = max(s.low_max_ns, e.low.1);
+    s.period_min_ns = min(s.period_min_ns, e.period.0);
+    s.period_max_ns = max(s.period_max_ns, e.period.1);
+    if let (Some(lo), Some(hi)) = (s.period_min_ns, s.period_max_ns) {
+        s.period_jitter_pkpk_ns = Some(hi - lo);
+    }
+    s.cycles = s.cycles.max(e.cycles);
+    s.coverage = e.coverage();
+    s.observation = "window-extremes".into();
+    s.method = format!("{} and window extremes", s.method);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::config::ClockConfig;
+    use super::super::snapshot::snapshot;
+    use super::*;
+
+    /// A steady clock of 100 ticks, high 50, stamped over `cycles` cycles from tick 1000.
+    fn stamped(cycles: u64) -> ClockState {
+        let mut st = ClockState::new(ClockConfig::default(), 8.0);
+        let ticks: Vec<u64> = (0..=2 * cycles).map(|i| 1000 + 50 * i).collect();
+        st.edges(&ticks, true);
+        st
+    }
+
+    fn window(start: u64, cycles: u32, high: (u32, u32), low: (u32, u32)) -> Extremes {
+        Extremes {
+            channel: 0,
+            lost_before: false,
+            start_tick: start,
+            end_tick: start + 100 * u64::from(cycles),
+            cycles,
+            high,
+            low,
+            period: (high.0 + low.0, high.1 + low.1),
+            high_sum: 50 * u64::from(cycles),
+            low_sum: 50 * u64::from(cycles),
+        }
+    }
+
+    #[test]
+    fn windows_beside_stamps_give_the_worst_of_every_cycle() {
+        // the stamps saw 20 steady cycles; the windows timed 400, one high time of 37 ticks
+        // and one low time of 44 among them (cycles the link could not carry)
+        let mut st = stamped(20);
+        let only_stamps = snapshot(0, "clk", st.acc.as_ref(), &st, 0, false, 3000);
+        assert_eq!(only_stamps.high_min_ns, Some(50.0 * 8.0));
+        st.extremes_window(&window(1000, 200, (37, 52), (48, 50)));
+        st.extremes_window(&window(21_000, 200, (50, 50), (44, 63)));
+        let s = snapshot(0, "clk", st.acc.as_ref(), &st, 0, false, 41_000);
+        assert_eq!(s.high_min_ns, Some(37.0 * 8.0));
+        assert_eq!(s.low_min_ns, Some(44.0 * 8.0));
+        assert_eq!(s.high_max_ns, Some(52.0 * 8.0));
+        assert_eq!(s.low_max_ns, Some(63.0 * 8.0));
+        assert_eq!(s.period_min_ns, Some(85.0 * 8.0));
+        assert_eq!(s.period_max_ns, Some(113.0 * 8.0));
+        assert_eq!(s.low_min_at_s, Some(21_000.0 * 8.0e-9));
+        assert_eq!(s.cycles, 400);
+        assert_eq!(s.observation, "window-extremes");
+        assert_eq!(s.coverage, Some(1.0));
+        assert!(s.every_cycle_observed());
+        // the single-cycle statistics stay the stamps'
+        assert_eq!(s.period_jitter_n, only_stamps.period_jitter_n);
+    }
+
+    #[test]
+    fn a_lost_window_shows_in_the_coverage_and_stamps_alone_are_unchanged() {
+        let mut st = stamped(20);
+        let before = snapshot(0, "clk", st.acc.as_ref(), &st, 0, false, 3000);
+        // a window without cycles changes nothing it could not see
+        st.extremes_window(&window(1000, 0, (0, 0), (0, 0)));
+        let empty = snapshot(0, "clk", st.acc.as_ref(), &st, 0, false, 3000);
+        assert_eq!(empty.high_min_ns, before.high_min_ns);
+        assert_eq!(empty.observation, before.observation);
+        // two windows with a lost one between: three quarters of the span covered
+        let mut st = stamped(20);
+        st.extremes_window(&window(1000, 200, (50, 50), (50, 50)));
+        st.extremes_window(&window(41_000, 200, (50, 50), (50, 50)));
+        let s = snapshot(0, "clk", st.acc.as_ref(), &st, 0, false, 61_000);
+        assert_eq!(s.coverage, Some(40_000.0 / 60_000.0));
+        assert!(!s.every_cycle_observed());
+    }
+}

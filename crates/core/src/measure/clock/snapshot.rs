@@ -13,7 +13,7 @@ use super::super::stats::{DevHistogram, IntStats};
 use super::acc::ClockAcc;
 use super::config::{BATCH, K, MIN_TIE_STRETCH};
 use super::count::{counted_figures, counted_only};
-use super::extremes::{extremes_figures, extremes_only, violations};
+use super::extremes::{extremes_figures, extremes_only, merge_extremes, violations};
 use super::figures::{AllanPoint, ClockSnapshot, NCycle, Percentiles};
 use super::state::ClockState;
 use super::walk::coherent_quantisation_ticks;
@@ -68,6 +68,7 @@ pub fn snapshot(
     if a.period.n > 0 {
         stamped_figures(&mut s, a, state, timebase_ppm);
     }
+    merge_extremes(&mut s, a);
     if with_allan && let Some(al) = &state.allan {
         // the estimator's τ0 was set from the reference (first) period; the samples are
         // `allan_every` mean periods apart, so τ scales by mean / reference and the deviation
