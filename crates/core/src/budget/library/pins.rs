@@ -282,6 +282,10 @@ groups = [
         }
         // leaving the n.c. pins out of every group is still an error
         let e = load_text(&text.replace("[9, 10, 13]", "[9, 10]")).unwrap_err();
-        assert!(e.message.contains("pin 13 (NC) is in no group"), "{}", e.message);
+        assert!(
+            e.message.contains("pin 13 (NC) is in no group"),
+            "{}",
+            e.message
+        );
     }
 }
