@@ -274,7 +274,11 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
                         }
                     }
                 }
-                PinRole::Output | PinRole::Power | PinRole::Ground | PinRole::Bidirectional => {}
+                PinRole::Output
+                | PinRole::Power
+                | PinRole::Ground
+                | PinRole::Bidirectional
+                | PinRole::NotConnected => {}
                 PinRole::Enable | PinRole::Control => todos.push(format!(
                     "clock net {} reaches {} pin {} ({}), an {} input, not a clock pin: check the schematic",
                     net.nets[ni].name,

@@ -569,6 +569,9 @@ pub enum PinRole {
     Power,
     /// Ground.
     Ground,
+    /// No internal connection ("n.c." in the pin table): belongs to no arc.
+    #[serde(rename = "nc")]
+    NotConnected,
 }
 
 impl PinRole {
@@ -583,6 +586,7 @@ impl PinRole {
             PinRole::Bidirectional => "bidirectional",
             PinRole::Power => "power",
             PinRole::Ground => "ground",
+            PinRole::NotConnected => "not connected",
         }
     }
 }

@@ -253,4 +253,39 @@ groups = [
             assert!(e.help.is_some());
         }
     }
+
+    #[test]
+    fn a_no_connection_pin_is_in_a_group_of_its_own_and_belongs_to_no_arc() {
+        // the Nexperia 74HC30 Table 2 lists pins 9, 10 and 13 as "n.c." (not connected)
+        let text = r#"
+[[pinout]]
+types = ["74HC30"]
+package = "DIP-14"
+source = "test"
+status = "seen"
+names = ["A", "B", "C", "D", "E", "F", "GND", "Y", "NC", "NC", "G", "H", "NC", "VCC"]
+groups = [
+  { name = "A", role = "input", pins = [1, 2, 3, 4, 5, 6, 11, 12] },
+  { name = "Y", role = "output", pins = [8] },
+  { name = "NC", role = "nc", pins = [9, 10, 13] },
+  { name = "GND", role = "ground", pins = [7] },
+  { name = "VCC", role = "power", pins = [14] },
+]
+"#;
+        let p = &load_text(text).unwrap()[0];
+        let lib = Library::builtin();
+        let part = &lib.parts[lib.part_index("74HC30").unwrap()];
+        for n in [9, 10, 13] {
+            assert_eq!(p.pins[n - 1].role, PinRole::NotConnected);
+            assert_eq!(p.pins[n - 1].role.word(), "not connected");
+            assert!(Pinout::arcs_of(part, &p.pins[n - 1].group).is_empty());
+        }
+        // leaving the n.c. pins out of every group is still an error
+        let e = load_text(&text.replace("[9, 10, 13]", "[9, 10]")).unwrap_err();
+        assert!(
+            e.message.contains("pin 13 (NC) is in no group"),
+            "{}",
+            e.message
+        );
+    }
 }
