@@ -1010,6 +1010,17 @@ fn added_buffers_registers_and_counters_match_their_tables() {
     // 115/23 (2 / 4.5 V, 25 °C) | 145/29 | 175/35; above 4.5 V the 4.5 V column holds
     assert_eq!(max("74HC541/ti-cd", "A->Y", d, 2.0, 125.0), 175.0);
     assert_eq!(max("74HC541", "A->Y", d, 5.0, 85.0), 29.0);
+    // STMicroelectronics M54/M74HC540/541, AC electrical characteristics, CL = 50 pF (columns
+    // re-assembled from a mirror's text): tPLH/tPHL max 85/17/14 (2 / 4.5 / 6 V, 25 °C) |
+    // 105/21/18 (−40…85 °C); output enable tPZL/tPZH 110/22/19 | 140/28/24; disable
+    // tPLZ/tPHZ 110/22/19 | 140/28/24
+    assert_eq!(max("74HC541/st", "A->Y", d, 6.0, 85.0), 18.0);
+    assert_eq!(max("74HC541/st", "OE->Y", d, 4.5, 25.0), 22.0);
+    assert_eq!(max("74HC541/st", "OE->Z", d, 2.0, 85.0), 140.0);
+    // the generic part takes the enable rows from the one sheet that has them, and the worse
+    // data row (TI's 23 ns at 4.5 V, 25 °C against ST's 17)
+    assert_eq!(max("74HC541", "OE->Y", d, 4.5, 85.0), 28.0);
+    assert_eq!(max("74HC541", "A->Y", d, 4.5, 25.0), 23.0);
     // TI CD74HC173 SCHS158F, switching characteristics, HC types: clock to output 200/40/34 |
     // 250/50/43 | 300/60/51; MR to output 175/35/30 | 220/44/37 | 265/53/45; prerequisites:
     // f_max 6/30/35 | 5/24/28 | 4/20/24 MHz, clock pulse width 80/16/14 | 100/20/17 | 120/24/20
