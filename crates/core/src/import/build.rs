@@ -317,7 +317,9 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
             }
         }
     }
-    // two drivers on one net, one of them without an enable
+    // two drivers on one net, one of them without an enable; a bidirectional pin (a
+    // transceiver's side, a memory's data) beside one such output is that output's load, not a
+    // second driver: it can face in, and which way it faces is not decided here
     for (ni, pins) in on_net.iter().enumerate() {
         if power[ni] {
             continue;
@@ -327,7 +329,11 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
             .filter(|(_, p)| matches!(p.role, PinRole::Output | PinRole::Bidirectional))
             .map(|&(ci, p)| (ci, p, three_state(&comps[ci], p)))
             .collect();
-        if drivers.len() >= 2 && drivers.iter().any(|d| !d.2) {
+        let outputs = drivers
+            .iter()
+            .filter(|d| d.1.role == PinRole::Output)
+            .count();
+        if outputs >= 2 && drivers.iter().any(|d| !d.2) {
             let who: Vec<String> = drivers
                 .iter()
                 .map(|(ci, p, _)| format!("{} pin {} ({})", comps[*ci].reference, p.number, p.name))
