@@ -33,12 +33,8 @@ impl Board {
     /// A chip with its signal pins, its supply pins and a 100 nF decoupling capacitor beside it.
     fn chip(&mut self, reference: &str, value: &str, sheet: &str, pins: &[(u32, String)]) {
         let (vcc, gnd, footprint) = package(value);
-        self.comps.push((
-            reference.into(),
-            value.into(),
-            sheet.into(),
-            footprint,
-        ));
+        self.comps
+            .push((reference.into(), value.into(), sheet.into(), footprint));
         for (p, net) in pins {
             self.pin(net, reference, *p);
         }
@@ -146,7 +142,15 @@ fn reg173(b: &mut Board, r: &str, sheet: &str, d: &[String], q: &[String], load_
 }
 
 /// A 74HC245 driving `b_side` from `a_side` while `oe_n` is low; `dir` high is A → B.
-fn xcvr(b: &mut Board, r: &str, sheet: &str, a_side: &[String], b_side: &[String], dir: &str, oe_n: &str) {
+fn xcvr(
+    b: &mut Board,
+    r: &str,
+    sheet: &str,
+    a_side: &[String],
+    b_side: &[String],
+    dir: &str,
+    oe_n: &str,
+) {
     let mut p = on(&HC245_A, a_side);
     p.extend(on(&HC245_B, b_side));
     p.extend([(1, n(dir)), (19, n(oe_n))]);
@@ -185,7 +189,11 @@ pub fn foxglove() -> String {
     let ab = bits("/AB", 0, 16);
 
     // clock: the oscillator board plugs into J101; U101 gives the falling-edge clock
-    b.connector("J101", "/clock/", &[n("/CLK"), n("/HLT"), n("+5V"), n("GND")]);
+    b.connector(
+        "J101",
+        "/clock/",
+        &[n("/CLK"), n("/HLT"), n("+5V"), n("GND")],
+    );
     hex_inv(&mut b, "U101", "/clock/", &[("/CLK", "/clock/nCLK")]);
 
     // control: instruction register, step counter and decoder, two microcode ROMs, the
@@ -207,7 +215,14 @@ pub fn foxglove() -> String {
     b.chip("U204", "74HC161", "/control/", &p);
     let steps: Vec<String> = bits("/STEP", 0, 8).into_iter().map(|s| s + "_n").collect();
     let step_refs: Vec<&str> = steps.iter().map(String::as_str).collect();
-    dec138(&mut b, "U205", "/control/", &t, ["GND", "GND", "+5V"], &step_refs);
+    dec138(
+        &mut b,
+        "U205",
+        "/control/",
+        &t,
+        ["GND", "GND", "+5V"],
+        &step_refs,
+    );
     // microcode address: step T0–T2, opcode IR0–IR7, carry and negative flags; A13, A14 unused
     let mut addr = t.clone();
     addr.extend(ir.iter().cloned());
@@ -287,7 +302,11 @@ pub fn foxglove() -> String {
     for (r, k) in [("U401", 0), ("U402", 4)] {
         let mut p = Vec::new();
         for (g, &(pa, pb, py)) in HC86.iter().enumerate() {
-            p.extend([(pa, bb[k + g].clone()), (pb, n("/SUB")), (py, bx[k + g].clone())]);
+            p.extend([
+                (pa, bb[k + g].clone()),
+                (pb, n("/SUB")),
+                (py, bx[k + g].clone()),
+            ]);
         }
         b.chip(r, "74HC86", "/alu/", &p);
     }
@@ -305,7 +324,11 @@ pub fn foxglove() -> String {
     for (r, k) in [("U406", 0), ("U407", 4)] {
         let mut p = Vec::new();
         for (g, &(pa, pb, py)) in HC86.iter().enumerate() {
-            p.extend([(pa, a[k + g].clone()), (pb, bb[k + g].clone()), (py, x[k + g].clone())]);
+            p.extend([
+                (pa, a[k + g].clone()),
+                (pb, bb[k + g].clone()),
+                (py, x[k + g].clone()),
+            ]);
         }
         b.chip(r, "74HC86", "/alu/", &p);
     }
@@ -365,15 +388,75 @@ pub fn foxglove() -> String {
         }
         b.chip(&format!("U60{}", i + 1), "74HC161", "/address/", &p);
     }
-    xcvr(&mut b, "U605", "/address/", &pc[0..8], &ab[0..8], "+5V", "/PCA_n");
-    xcvr(&mut b, "U606", "/address/", &pc[8..16], &ab[8..16], "+5V", "/PCA_n");
+    xcvr(
+        &mut b,
+        "U605",
+        "/address/",
+        &pc[0..8],
+        &ab[0..8],
+        "+5V",
+        "/PCA_n",
+    );
+    xcvr(
+        &mut b,
+        "U606",
+        "/address/",
+        &pc[8..16],
+        &ab[8..16],
+        "+5V",
+        "/PCA_n",
+    );
     let mar = bits("/address/MAR", 0, 16);
-    reg173(&mut b, "U607", "/address/", &bus[0..4], &mar[0..4], "/MLI_n");
-    reg173(&mut b, "U608", "/address/", &bus[4..8], &mar[4..8], "/MLI_n");
-    reg173(&mut b, "U609", "/address/", &bus[0..4], &mar[8..12], "/MHI_n");
-    reg173(&mut b, "U610", "/address/", &bus[4..8], &mar[12..16], "/MHI_n");
-    xcvr(&mut b, "U611", "/address/", &mar[0..8], &ab[0..8], "+5V", "/MAA_n");
-    xcvr(&mut b, "U612", "/address/", &mar[8..16], &ab[8..16], "+5V", "/MAA_n");
+    reg173(
+        &mut b,
+        "U607",
+        "/address/",
+        &bus[0..4],
+        &mar[0..4],
+        "/MLI_n",
+    );
+    reg173(
+        &mut b,
+        "U608",
+        "/address/",
+        &bus[4..8],
+        &mar[4..8],
+        "/MLI_n",
+    );
+    reg173(
+        &mut b,
+        "U609",
+        "/address/",
+        &bus[0..4],
+        &mar[8..12],
+        "/MHI_n",
+    );
+    reg173(
+        &mut b,
+        "U610",
+        "/address/",
+        &bus[4..8],
+        &mar[12..16],
+        "/MHI_n",
+    );
+    xcvr(
+        &mut b,
+        "U611",
+        "/address/",
+        &mar[0..8],
+        &ab[0..8],
+        "+5V",
+        "/MAA_n",
+    );
+    xcvr(
+        &mut b,
+        "U612",
+        "/address/",
+        &mar[8..16],
+        &ab[8..16],
+        "+5V",
+        "/MAA_n",
+    );
 
     // front panel: the bus and the address bus latched on every CLK↑ for the LEDs
     let ld = bits("/panel/LD", 0, 8);
