@@ -36,6 +36,7 @@ fn imported(text: &str) -> import::Import {
             map: &map,
             name: "foxglove-8",
             source: NETLIST,
+            sections: &[],
         },
     )
     .unwrap()
@@ -181,4 +182,106 @@ fn two_paths_summed_by_hand_from_the_data_sheets_match_the_budget() {
     let own = solve(&d, &lib, &OperatingPoint::of(&d), None, None);
     assert_eq!(own.vcc_v, 5.0);
     assert_eq!(own.low_required_ns, low);
+}
+
+fn run_import(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .args(["import", NETLIST, "--clock", "CLK"])
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+#[test]
+fn section_rules_put_sheets_and_references_into_sections() {
+    // the seven sheets on three supply sections; the panel's latches moved by a reference
+    // prefix, one of them by its reference
+    let o = run_import(&[
+        "--section",
+        "/clock/=near",
+        "--section",
+        "/control=near",
+        "--section",
+        "/address/=mid",
+        "--section",
+        "/memory/=mid",
+        "--section",
+        "/=far",
+        "--section",
+        "U703=mid",
+        "--section",
+        "U70*=near",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8(o.stdout).unwrap();
+    assert!(
+        text.contains("section = [{ name = \"far\" }, { name = \"mid\" }, { name = \"near\" }]\n"),
+        "{text}"
+    );
+    assert!(text.contains(
+        "# Sections from --section /clock/=near --section /control=near --section /address/=mid"
+    ));
+    let lib = Library::builtin();
+    let d = Design::parse(Source::new("sections.toml", text.clone()), &lib)
+        .unwrap_or_else(|e| panic!("{e:?}"));
+    let section_of = |r: &str| {
+        let i = d.instances.iter().find(|i| i.reference == r).unwrap();
+        i.section.map(|s| d.sections[s].name.clone())
+    };
+    for (r, want) in [
+        ("U101", "near"), // /clock/
+        ("U205", "near"), // /control (the trailing "/" is optional)
+        ("U601", "mid"),  // /address/
+        ("U501", "mid"),  // /memory/
+        ("U301", "far"),  // /regs/, through "/"
+        ("U404", "far"),  // /alu/, through "/"
+        ("U701", "near"), // the prefix U70* beats the sheet rule "/"
+        ("U702", "near"),
+        ("U703", "mid"), // its reference beats the prefix
+    ] {
+        assert_eq!(section_of(r).as_deref(), Some(want), "{r}");
+    }
+    // at one supply for all sections the budget is the one without rules
+    let (plain, _) = design();
+    let op = OperatingPoint::of(&d);
+    let a = solve(&d, &lib, &op, None, None);
+    let b = solve(&plain, &lib, &op, None, None);
+    assert_eq!(
+        (a.low_required_ns, a.high_required_ns, a.period_required_ns),
+        (b.low_required_ns, b.high_required_ns, b.period_required_ns)
+    );
+}
+
+#[test]
+fn a_bad_or_unmatched_section_rule_is_a_clear_error() {
+    for (rule, says) in [
+        ("/alu/", "expected PATTERN=NAME"),
+        ("=far", "the pattern before \"=\" is empty"),
+        (
+            "/alu/=far side",
+            "the section name \"far side\" must be letters",
+        ),
+        ("U*1=far", "\"*\" may only end a reference prefix"),
+        (
+            "/aul/=far",
+            "--section /aul/=far: no component of designs/foxglove-8.net matches it",
+        ),
+        (
+            "U999=far",
+            "no component of designs/foxglove-8.net matches it",
+        ),
+    ] {
+        let o = run_import(&["--section", rule]);
+        assert_eq!(o.status.code(), Some(2), "{rule}");
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(err.contains(says), "{rule}: {err}");
+        assert!(o.stdout.is_empty(), "{rule}: nothing is written");
+    }
+    let o = run_import(&["--section", "/aul/=far"]);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("/alu/, /clock/, /control/"), "{err}");
+    let o = run_import(&["--section", "/alu/=far", "--section", "/alu=near"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("its pattern was given before"));
 }
