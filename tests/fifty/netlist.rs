@@ -8,7 +8,7 @@ use std::collections::BTreeMap;
 /// A board being wired: components (reference, value, sheet, footprint) and the pins on each net.
 #[derive(Default)]
 struct Board {
-    comps: Vec<(String, String, String, &'static str)>,
+    comps: Vec<(String, String, String, String)>,
     nets: BTreeMap<String, Vec<(String, u32)>>,
 }
 
@@ -33,8 +33,12 @@ impl Board {
     /// A chip with its signal pins, its supply pins and a 100 nF decoupling capacitor beside it.
     fn chip(&mut self, reference: &str, value: &str, sheet: &str, pins: &[(u32, String)]) {
         let (vcc, gnd, footprint) = package(value);
-        self.comps
-            .push((reference.into(), value.into(), sheet.into(), footprint));
+        self.comps.push((
+            reference.into(),
+            value.into(),
+            sheet.into(),
+            footprint.into(),
+        ));
         for (p, net) in pins {
             self.pin(net, reference, *p);
         }
@@ -45,7 +49,7 @@ impl Board {
             cap.clone(),
             "100nF".into(),
             sheet.into(),
-            "Capacitor_THT:C_Disc_D5.0mm_W2.5mm_P5.00mm",
+            "Capacitor_THT:C_Disc_D5.0mm_W2.5mm_P5.00mm".into(),
         ));
         self.pin("+5V", &cap, 1);
         self.pin("GND", &cap, 2);
@@ -57,7 +61,10 @@ impl Board {
             reference.into(),
             format!("Conn_01x{:02}", nets.len()),
             sheet.into(),
-            "Connector_PinHeader_2.54mm:PinHeader_1x40_P2.54mm_Vertical",
+            format!(
+                "Connector_PinHeader_2.54mm:PinHeader_1x{:02}_P2.54mm_Vertical",
+                nets.len()
+            ),
         ));
         for (i, n) in nets.iter().enumerate() {
             self.pin(n, reference, i as u32 + 1);
