@@ -285,3 +285,51 @@ fn a_bad_or_unmatched_section_rule_is_a_clear_error() {
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("its pattern was given before"));
 }
+
+#[test]
+fn the_docs_figures_of_the_example_hold() {
+    // Regression test of the figures docs/IMPORT.md and docs/DEMO-MACHINE.md give (the low
+    // phase is the hand-computed path above; the others are the solver's own output)
+    let (d, lib) = design();
+    let b = solve(&d, &lib, &OperatingPoint::of(&d), None, None);
+    assert_eq!(
+        (b.low_required_ns, b.high_required_ns, b.period_required_ns),
+        (497.0, 267.0, 477.0)
+    );
+    // at 50 % duty the low phase binds: T = 2 × 497 ns
+    assert!((b.fmax_50_hz - 1e9 / 994.0).abs() < 1e-6);
+    assert_eq!(format!("{:.3}", b.fmax_50_hz / 1e6), "1.006");
+    assert_eq!(d.sections.len(), 7);
+    let o = Command::new(env!("CARGO_BIN_EXE_slackmeter"))
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .args(["check", DESIGN, "--json"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(
+        (j["errors"].as_u64(), j["warnings"].as_u64()),
+        (Some(0), Some(51))
+    );
+    // every warning is an output nothing reads: the connectors' signals, the 62256's CE and WE
+    let unused: Vec<&str> = j["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["check"].as_str().unwrap())
+        .collect();
+    assert!(unused.iter().all(|c| *c == "unused-output"), "{unused:?}");
+    let messages: Vec<&str> = j["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["message"].as_str().unwrap())
+        .collect();
+    for s in ["memory/RAM_n", "RI_n", "HLT", "panel/LA15", "regs/OUTB7"] {
+        let quoted = format!("signal \"{s}\" ");
+        assert!(
+            messages.iter().any(|m| m.contains(&quoted)),
+            "{s}: {messages:?}"
+        );
+    }
+}
