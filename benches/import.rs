@@ -65,6 +65,7 @@ fn import_500_parts(b: divan::Bencher) {
             map: &map,
             name: "ring",
             source: "ring.net",
+            sections: &[],
         };
         let done = import::import(&n, &lib, &o).unwrap();
         assert!(

@@ -129,6 +129,7 @@ fn run_import(text: &str, clock: &str) -> Result<import::Import, String> {
             map: &m,
             name: "two-stage",
             source: "machine.net",
+            sections: &[],
         },
     )
 }
@@ -344,6 +345,7 @@ fn damaged_netlists_never_panic() {
                     map: &m,
                     name: "m",
                     source: "m.net",
+                    sections: &[],
                 };
                 if let Ok(done) = import::import(&n, &lib, &o) {
                     let _ =

@@ -466,6 +466,7 @@ pub fn netlist(data: &[u8]) {
         map: &map,
         name: "fuzz",
         source: "fuzz.net",
+        sections: &[],
     };
     if let Ok(done) = slackmeter_core::import::import(&n, lib, &o) {
         let no_files = slackmeter_core::budget::design::NoIncludes;

@@ -10,7 +10,7 @@ use miette::miette;
 use super::args::LibraryArgs;
 use super::error::{CliError, CliResult, Outcome};
 use crate::diag::Source;
-use crate::import::{self, Options};
+use crate::import::{self, Options, SectionRule};
 
 /// Options of `import`.
 #[derive(clap::Args, Debug)]
@@ -26,6 +26,11 @@ pub struct ImportArgs {
     /// A TOML file mapping component values to library types: `"SN74HC574N" = "74HC574"`.
     #[arg(long, value_name = "FILE")]
     pub map: Option<PathBuf>,
+    /// Put the components a pattern matches into a section, in place of their sheet's name:
+    /// PATTERN is a sheet path (/alu/, with its sub-sheets), a reference (U12) or a reference
+    /// prefix (U6*); the most specific rule wins. Repeatable.
+    #[arg(long = "section", value_name = "PATTERN=NAME")]
+    pub sections: Vec<String>,
     /// Replace an existing output file.
     #[arg(long)]
     pub force: bool,
@@ -36,6 +41,12 @@ pub struct ImportArgs {
 
 /// `slackmeter import`.
 pub fn run(a: ImportArgs) -> CliResult<Outcome> {
+    let sections = SectionRule::parse_all(&a.sections).map_err(|e| {
+        CliError::input(miette!(
+            help = "e.g. --section /alu/=far --section U12=near --section U6*=mid",
+            "{e}"
+        ))
+    })?;
     let lib = a.library.load()?;
     let read = |p: &PathBuf, what: &str| {
         crate::diag::read_text(p).map_err(|e| {
@@ -58,6 +69,24 @@ pub fn run(a: ImportArgs) -> CliResult<Outcome> {
         read(&a.netlist, "netlist")?,
     );
     let netlist = import::parse(&src)?;
+    if let Some(r) = import::sections::unmatched(&sections, &netlist).first() {
+        let mut sheets: Vec<&str> = netlist
+            .components
+            .iter()
+            .map(|c| c.sheet.as_str())
+            .collect();
+        sheets.sort_unstable();
+        sheets.dedup();
+        return Err(CliError::input(miette!(
+            help = format!(
+                "the netlist's sheets are {}; a reference is matched exactly, a prefix needs a trailing *",
+                sheets.join(", ")
+            ),
+            "--section {}: no component of {} matches it",
+            r.text,
+            src.name
+        )));
+    }
     let name = a
         .netlist
         .file_stem()
@@ -67,6 +96,7 @@ pub fn run(a: ImportArgs) -> CliResult<Outcome> {
         map: &map,
         name: &name,
         source: &src.name,
+        sections: &sections,
     };
     let done = import::import(&netlist, &lib, &opts).map_err(|e| {
         CliError::input(miette!(

@@ -7,6 +7,7 @@
 use std::collections::{BTreeMap, HashMap};
 
 use super::netlist::Netlist;
+use super::sections::{SectionRule, section_for};
 use crate::budget::design::Edge;
 use crate::budget::library::{ActiveEdge, ArcKind, Library, Part, Pin, PinRole};
 
@@ -20,6 +21,8 @@ pub struct Options<'a> {
     pub name: &'a str,
     /// The netlist's file name, for the header.
     pub source: &'a str,
+    /// `--section` rules: sections for the components they match, in place of the sheet's.
+    pub sections: &'a [SectionRule],
 }
 
 /// An imported design.
@@ -160,7 +163,10 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
             ));
             continue;
         };
-        let section = c.sheet.trim_matches('/').replace('/', "_");
+        let section = match section_for(o.sections, &c.reference, &c.sheet) {
+            Some(s) => s.to_string(),
+            None => c.sheet.trim_matches('/').replace('/', "_"),
+        };
         by_ref.insert(c.reference.as_str(), comps.len());
         comps.push(Comp {
             reference: c.reference.clone(),
@@ -321,7 +327,9 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
             }
         }
     }
-    // two drivers on one net, one of them without an enable
+    // two drivers on one net, one of them without an enable; a bidirectional pin (a
+    // transceiver's side, a memory's data) beside one such output is that output's load, not a
+    // second driver: it can face in, and which way it faces is not decided here
     for (ni, pins) in on_net.iter().enumerate() {
         if power[ni] {
             continue;
@@ -331,7 +339,11 @@ pub fn import(net: &Netlist, lib: &Library, o: &Options) -> Result<Import, Strin
             .filter(|(_, p)| matches!(p.role, PinRole::Output | PinRole::Bidirectional))
             .map(|&(ci, p)| (ci, p, three_state(&comps[ci], p)))
             .collect();
-        if drivers.len() >= 2 && drivers.iter().any(|d| !d.2) {
+        let outputs = drivers
+            .iter()
+            .filter(|d| d.1.role == PinRole::Output)
+            .count();
+        if outputs >= 2 && drivers.iter().any(|d| !d.2) {
             let who: Vec<String> = drivers
                 .iter()
                 .map(|(ci, p, _)| format!("{} pin {} ({})", comps[*ci].reference, p.number, p.name))
@@ -447,6 +459,17 @@ fn write(
          # part library; none is made up. Each TODO needs a decision before the budget is trusted.\n\n",
         o.source, o.clock
     );
+    if !o.sections.is_empty() {
+        let given: Vec<String> = o
+            .sections
+            .iter()
+            .map(|r| format!("--section {}", r.text))
+            .collect();
+        out += &format!(
+            "# Sections from {}; the other parts' from their sheet names.\n\n",
+            given.join(" ")
+        );
+    }
     out += &format!("design = {{ name = {} }}\n", q(o.name));
     let mut sections: Vec<&str> = comps.iter().filter_map(|c| c.section.as_deref()).collect();
     sections.dedup();
