@@ -1,5 +1,5 @@
 //! The netlist of Foxglove-8, the project's second invented example machine (docs/DEMO-MACHINE.md):
-//! 47 chips on seven sheets, written out in KiCad's netlist export format. Invented demo data,
+//! 50 chips on seven sheets, written out in KiCad's netlist export format. Invented demo data,
 //! not modelled on any published build. `SLACKMETER_BLESS=1 cargo test --test import_fifty`
 //! rewrites `designs/foxglove-8.net` (and its imported design) from this generator.
 
@@ -465,13 +465,18 @@ pub fn foxglove() -> String {
         "/MAA_n",
     );
 
-    // front panel: the bus and the address bus latched on every CLK↑ for the LEDs
+    // front panel: the bus, the address bus, the A, B and instruction registers latched on
+    // every CLK↑ for the LEDs
     let ld = bits("/panel/LD", 0, 8);
     let la = bits("/panel/LA", 0, 16);
+    let lr = bits("/panel/LR", 0, 24);
     for (r, d, q) in [
         ("U701", &bus[..], &ld[..]),
         ("U702", &ab[0..8], &la[0..8]),
         ("U703", &ab[8..16], &la[8..16]),
+        ("U704", &a[..], &lr[0..8]),
+        ("U705", &bb[..], &lr[8..16]),
+        ("U706", &ir[..], &lr[16..24]),
     ] {
         let mut p = on(&HC574_D, d);
         p.extend(on(&HC574_Q, q));
@@ -480,6 +485,7 @@ pub fn foxglove() -> String {
     }
     let mut leds = ld.clone();
     leds.extend(la);
+    leds.extend(lr);
     leds.extend(steps);
     b.connector("J701", "/panel/", &leds);
     b.text()
