@@ -1,0 +1,458 @@
+// Emulator harness of the slackmeter RP2040 probe: runs build/probe.bin in rp2040js (MIT) in
+// lock step (one PIO step per system-clock cycle, the clock pin driven at exact cycle times),
+// sends host commands over the emulated UART0, writes the probe's bytes to OUT/<scenario>.bin,
+// what was driven to OUT/<scenario>.truth and OUT/<scenario>.edges, and prints one PASS/FAIL
+// line per check. Usage: node harness.mjs probe.bin OUT
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { RP2040 } from 'rp2040js';
+import { execSync } from 'node:child_process';
+
+const NS_PER_CYCLE = 8; // the harness decides: 125 MHz system clock
+const SYS_HZ = 125e6;
+const CLK_PIN = 2;
+const [binPath, outDir] = process.argv.slice(2);
+if (!binPath || !outDir) {
+  console.error('usage: node harness.mjs probe.bin OUT');
+  process.exit(2);
+}
+const image = readFileSync(binPath);
+let failures = 0;
+function check(ok, what) {
+  console.log(`${ok ? 'PASS' : 'FAIL'} ${what}`);
+  if (!ok) failures++;
+}
+
+// ---------------------------------------------------------------- wire helpers (PROTOCOL.md 2)
+
+const CRC_TABLE = (() => {
+  const t = new Uint32Array(256);
+  for (let i = 0; i < 256; i++) {
+    let c = i;
+    for (let k = 0; k < 8; k++) c = c & 1 ? 0xedb88320 ^ (c >>> 1) : c >>> 1;
+    t[i] = c >>> 0;
+  }
+  return t;
+})();
+function crc32(bytes) {
+  let c = 0xffffffff;
+  for (const b of bytes) c = CRC_TABLE[(c ^ b) & 0xff] ^ (c >>> 8);
+  return (c ^ 0xffffffff) >>> 0;
+}
+function cobsEncode(data) {
+  const out = [0];
+  let code = 1, at = 0;
+  for (const b of data) {
+    if (b === 0) {
+      out[at] = code; at = out.length; out.push(0); code = 1;
+    } else {
+      out.push(b); code++;
+      if (code === 0xff) { out[at] = code; at = out.length; out.push(0); code = 1; }
+    }
+  }
+  out[at] = code;
+  out.push(0);
+  return out;
+}
+function cobsDecode(bytes) {
+  const out = [];
+  let i = 0;
+  while (i < bytes.length) {
+    const code = bytes[i++];
+    if (code === 0) return null;
+    for (let k = 1; k < code; k++) {
+      if (i >= bytes.length) return null;
+      out.push(bytes[i++]);
+    }
+    if (code !== 0xff && i < bytes.length) out.push(0);
+  }
+  return out;
+}
+let hostSeq = 0;
+function hostFrame(type, body = [], { version = 1, corrupt = false } = {}) {
+  const f = [version, type, hostSeq & 0xff, (hostSeq >> 8) & 0xff, ...body];
+  hostSeq++;
+  const c = crc32(f);
+  f.push(c & 0xff, (c >>> 8) & 0xff, (c >>> 16) & 0xff, c >>> 24);
+  if (corrupt) f[4] ^= 0x55;
+  return cobsEncode(f);
+}
+const u32 = (v) => [v & 0xff, (v >>> 8) & 0xff, (v >>> 16) & 0xff, v >>> 24];
+const configure = (ch, param, value) => hostFrame(0x44, [ch, param, ...u32(value)]);
+
+/** Decoded frames of a byte stream: {type, seq, body (DataView), bytes}. */
+function frames(bytes) {
+  const res = [];
+  let cur = [];
+  for (const b of bytes) {
+    if (b !== 0) { cur.push(b); continue; }
+    if (cur.length) {
+      const f = cobsDecode(cur);
+      if (f && f.length >= 8) {
+        const n = f.length;
+        const crc = (f[n - 4] | (f[n - 3] << 8) | (f[n - 2] << 16) | (f[n - 1] << 24)) >>> 0;
+        if (crc === crc32(f.slice(0, n - 4))) {
+          const body = Uint8Array.from(f.slice(4, n - 4));
+          res.push({ type: f[1], seq: f[2] | (f[3] << 8), body: new DataView(body.buffer), raw: body });
+        } else res.push({ type: -1 });
+      } else res.push({ type: -1 });
+    }
+    cur = [];
+  }
+  return res;
+}
+const u64 = (v, o) => Number(v.getBigUint64(o, true));
+function extremes(f) {
+  const v = f.body;
+  return {
+    flags: v.getUint8(1), start: u64(v, 2), window: v.getUint32(10, true),
+    cycles: v.getUint32(14, true), hmin: v.getUint32(18, true), hmax: v.getUint32(22, true),
+    lmin: v.getUint32(26, true), lmax: v.getUint32(30, true), pmin: v.getUint32(34, true),
+    pmax: v.getUint32(38, true), hsum: u64(v, 42), lsum: u64(v, 50), bins: v.getUint8(66),
+    counts: Array.from({ length: v.getUint8(66) }, (_, i) => v.getUint32(67 + 4 * i, true)),
+  };
+}
+function violations(f) {
+  const v = f.body;
+  const n = v.getUint8(30);
+  return {
+    flags: v.getUint8(1), start: u64(v, 2), hthr: v.getUint32(14, true), lthr: v.getUint32(18, true),
+    hshort: v.getUint32(22, true), lshort: v.getUint32(26, true),
+    stamps: Array.from({ length: n }, (_, i) => ({
+      tick: u64(v, 31 + 13 * i), len: v.getUint32(39 + 13 * i, true), high: v.getUint8(43 + 13 * i) === 1,
+    })),
+  };
+}
+function edgesOf(f) {
+  const v = f.body, r = f.raw;
+  const n = v.getUint16(3, true);
+  const ticks = [u64(v, 5)];
+  let o = 13;
+  while (ticks.length < n) {
+    let d = 0, s = 1;
+    for (;;) { const b = r[o++]; d += (b & 0x7f) * s; s *= 128; if (!(b & 0x80)) break; }
+    ticks.push(ticks[ticks.length - 1] + d);
+  }
+  return { level: v.getUint8(1), flags: v.getUint8(2), ticks };
+}
+const acks = (fs) => fs.filter((f) => f.type === 0x07).map((f) => ({
+  seq: f.body.getUint16(0, true), cmd: f.body.getUint8(2), result: f.body.getUint8(3), value: f.body.getUint32(4, true),
+}));
+
+// ---------------------------------------------------------------- waveforms
+
+// Deterministic Gaussian noise (xorshift32 + Box-Muller) so every run drives the same clock.
+function rng(seed) {
+  let s = seed >>> 0 || 1;
+  const u = () => { s ^= s << 13; s >>>= 0; s ^= s >>> 17; s ^= s << 5; s >>>= 0; return (s + 0.5) / 4294967296; };
+  return () => Math.sqrt(-2 * Math.log(u())) * Math.cos(2 * Math.PI * u());
+}
+
+/** Rising and falling edges (in whole system-clock cycles) of a clock from `start` for `cycles`
+ * periods; `shorts` maps cycle index to {high} or {low} phase lengths in cycles. */
+function clockEdges({ fHz, duty = 0.5, jitterNs = 0, start = 200, cycles, shorts = {}, seed = 7 }) {
+  const p = SYS_HZ / fHz, g = rng(seed), j = jitterNs / NS_PER_CYCLE;
+  const rises = [], falls = [];
+  for (let k = 0; k < cycles; k++) {
+    let r = Math.round(start + k * p + j * g());
+    let f = Math.round(start + k * p + duty * p + j * g());
+    const s = shorts[k];
+    if (s && s.high) f = r + s.high;
+    rises.push(r); falls.push(f);
+  }
+  // a short low phase: the fall moves late, just before the next rise
+  for (const [k, s] of Object.entries(shorts)) {
+    const i = Number(k);
+    if (s.low && i + 1 < cycles) falls[i] = rises[i + 1] - s.low;
+  }
+  const edges = [];
+  for (let k = 0; k < cycles; k++) {
+    edges.push(rises[k], falls[k]);
+  }
+  for (let i = 1; i < edges.length; i++) if (edges[i] <= edges[i - 1]) edges[i] = edges[i - 1] + 1;
+  return edges;
+}
+
+// ---------------------------------------------------------------- the lock-step runner
+
+class Probe {
+  constructor(edges) {
+    const mcu = new RP2040();
+    mcu.logger = { debug() {}, info() {}, warn() {}, error: (c, m) => console.error(`${c}: ${m}`) };
+    for (const pio of mcu.pio) pio.run = () => {}; // stepped here, one step per cycle
+    mcu.sram.set(image);
+    mcu.core.VTOR = 0x20000000;
+    mcu.core.reset();
+    this.mcu = mcu;
+    this.out = [];
+    mcu.uart[0].onByte = (b) => this.out.push(b);
+    this.cycle = 0;
+    this.edges = edges;
+    this.ei = 0;
+    this.level = false;
+    this.rx = [];
+  }
+  /** Run until system-clock cycle `end`, feeding queued host bytes while the RX FIFO has room. */
+  runTo(end) {
+    const { mcu, edges } = this;
+    const core = mcu.core, sm = mcu.pio[0].machines[0], pin = mcu.gpio[CLK_PIN], clock = mcu.clock;
+    const uart = mcu.uart[0];
+    let cyc = this.cycle, ei = this.ei, level = this.level;
+    let nextEdge = ei < edges.length ? edges[ei] : Infinity;
+    while (cyc < end) {
+      if (this.rx.length && (cyc & 255) === 0 && uart.rxFIFO.itemCount < 24) uart.feedByte(this.rx.shift());
+      if (this.profile) this.profile.set(core.PC, (this.profile.get(core.PC) || 0) + 1);
+      const n = core.waiting ? 1 : core.executeInstruction();
+      const run = sm.enabled;
+      for (let k = 0; k < n; k++) {
+        while (nextEdge <= cyc) {
+          level = !level;
+          pin.setInputValue(level);
+          ei++;
+          nextEdge = ei < edges.length ? edges[ei] : Infinity;
+        }
+        if (run) sm.step();
+        cyc++;
+      }
+      clock.tick(n * NS_PER_CYCLE);
+    }
+    this.cycle = cyc; this.ei = ei; this.level = level;
+  }
+  send(bytes) { this.rx.push(...bytes); }
+  /** Send a command and run `ms` of emulated time. */
+  command(bytes, ms = 0.2) {
+    this.send(bytes);
+    this.runTo(this.cycle + Math.round(ms * 1e-3 * SYS_HZ));
+  }
+  runMs(ms) { this.runTo(this.cycle + Math.round(ms * 1e-3 * SYS_HZ)); }
+}
+
+function save(name, probe, truth, edges) {
+  writeFileSync(join(outDir, `${name}.bin`), Uint8Array.from(probe.out));
+  const lines = Object.entries(truth).map(([k, v]) => `${k} ${Array.isArray(v) ? v.join(' ') : v}`);
+  writeFileSync(join(outDir, `${name}.truth`), lines.join('\n') + '\n');
+  if (edges) writeFileSync(join(outDir, `${name}.edges`), edges.join('\n') + '\n');
+}
+
+/** What was driven, in probe ticks (two system-clock cycles): phases of every whole cycle. */
+function driven(edges) {
+  let hmin = Infinity, hmax = 0, lmin = Infinity, lmax = 0, n = 0, hs = 0, ls = 0;
+  for (let i = 0; i + 2 < edges.length; i += 2) {
+    const h = (edges[i + 1] - edges[i]) / 2, l = (edges[i + 2] - edges[i + 1]) / 2;
+    hmin = Math.min(hmin, h); hmax = Math.max(hmax, h); lmin = Math.min(lmin, l); lmax = Math.max(lmax, l);
+    hs += h; ls += l; n++;
+  }
+  return { hmin, hmax, lmin, lmax, n, duty: hs / (hs + ls) };
+}
+
+/** Window extremes of a capture, checked for coverage: every window in sequence, none lost. */
+function coverage(fs, edges) {
+  const ws = fs.filter((f) => f.type === 0x09).map(extremes);
+  if (!ws.length) return { ok: false, ws, why: 'no EXTREMES' };
+  let contiguous = true, flagged = 0, cycles = 0;
+  for (let i = 0; i < ws.length; i++) {
+    if (ws[i].flags & 1) flagged++;
+    if (i > 0 && ws[i].start !== ws[i - 1].start + ws[i - 1].window) contiguous = false;
+    cycles += ws[i].cycles;
+  }
+  // driven rises within the windows' span, on the probe's timeline: the probe's tick is its
+  // own, so take the offset that best fits the first window's first rise (within 1 tick)
+  const first = ws[0].start, last = ws[ws.length - 1].start + ws[ws.length - 1].window;
+  const rises = edges.filter((_, i) => i % 2 === 0).map((c) => c / 2);
+  let best = Infinity;
+  for (const r of rises) {
+    // the first window opens at a rise: find the driven rise nearest to it in the TIMER time
+    const off = first - r;
+    if (Math.abs(off) < Math.abs(best)) best = off;
+  }
+  const inSpan = rises.filter((r) => r + best > first + 0.5 && r + best < last - 0.5).length;
+  const ok = contiguous && flagged === 0 && Math.abs(cycles - inSpan) <= 1;
+  return { ok, ws, cycles, inSpan, flagged, contiguous };
+}
+
+// ---------------------------------------------------------------- scenarios
+
+const TICK_HZ = SYS_HZ / 2;
+const MHZ = (f) => `${(f / 1e6).toFixed(2)} MHz`;
+
+function scenarioCommands() {
+  hostSeq = 0;
+  const p = new Probe([]);
+  p.runMs(1.5);
+  if (process.env.DEBUG) console.log(p.out.length, p.out.slice(0, 40), p.mcu.core.PC.toString(16));
+  let fs = frames(p.out);
+  const hello = fs.find((f) => f.type === 0x01);
+  check(!!hello, 'commands: HELLO sent by itself after reset');
+  if (hello) {
+    const v = hello.body;
+    check(v.getUint8(1) === 3, 'commands: HELLO states probe class 3 (extremes)');
+    check(u64(v, 2) === TICK_HZ && v.getUint32(10, true) === 1, 'commands: HELLO tick 62.5 MHz (two cycles of 125 MHz)');
+  }
+  p.command(hostFrame(0x41));
+  p.command(hostFrame(0x45, u32(0xdeadbeef)));
+  p.command(hostFrame(0x45, u32(1), { corrupt: true }));
+  p.command(hostFrame(0x4f));
+  p.command(configure(0, 42, 1));
+  p.command(configure(5, 9, 10));
+  p.command(configure(0, 11, 3)); // window too short
+  p.command(configure(0, 2, 1)); // count windows: not this probe
+  p.command(hostFrame(0x45, u32(2), { version: 2 }));
+  p.command(configure(0, 9, 40));
+  p.command(configure(0xff, 8, 100));
+  p.command([0x13, 0x37, 0x00, 0x00]); // line noise then a delimiter
+  fs = frames(p.out);
+  const a = acks(fs);
+  const find = (cmd, result) => a.some((x) => x.cmd === cmd && x.result === result);
+  check(fs.filter((f) => f.type === 0x01).length === 2, 'commands: DESCRIBE answered with HELLO');
+  check(a.some((x) => x.cmd === 0x45 && x.result === 0 && x.value === 0xdeadbeef), 'commands: PING echoes the nonce');
+  check(a.some((x) => x.seq === 0xffff && x.result === 5), 'commands: damaged frame answered with seq 0xFFFF, result 5');
+  check(find(0x4f, 1), 'commands: unknown command, result 1');
+  check(find(0x44, 3), 'commands: unknown parameter, result 3');
+  check(find(0x44, 2), 'commands: bad channel, result 2');
+  check(a.some((x) => x.cmd === 0x44 && x.result === 4 && x.value === TICK_HZ / 100), 'commands: bad value, result 4 with the window in force');
+  check(a.some((x) => x.cmd === 0x44 && x.result === 4 && x.value === 3), 'commands: count windows refused, edge mode 3 in force');
+  check(find(0x45, 7), 'commands: other protocol version, result 7');
+  check(a.some((x) => x.cmd === 0x44 && x.result === 0 && x.value === 40), 'commands: high threshold set');
+  check(fs.every((f) => f.type !== -1), 'commands: every probe frame decodes (COBS, CRC)');
+  save('commands', p, {});
+}
+
+/** Extremes at `fHz` for `ms`, windows of `windowMs`; returns the probe, its frames, edges. */
+function runExtremes({ fHz, duty = 0.5, jitterNs = 0, ms, windowMs, shorts = {}, thresholds = null, mode = 3, seed = 7 }) {
+  hostSeq = 0;
+  const cycles = Math.ceil((ms + 1) * 1e-3 * fHz);
+  const edges = clockEdges({ fHz, duty, jitterNs, cycles, shorts, seed });
+  const p = new Probe(edges);
+  p.runMs(1);
+  p.command(configure(0, 11, Math.round(windowMs * 1e-3 * TICK_HZ)));
+  p.command(configure(0, 2, mode));
+  if (thresholds) {
+    p.command(configure(0, 9, thresholds[0]));
+    p.command(configure(0, 10, thresholds[1]));
+  }
+  p.command(hostFrame(0x42), 0.1);
+  if (process.env.PROFILE) p.profile = new Map();
+  p.runMs(ms);
+  if (p.profile) {
+
+    const addrs = [...p.profile.keys()];
+    const names = execSync('arm-none-eabi-addr2line -f -e build/probe.elf ' + addrs.map((a) => '0x' + a.toString(16)).join(' ')).toString().split('\n').filter((_, i) => i % 2 === 0);
+    const by = new Map();
+    addrs.forEach((a, i) => by.set(names[i], (by.get(names[i]) || 0) + p.profile.get(a)));
+    console.log([...by.entries()].sort((a, b) => b[1] - a[1]).slice(0, 8), 'words', 0xffffffff - p.mcu.dma.channels[0].transCount);
+    p.profile = null;
+  }
+  if (process.env.DEBUG) {
+    const m = p.mcu;
+    console.log('pc', m.core.PC.toString(16), 'sm', m.pio[0].machines[0].enabled, 'cyc', p.cycle, 'ei', p.ei, 'dma', m.dma.channels[0].transCount, 'types', frames(p.out).map((f) => f.type).join(','));
+    for (const f of frames(p.out)) if (f.type === 6) console.log('status dropped', f.body.getUint32(12, true), 'ovf', f.body.getUint16(20, true), 'up', u64(f.body, 0));
+    const g = new DataView(m.sram.buffer); console.log('consumed', g.getUint32(0x4094, true), 'dropped', g.getUint32(0x45ac, true), 'ovf', g.getUint16(0x45aa, true), 'synced', g.getUint8(0x4090), 'open', g.getUint8(0x40a2), 'bad', g.getUint8(0x40a1), 'rel', g.getInt32(0x408c, true), 'win_start', g.getBigUint64(0x40a8, true), 'now', p.cycle / 2);
+    const v = new DataView(m.sram.buffer, 0xc000, 64); console.log(Array.from({length: 16}, (_, i) => v.getUint32(4 * i, true).toString(16)).join(' '));
+  }
+  p.command(hostFrame(0x43), 0.1);
+  return { p, fs: frames(p.out), edges };
+}
+
+function scenarioExtremes() {
+  const fHz = 765_432, duty = 0.4, jitterNs = 6;
+  // injected short phases, in cycles (16, 20, 24 ns ... well below the 324 ns high time)
+  const shorts = { 300: { high: 12 }, 1234: { high: 10 }, 2345: { low: 14 }, 3456: { high: 16 }, 4567: { low: 9 }, 5000: { low: 11 } };
+  const thr = [20, 20]; // ticks: 320 ns, below every undisturbed phase (33 and 49 ticks)
+  const { p, fs, edges } = runExtremes({ fHz, duty, jitterNs, ms: 6, windowMs: 1, shorts, thresholds: thr });
+  const d = driven(edges.slice(0, edges.length - 2));
+  const cov = coverage(fs, edges);
+  check(cov.ok, `extremes ${MHZ(fHz)}: ${cov.ws.length} windows in sequence, none lost, ${cov.cycles} cycles (driven ${cov.inSpan})`);
+  const ws = cov.ws.filter((w) => w.cycles > 0);
+  const hmin = Math.min(...ws.map((w) => w.hmin)), lmin = Math.min(...ws.map((w) => w.lmin));
+  const hmax = Math.max(...ws.map((w) => w.hmax)), lmax = Math.max(...ws.map((w) => w.lmax));
+  check(Math.abs(hmin - d.hmin) <= 1 && Math.abs(lmin - d.lmin) <= 1, `extremes: worst high ${hmin} and low ${lmin} ticks (driven ${d.hmin} and ${d.lmin}, ±1)`);
+  // the longest phases are the undisturbed ones, seen in the windows that reached the probe
+  check(hmax <= d.hmax + 1 && lmax <= d.lmax + 1, `extremes: longest high ${hmax} / low ${lmax} ticks within 1 of the driven ${d.hmax} / ${d.lmax}`);
+  check(ws.every((w) => w.counts.reduce((a, b) => a + b, 0) === w.cycles || w.bins === 0), 'extremes: every histogram adds up to its cycles');
+  const vs = fs.filter((f) => f.type === 0x0a).map(violations);
+  const counted = vs.reduce((a, v) => a + v.hshort + v.lshort, 0);
+  const stamps = vs.flatMap((v) => v.stamps);
+  check(vs.length === cov.ws.length, `violations: one per window (${vs.length})`);
+  check(counted === Object.keys(shorts).length, `violations: ${counted} short phases counted (injected ${Object.keys(shorts).length})`);
+  check(stamps.length === counted && stamps.every((s) => s.len < 30), 'violations: every short phase stamped with its length');
+  save('extremes', p, {
+    frequency_hz: fHz, duty, jitter_ns: jitterNs, cycle_ns: NS_PER_CYCLE, tick_cycles: 2,
+    high_threshold_ticks: thr[0], low_threshold_ticks: thr[1],
+    shorts_high: Object.values(shorts).filter((s) => s.high).length,
+    shorts_low: Object.values(shorts).filter((s) => s.low).length,
+    high_min_ticks: d.hmin, low_min_ticks: d.lmin, high_max_ticks: d.hmax, low_max_ticks: d.lmax,
+  }, edges);
+  return p;
+}
+
+function scenarioStamps() {
+  const fHz = 250_000;
+  hostSeq = 0;
+  const edges = clockEdges({ fHz, duty: 0.3, jitterNs: 20, cycles: Math.ceil(9e-3 * fHz), seed: 11 });
+  const p = new Probe(edges);
+  p.runMs(1);
+  p.command(configure(0, 2, 0));
+  p.command(hostFrame(0x42), 0.1);
+  p.runMs(8);
+  p.command(hostFrame(0x43), 0.1);
+  const fs = frames(p.out);
+  const bs = fs.filter((f) => f.type === 0x02).map(edgesOf);
+  const ticks = bs.flatMap((b) => b.ticks);
+  const later = bs.slice(1).every((b) => b.flags === 0);
+  check(bs.length > 0 && later, `stamps ${fHz / 1000} kHz: ${bs.length} batches, none after the first flagged`);
+  // every driven edge in the stamped span, each interval within 1 tick
+  const off = ticks[0] - edges.reduce((best, e) => (Math.abs(ticks[0] - e / 2) < Math.abs(ticks[0] - best / 2) ? e : best), edges[0]) / 2;
+  const i0 = edges.findIndex((e) => Math.abs(e / 2 + off - ticks[0]) < 1.5);
+  let worst = 0;
+  for (let k = 1; k < ticks.length && i0 + k < edges.length; k++) {
+    worst = Math.max(worst, Math.abs(ticks[k] - ticks[k - 1] - (edges[i0 + k] - edges[i0 + k - 1]) / 2));
+  }
+  check(i0 >= 0 && worst <= 1, `stamps: ${ticks.length} edges, every interval within ${worst} tick(s) of the driven one`);
+  save('stamps', p, { frequency_hz: fHz, duty: 0.3, jitter_ns: 20, cycle_ns: NS_PER_CYCLE, tick_cycles: 2 }, edges);
+}
+
+/** The highest of `freqs` at which `ok` holds for the capture, and the first failing one. */
+function sweep(freqs, run) {
+  let best = 0, failed = 0;
+  for (const f of freqs) {
+    if (run(f)) best = f;
+    else { failed = f; break; }
+  }
+  return { best, failed };
+}
+
+function scenarioLimits() {
+  const freqs = [1e6, 2e6, 3e6, 4e6, 5e6, 6e6, 7e6, 8e6, 9e6, 10e6];
+  const ext = sweep(freqs, (fHz) => {
+    const { fs, edges } = runExtremes({ fHz, ms: 2, windowMs: 0.5, seed: fHz % 97 });
+    const cov = coverage(fs, edges);
+    console.log(`  extremes at ${MHZ(fHz)}: ${cov.cycles} of ${cov.inSpan} cycles, ${cov.flagged ?? 0} windows flagged lost`);
+    return cov.ok;
+  });
+  check(ext.best >= 1e6, `limit: extremes sees 100 % of cycles up to ${MHZ(ext.best)} (50 % duty, emulated)`);
+  if (ext.failed) {
+    const { p, fs, edges } = runExtremes({ fHz: ext.failed * 1.5, ms: 2, windowMs: 0.5 });
+    const cov = coverage(fs, edges);
+    const st = fs.filter((f) => f.type === 0x06);
+    const logs = fs.filter((f) => f.type === 0x08);
+    check(cov.flagged > 0 && logs.length > 0, `overrun at ${MHZ(ext.failed * 1.5)}: ${cov.flagged} windows flagged lost, warned in a LOG`);
+    save('overrun', p, { frequency_hz: ext.failed * 1.5, status_frames: st.length }, null);
+  }
+  const stamp = sweep([100e3, 200e3, 300e3, 400e3, 500e3, 700e3, 1e6, 1.5e6, 2e6], (fHz) => {
+    const { fs } = runExtremes({ fHz, ms: 3, windowMs: 1, mode: 0 });
+    const bs = fs.filter((f) => f.type === 0x02).map(edgesOf);
+    const n = bs.reduce((a, b) => a + b.ticks.length, 0);
+    const ok = bs.length > 1 && bs.slice(1).every((b) => b.flags === 0) && n >= 2 * fHz * 2.9e-3;
+    console.log(`  stamps at ${(2 * fHz / 1000).toFixed(0)} k edges/s: ${n} edges in ${bs.length} batches${ok ? '' : ', gaps'}`);
+    return ok;
+  });
+  check(stamp.best > 0, `limit: every edge stamped up to ${(2 * stamp.best / 1000).toFixed(0)} k edges/s (emulated UART, byte-instant)`);
+  writeFileSync(join(outDir, 'limits.truth'), `extremes_max_hz ${ext.best}\nstamps_max_edges_per_s ${2 * stamp.best}\n`);
+}
+
+if (!process.env.ONLY || process.env.ONLY.includes("c")) scenarioCommands();
+if (!process.env.ONLY || process.env.ONLY.includes("e")) scenarioExtremes();
+if (!process.env.ONLY || process.env.ONLY.includes("s")) scenarioStamps();
+if (!process.env.ONLY || process.env.ONLY.includes("l")) scenarioLimits();
+console.log(failures ? `${failures} check(s) FAILED` : 'all checks passed');
+process.exit(failures ? 1 : 0);
