@@ -546,15 +546,72 @@ static void sync_at(uint64_t t) {
     rel = (int32_t)r;
 }
 
+/* The fast path's bounds: a cycle whose high time lies in [hlo, hlo + hspan], low time in
+ * [llo, llo + lspan] and period in [plo, plo + pspan] changes no extreme and is no violation
+ * (hlo is the larger of the window's shortest high time and the high threshold, so a shorter
+ * one takes the full path), so only its sums and its bin are added. Unsigned differences make
+ * each range one comparison. */
+static uint32_t hlo, hspan, llo, lspan, plo, pspan;
+
+static void bounds(void) {
+    hlo = win.hmin > thr_high ? win.hmin : thr_high;
+    hspan = win.hmax >= hlo ? win.hmax - hlo : 0;
+    llo = win.lmin > thr_low ? win.lmin : thr_low;
+    lspan = win.lmax >= llo ? win.lmax - llo : 0;
+    plo = win.pmin;
+    pspan = win.pmax >= plo ? win.pmax - plo : 0;
+    if (win.cycles == 0) hlo = llo = plo = 0xFFFFFFFFu, hspan = lspan = pspan = 0;
+}
+
+/* Whole cycles (a high word, then a low word) from ring index i up to end, in extremes mode;
+ * returns the index reached: it stops early at a pair out of turn (the caller resyncs). */
+static uint32_t __attribute__((noinline)) take_cycles(uint32_t i, uint32_t end) {
+    bounds();
+    uint32_t hs = win.hsum, ls = win.lsum, n = win.cycles;
+    uint32_t left = window_ticks - (uint32_t)rel; /* ticks to the end of the window */
+    uint32_t org = bin_origin, sh = bin_shift;
+    uint32_t *hist = win.hist;
+    while (end - i >= 2u) {
+        uint32_t wh = ring[i & RING_MASK], wl = ring[(i + 1u) & RING_MASK];
+        if ((int32_t)(wl & ~wh) >= 0) break; /* not a high word then a low word */
+        uint32_t h = wh + 2u, l = ~wl + 2u, p = h + l;
+        if (h - hlo > hspan || l - llo > lspan || p - plo > pspan || p >= left) {
+            win.hsum = hs, win.lsum = ls, win.cycles = n;
+            rel = (int32_t)(window_ticks - left);
+            cycle(h, l);
+            bounds();
+            hs = win.hsum, ls = win.lsum, n = win.cycles;
+            left = window_ticks - (uint32_t)rel;
+            org = bin_origin, sh = bin_shift;
+            i += 2u;
+            continue;
+        }
+        i += 2u;
+        left -= p;
+        hs += h;
+        ls += l;
+        n++;
+        uint32_t b = p > org ? (p - org) >> sh : 0;
+        hist[b < BINS ? b : BINS - 1u]++;
+    }
+    win.hsum = hs, win.lsum = ls, win.cycles = n;
+    rel = (int32_t)(window_ticks - left);
+    return i;
+}
+
 static void __attribute__((noinline)) take_words(void) {
     uint32_t produced = ring_produced();
     if (produced - consumed > RING_WORDS - 8u) resync(produced);
     uint32_t n = produced - consumed;
-    if (n > 1024u) n = 1024u;
+    if (n > 2048u) n = 2048u;
     bool stamps = edge_mode == MODE_STAMPS || edge_mode == MODE_BOTH;
     uint32_t i = consumed;
     uint32_t end = i + n;
     while (i != end) {
+        if (synced && !have_high && !stamps) {
+            i = take_cycles(i, end);
+            if (i == end) break;
+        }
         uint32_t w = ring[i & RING_MASK];
         i++;
         bool low = (w >> 31) != 0;
