@@ -79,8 +79,9 @@ function hostFrame(type, body = [], { version = 1, corrupt = false } = {}) {
 const u32 = (v) => [v & 0xff, (v >>> 8) & 0xff, (v >>> 16) & 0xff, v >>> 24];
 const configure = (ch, param, value) => hostFrame(0x44, [ch, param, ...u32(value)]);
 
-/** Decoded frames of a byte stream: {type, seq, body (DataView), bytes}. */
-function frames(bytes) {
+/** Decoded frames of a byte stream: {type, seq, body (DataView), raw}; with `arrivals` (one
+ * emulated time per frame) each frame also gets `at_ns`. */
+function frames(bytes, arrivals = null) {
   const res = [];
   let cur = [];
   for (const b of bytes) {
@@ -98,6 +99,7 @@ function frames(bytes) {
     }
     cur = [];
   }
+  if (arrivals) res.forEach((f, i) => { f.at_ns = arrivals[i]; });
   return res;
 }
 const u64 = (v, o) => Number(v.getBigUint64(o, true));
@@ -184,7 +186,14 @@ class Probe {
     mcu.core.reset();
     this.mcu = mcu;
     this.out = [];
-    mcu.uart[0].onByte = (b) => this.out.push(b);
+    // each frame's arrival (emulated ns at its delimiter), in the order frames() returns them
+    this.arrivals = [];
+    let inFrame = false;
+    mcu.uart[0].onByte = (b) => {
+      this.out.push(b);
+      if (b !== 0) inFrame = true;
+      else if (inFrame) { this.arrivals.push(mcu.clock.nanos); inFrame = false; }
+    };
     this.cycle = 0;
     this.edges = edges;
     this.ei = 0;
@@ -223,6 +232,8 @@ class Probe {
     this.runTo(this.cycle + Math.round(ms * 1e-3 * SYS_HZ));
   }
   runMs(ms) { this.runTo(this.cycle + Math.round(ms * 1e-3 * SYS_HZ)); }
+  /** Run `ms` and return the bytes the probe sent. */
+  runMsOut(ms) { this.runMs(ms); return this.out; }
 }
 
 function save(name, probe, truth, edges) {
@@ -271,6 +282,9 @@ function coverage(fs, edges) {
 // ---------------------------------------------------------------- scenarios
 
 const TICK_HZ = SYS_HZ / 2;
+// a lag of the windows growing by more than this over the second half of a run of several
+// milliseconds means the probe does not keep up with the clock (runExtremes)
+const KEEP_UP_NS = 20e3;
 const MHZ = (f) => `${(f / 1e6).toFixed(2)} MHz`;
 
 function scenarioCommands() {
@@ -317,7 +331,7 @@ function scenarioCommands() {
 /** Extremes at `fHz`: the probe is set up and started with the pin low, then the clock runs for
  * `ms` and stops low; the probe closes its last windows on its timer and is stopped. Every
  * driven cycle is one the probe must see. Returns the probe, its frames and the edges. */
-function runExtremes({ fHz, duty = 0.5, jitterNs = 0, ms, windowMs, shorts = {}, thresholds = null, mode = 3, seed = 7 }) {
+function runExtremes({ fHz, duty = 0.5, jitterNs = 0, ms, windowMs, shorts = {}, thresholds = null, mode = 3, seed = 7, tailMs = 2.5 * windowMs + 0.1 }) {
   hostSeq = 0;
   const p = new Probe([]);
   p.runMs(1);
@@ -332,9 +346,19 @@ function runExtremes({ fHz, duty = 0.5, jitterNs = 0, ms, windowMs, shorts = {},
   const edges = clockEdges({ fHz, duty, jitterNs, cycles, shorts, seed, start: p.cycle + 1000 });
   p.edges = edges;
   p.ei = 0;
-  p.runMs(ms + 2.5 * windowMs + 0.1);
-  p.command(hostFrame(0x43), 0.1);
-  return { p, fs: frames(p.out), edges };
+  p.runMs(ms + tailMs);
+  const clockEnd = edges.length ? edges[edges.length - 1] * NS_PER_CYCLE : 0;
+  p.command(hostFrame(0x43), 3); // the last EDGES batch (1000 bytes) takes the core about 1 ms
+  const fs = frames(p.out, p.arrivals);
+  // whether the probe kept up: each window's arrival after its end (the probe's tick runs with
+  // the emulated time from an origin of its own, so only the change of this lag counts). A probe
+  // as fast as the clock settles to a steady lag; a slower one sends ever later (until its ring
+  // overruns). The growth over the second half of the run is the measure.
+  const TICK_NS = 2 * NS_PER_CYCLE;
+  const lags = fs.filter((f) => f.type === 0x09 && f.at_ns <= clockEnd)
+    .map((f) => { const w = extremes(f); return f.at_ns - (w.start + w.window) * TICK_NS; });
+  const lagNs = lags.length > 3 ? lags[lags.length - 1] - lags[Math.floor(lags.length / 2)] : 0;
+  return { p, fs, edges, lagNs };
 }
 
 /** The cycles the probe must see: (high, low) of every driven cycle closed by a rise, in ticks
@@ -380,9 +404,10 @@ function judge(fs, edges) {
 }
 
 function scenarioExtremes({ name, fHz, duty, jitterNs, ms, windowMs, shorts, thr, seed }) {
-  const { p, fs, edges } = runExtremes({ fHz, duty, jitterNs, ms, windowMs, shorts, thresholds: thr, seed });
+  const { p, fs, edges, lagNs } = runExtremes({ fHz, duty, jitterNs, ms, windowMs, shorts, thresholds: thr, seed });
   const j = judge(fs, edges);
   const F = `${name} ${MHZ(fHz)}`;
+  check(lagNs <= KEEP_UP_NS, `${F}: keeping up, the windows' lag grew ${(lagNs / 1e3).toFixed(0)} µs over the second half (at most ${KEEP_UP_NS / 1e3} µs)`);
   check(j.all, `${F}: ${j.ws.length} windows in sequence, none lost, ${j.cycles} cycles counted of ${j.driven} driven, each window within one`);
   check(j.extremesOk, `${F}: high ${j.hmin}…${j.hmax}, low ${j.lmin}…${j.lmax} ticks (driven ${j.d.hmin}…${j.d.hmax}, ${j.d.lmin}…${j.d.lmax}; ±1)`);
   check(j.ws.every((w) => w.bins === 0 || w.counts.reduce((a, b) => a + b, 0) === w.cycles), `${F}: every histogram adds up to its window's cycles`);
@@ -405,29 +430,27 @@ function scenarioExtremes({ name, fHz, duty, jitterNs, ms, windowMs, shorts, thr
 }
 
 function scenarioStamps() {
-  const fHz = 250_000;
-  hostSeq = 0;
-  const edges = clockEdges({ fHz, duty: 0.3, jitterNs: 20, cycles: Math.ceil(9e-3 * fHz), seed: 11 });
-  const p = new Probe(edges);
-  p.runMs(1);
-  p.command(configure(0, 2, 0));
-  p.command(hostFrame(0x42), 0.1);
-  p.runMs(8);
-  p.command(hostFrame(0x43), 0.1);
-  const fs = frames(p.out);
+  const fHz = 100_000, duty = 0.3, jitterNs = 20;
+  const { p, fs, edges } = runExtremes({ fHz, duty, jitterNs, ms: 8, windowMs: 1, mode: 0, seed: 11, tailMs: 0.3 });
   const bs = fs.filter((f) => f.type === 0x02).map(edgesOf);
+  check(bs.length > 1 && bs.slice(1).every((b) => b.flags === 0), `stamps ${fHz / 1000} kHz: ${bs.length} batches, none after the first flagged`);
+  // the probe's ticks have an offset of their own: find the driven edge of the first stamp's
+  // polarity whose following intervals fit best, then every interval must be within one tick
   const ticks = bs.flatMap((b) => b.ticks);
-  const later = bs.slice(1).every((b) => b.flags === 0);
-  check(bs.length > 0 && later, `stamps ${fHz / 1000} kHz: ${bs.length} batches, none after the first flagged`);
-  // every driven edge in the stamped span, each interval within 1 tick
-  const off = ticks[0] - edges.reduce((best, e) => (Math.abs(ticks[0] - e / 2) < Math.abs(ticks[0] - best / 2) ? e : best), edges[0]) / 2;
-  const i0 = edges.findIndex((e) => Math.abs(e / 2 + off - ticks[0]) < 1.5);
-  let worst = 0;
-  for (let k = 1; k < ticks.length && i0 + k < edges.length; k++) {
-    worst = Math.max(worst, Math.abs(ticks[k] - ticks[k - 1] - (edges[i0 + k] - edges[i0 + k - 1]) / 2));
-  }
-  check(i0 >= 0 && worst <= 1, `stamps: ${ticks.length} edges, every interval within ${worst} tick(s) of the driven one`);
-  save('stamps', p, { frequency_hz: fHz, duty: 0.3, jitter_ns: 20, cycle_ns: NS_PER_CYCLE, tick_cycles: 2 }, edges);
+  const parity = bs.length && bs[0].level === 1 ? 0 : 1; // rises are the even edges
+  const worstFrom = (i0) => {
+    let worst = 0;
+    for (let k = 1; k < ticks.length; k++) {
+      if (i0 + k >= edges.length) return Infinity;
+      worst = Math.max(worst, Math.abs(ticks[k] - ticks[k - 1] - (edges[i0 + k] - edges[i0 + k - 1]) / 2));
+    }
+    return worst;
+  };
+  let worst = Infinity;
+  for (let i0 = parity; i0 < edges.length && ticks.length > 1; i0 += 2) worst = Math.min(worst, worstFrom(i0));
+  check(ticks.length >= edges.length - 3 && worst <= 1,
+    `stamps: ${ticks.length} of ${edges.length} driven edges stamped, every interval within ${worst} tick(s) of the driven one`);
+  save('stamps', p, { frequency_hz: fHz, duty, jitter_ns: jitterNs, cycle_ns: NS_PER_CYCLE, tick_cycles: 2, edges: edges.length }, edges);
 }
 
 /** The highest of `freqs` at which `ok` holds for the capture, and the first failing one. */
@@ -442,32 +465,39 @@ function sweep(freqs, run) {
 
 function scenarioLimits() {
   // extremes at 50 % duty, 1 ms windows: the highest clock at which every cycle is counted
-  const freqs = [1e6, 1.25e6, 1.5e6, 1.75e6, 2e6, 2.5e6, 3e6, 4e6, 5e6, 6e6, 8e6];
+  const freqs = [0.5e6, 0.75e6, 1e6, 1.1e6, 1.2e6, 1.3e6, 1.4e6, 1.5e6, 1.75e6, 2e6, 2.5e6, 3e6, 4e6, 6e6, 8e6];
   const ext = sweep(freqs, (fHz) => {
-    const { fs, edges } = runExtremes({ fHz, ms: 2, windowMs: 0.5, seed: fHz % 97 });
+    const { fs, edges, lagNs } = runExtremes({ fHz, ms: 6, windowMs: 0.5, seed: fHz % 97 });
     const j = judge(fs, edges);
-    console.log(`  extremes at ${MHZ(fHz)}: ${j.cycles} of ${j.driven} cycles counted, ${j.flagged} windows flagged lost${j.all && j.extremesOk ? '' : ', NOT every cycle'}`);
-    return j.all && j.extremesOk;
+    const ok = j.all && j.extremesOk && lagNs <= KEEP_UP_NS;
+    console.log(`  extremes at ${MHZ(fHz)}: ${j.cycles} of ${j.driven} cycles counted, ${j.flagged} windows flagged lost, lag grew ${(lagNs / 1e3).toFixed(0)} µs${ok ? '' : ': NOT keeping up'}`);
+    return ok;
   });
-  check(ext.best >= 1e6, `limit: extremes sees 100 % of cycles up to ${MHZ(ext.best)} (50 % duty, emulated; ${ext.failed ? `not at ${MHZ(ext.failed)}` : 'the highest tried'})`);
+  check(ext.best >= 0.75e6, `limit: extremes sees 100 % of cycles up to ${MHZ(ext.best)} (50 % duty, emulated; ${ext.failed ? `not at ${MHZ(ext.failed)}` : 'the highest tried'})`);
   if (ext.failed) {
-    const fHz = ext.failed * 1.5;
-    const { p, fs, edges } = runExtremes({ fHz, ms: 2, windowMs: 0.5 });
+    const fHz = ext.failed * 3;
+    const { p, fs, edges } = runExtremes({ fHz, ms: 3, windowMs: 0.5 });
     const j = judge(fs, edges);
     const logs = fs.filter((f) => f.type === 0x08);
     check(j.flagged > 0 && logs.length > 0 && j.cycles < j.driven,
       `overrun at ${MHZ(fHz)}: ${j.cycles} of ${j.driven} cycles in unflagged windows, ${j.flagged} windows flagged lost, warned in a LOG`);
     save('overrun', p, { frequency_hz: fHz, cycles: j.driven }, null);
   }
-  const stamp = sweep([100e3, 200e3, 300e3, 400e3, 500e3, 700e3, 1e6, 1.5e6, 2e6], (fHz) => {
-    const { fs } = runExtremes({ fHz, ms: 3, windowMs: 1, mode: 0 });
+  const stamp = sweep([50e3, 100e3, 125e3, 150e3, 175e3, 200e3, 250e3, 300e3], (fHz) => {
+    // 6 ms of clock, STOP 0.3 ms after it: a probe behind the clock drops its backlog then
+    const { fs, edges } = runExtremes({ fHz, ms: 6, windowMs: 1, mode: 0, tailMs: 0.3 });
     const bs = fs.filter((f) => f.type === 0x02).map(edgesOf);
     const n = bs.reduce((a, b) => a + b.ticks.length, 0);
-    const ok = bs.length > 1 && bs.slice(1).every((b) => b.flags === 0) && n >= 2 * fHz * 2.9e-3;
+    const ok = bs.length > 1 && bs.slice(1).every((b) => b.flags === 0) && n >= edges.length - 3;
     console.log(`  stamps at ${(2 * fHz / 1000).toFixed(0)} k edges/s: ${n} edges in ${bs.length} batches${ok ? '' : ', gaps'}`);
     return ok;
   });
-  check(stamp.best > 0, `limit: every edge stamped up to ${(2 * stamp.best / 1000).toFixed(0)} k edges/s (emulated UART, byte-instant)`);
+  check(stamp.best > 0, `limit: every edge stamped up to ${(2 * stamp.best / 1000).toFixed(0)} k edges/s (the core's limit: the emulated UART takes bytes without delay)`);
+  // HELLO's max_edge_rate_khz must not promise more than the emulation showed (the Makefile
+  // sets it from the UART's bound, which is lower: see README.md)
+  const hello = frames(new Probe([]).runMsOut(1.5)).find((f) => f.type === 0x01);
+  const stated = hello ? hello.body.getUint32(16, true) : -1;
+  check(stated > 0 && stated * 1000 <= 2 * stamp.best, `limit: HELLO states ${stated} k edges/s, within the measured ${(2 * stamp.best / 1000).toFixed(0)} k`);
   writeFileSync(join(outDir, 'limits.truth'), `extremes_max_hz ${ext.best}\nstamps_max_edges_per_s ${2 * stamp.best}\n`);
 }
 
@@ -476,8 +506,8 @@ const SCENARIOS = [
   // against thresholds of 20 ticks (320 ns), below every undisturbed phase (about 33 and 49)
   { name: 'extremes', fHz: 765_432, duty: 0.4, jitterNs: 6, ms: 6, windowMs: 1, seed: 7, thr: [20, 20],
     shorts: { 300: { high: 12 }, 1234: { high: 10 }, 2345: { low: 14 }, 3456: { high: 16 }, 4001: { low: 9 }, 4400: { low: 11 } } },
-  // 1.5 MHz, 50 % duty, a short high and a short low in each of three windows of 0.5 ms
-  { name: 'extremes-fast', fHz: 1_500_000, duty: 0.5, jitterNs: 3, ms: 1.5, windowMs: 0.5, seed: 3, thr: [15, 15],
+  // 900 kHz, 50 % duty, six short phases of 6-12 cycles in 0.5 ms windows
+  { name: 'extremes-fast', fHz: 900_000, duty: 0.5, jitterNs: 3, ms: 4, windowMs: 0.5, seed: 3, thr: [15, 15],
     shorts: { 100: { high: 8 }, 400: { low: 10 }, 800: { high: 6 }, 1100: { low: 7 }, 1500: { high: 12 }, 2000: { low: 9 } } },
 ];
 
