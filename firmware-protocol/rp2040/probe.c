@@ -584,60 +584,90 @@ static void sync_at(uint64_t t) {
 }
 
 /* The fast path's bounds: a cycle whose high time lies in [hlo, hlo + hspan], low time in
- * [llo, llo + lspan] and period in [plo, plo + pspan] changes no extreme and is no violation
+ * [llo, llo + lspan] and period in [plo, plo + pspan] changes no extreme, is no violation
  * (hlo is the larger of the window's shortest high time and the high threshold, so a shorter
- * one takes the full path), so only its sums and its bin are added. Unsigned differences make
- * each range one comparison. */
-static uint32_t hlo, hspan, llo, lspan, plo, pspan;
+ * one takes the full path) and falls into one of the histogram's bins (the period range is
+ * clipped to the bins), so only its sums and its bin are added. Unsigned differences make each
+ * range one comparison. */
+typedef struct {
+    uint32_t hlo, hspan, llo, lspan, plo, pspan;
+} bounds_t;
+static bounds_t fast;
 
 static void bounds(void) {
-    hlo = win.hmin > thr_high ? win.hmin : thr_high;
-    hspan = win.hmax >= hlo ? win.hmax - hlo : 0;
-    llo = win.lmin > thr_low ? win.lmin : thr_low;
-    lspan = win.lmax >= llo ? win.lmax - llo : 0;
-    plo = win.pmin;
-    pspan = win.pmax >= plo ? win.pmax - plo : 0;
-    if (win.cycles == 0) hlo = llo = plo = 0xFFFFFFFFu, hspan = lspan = pspan = 0;
+    bounds_t b;
+    b.hlo = win.hmin > thr_high ? win.hmin : thr_high;
+    b.hspan = win.hmax >= b.hlo ? win.hmax - b.hlo : 0;
+    b.llo = win.lmin > thr_low ? win.lmin : thr_low;
+    b.lspan = win.lmax >= b.llo ? win.lmax - b.llo : 0;
+    uint32_t lo = win.pmin, hi = win.pmax;
+    if (bins_on) {
+        uint64_t top = (uint64_t)bin_origin + ((uint64_t)BINS << bin_shift) - 1u;
+        if (lo < bin_origin) lo = bin_origin;
+        if ((uint64_t)hi > top) hi = (uint32_t)top;
+    }
+    b.plo = lo;
+    b.pspan = hi >= lo ? hi - lo : 0;
+    if (win.cycles == 0 || hi < lo) b.plo = 0xFFFFFFFFu, b.pspan = 0;
+    if (win.cycles == 0) b.hlo = b.llo = 0xFFFFFFFFu, b.hspan = b.lspan = 0;
+    fast = b;
 }
 
-/* Whole cycles (a high word, then a low word) from ring index i up to end, in extremes mode;
- * returns the index reached: it stops early at a pair out of turn (the caller resyncs). */
-static uint32_t __attribute__((noinline)) take_cycles(uint32_t i, uint32_t end) {
-    bounds();
-    uint32_t hs = win.hsum, ls = win.lsum, n = win.cycles;
-    uint32_t left = window_ticks - (uint32_t)rel; /* ticks to the end of the window */
-    uint32_t org = bin_origin, sh = bin_shift;
-    uint32_t *hist = win.hist;
-    while (end - i >= 2u) {
-        uint32_t wh = ring[i & RING_MASK], wl = ring[(i + 1u) & RING_MASK];
-        if ((int32_t)(wl & ~wh) >= 0) break; /* not a high word then a low word */
+/* The tight loop: up to `pairs` whole cycles at q (a high word, then a low word) that stay
+ * within the bounds and the window; returns how many it took, added to the window. */
+static uint32_t __attribute__((noinline)) fast_pairs(const uint32_t *q, uint32_t pairs) {
+    const uint32_t *const q0 = q, *const qe = q + 2u * pairs;
+    const uint32_t hlo = fast.hlo, hspan = fast.hspan, llo = fast.llo, lspan = fast.lspan;
+    const uint32_t plo = fast.plo, pspan = fast.pspan;
+    const uint32_t org = bin_origin, sh = bin_shift;
+    uint32_t *const hist = win.hist;
+    const uint32_t left0 = window_ticks - (uint32_t)rel; /* ticks to the end of the window */
+    uint32_t left = left0, hs = 0;
+    while (q != qe) {
+        uint32_t wh = q[0], wl = q[1];
         uint32_t h = wh + 2u, l = ~wl + 2u, p = h + l;
-        if (h - hlo > hspan || l - llo > lspan || p - plo > pspan || p >= left) {
-            win.hsum = hs, win.lsum = ls, win.cycles = n;
-            rel = (int32_t)(window_ticks - left);
-            cycle(h, l);
-            bounds();
-            hs = win.hsum, ls = win.lsum, n = win.cycles;
-            left = window_ticks - (uint32_t)rel;
-            org = bin_origin, sh = bin_shift;
-            i += 2u;
-            continue;
-        }
-        i += 2u;
+        if ((int32_t)(wl & ~wh) >= 0 || h - hlo > hspan || l - llo > lspan || p - plo > pspan ||
+            p >= left)
+            break;
+        q += 2;
         left -= p;
         hs += h;
-        ls += l;
-        n++;
-        uint32_t b = p > org ? (p - org) >> sh : 0;
-        hist[b < BINS ? b : BINS - 1u]++;
+        hist[(p - org) >> sh]++;
     }
-    win.hsum = hs, win.lsum = ls, win.cycles = n;
+    uint32_t n = (uint32_t)(q - q0) / 2u;
+    win.cycles += n;
+    win.hsum += hs;
+    win.lsum += (left0 - left) - hs; /* the periods add up to the time taken */
     rel = (int32_t)(window_ticks - left);
+    return n;
+}
+
+/* Whole cycles from ring index i up to end, in extremes mode; returns the index reached: it
+ * stops early at a pair out of turn (the caller resyncs) or one word before the ring's wrap
+ * (the caller takes that word alone). */
+static uint32_t __attribute__((noinline)) take_cycles(uint32_t i, uint32_t end) {
+    const uint32_t *rb = (const uint32_t *)(uintptr_t)ring;
+    bounds();
+    while (end - i >= 2u) {
+        uint32_t at = i & RING_MASK;
+        if (at == RING_MASK) return i; /* a pair across the wrap */
+        uint32_t pairs = (end - i) / 2u, room = (RING_WORDS - at) / 2u;
+        uint32_t done = fast_pairs(rb + at, pairs < room ? pairs : room);
+        i += 2u * done;
+        if (done == (pairs < room ? pairs : room)) continue;
+        /* the pair at i takes the full path, or is out of turn */
+        uint32_t wh = rb[at + 2u * done], wl = rb[at + 2u * done + 1u];
+        if ((int32_t)(wl & ~wh) >= 0) return i;
+        cycle(wh + 2u, ~wl + 2u);
+        bounds();
+        i += 2u;
+    }
     return i;
 }
 
 static void __attribute__((noinline)) take_words(void) {
     uint32_t produced = ring_produced();
+    __asm__ volatile("" ::: "memory"); /* the ring's words up to `produced` are read after it */
     if (produced - consumed > RING_WORDS - 8u) resync(produced);
     uint32_t n = produced - consumed;
     if (n > 2048u) n = 2048u;
