@@ -3,7 +3,8 @@
  * the counts into a ring in SRAM, and the core turns them into per-edge timestamps (EDGES, as far
  * as the link allows), per-window extremes of every cycle (EXTREMES) and threshold counts
  * (VIOLATIONS), sent over UART0 in the framing of ../PROTOCOL.md (helpers in ../avr/proto.c).
- * See FIRMWARE.md for the limits and WIRING.md before connecting anything. */
+ * See README.md for the limits measured in emulation and its wiring section (with the
+ * cautions: the RP2040's pins are 3.3 V only) before connecting anything. */
 #include <stdbool.h>
 #include <stdint.h>
 
@@ -121,7 +122,9 @@ static void uart_init(void) {
  * detection to the first sample of the next phase on both edges (the wrap is free), so a
  * phase of n counts lasted n + 2 ticks on either edge. High counts are pushed as ~X (small),
  * low counts as Y itself (top bit set): the core tells them apart, so a lost word cannot swap
- * the phases unnoticed. Encodings: data sheet 3.4 (JMP 000, MOV 101, PUSH 100). */
+ * the phases unnoticed. It starts by waiting for a low level, so a clock already running when
+ * streaming starts gives no made-up first rise. Encodings: data sheet 3.4 (JMP 000, WAIT 001,
+ * MOV 101, PUSH 100). */
 static const uint16_t phase_prog[] = {
     0x0041, /* 0 hcount: jmp x-- hcheck   count a high sample       */
     0x00C0, /* 1 hcheck: jmp pin hcount   still high?               */
@@ -133,10 +136,12 @@ static const uint16_t phase_prog[] = {
     0xA0C2, /* 7 rose:   mov isr, y       the low count (top bit 1) */
     0x8020, /* 8         push block                                 */
     0xA02B, /* 9         mov x, ~null     wrap to 1                 */
+    0x2000 | CLK_PIN, /* 10 start: wait 0 gpio CLK   a clock high at start is no rise */
+    0x0005, /* 11        jmp lcheck                                 */
 };
 #define PROG_WRAP_TOP 9u
 #define PROG_WRAP_BOTTOM 1u
-#define PROG_ENTRY 5u /* start in the low loop: the first rise is detected exactly */
+#define PROG_ENTRY 10u /* wait for a low level, then the low loop: the first rise is exact */
 
 /* DMA ring of phase words: 2^RING_BITS bytes, aligned to its size (data sheet 2.5.2). */
 #define RING_BITS 14
@@ -171,7 +176,7 @@ static void pio_start(void) {
     while (!(REG(PIO_FSTAT) & (1u << 8))) (void)REG(PIO_RXF0); /* empty RX FIFO 0 */
     REG(PIO_FDEBUG) = PIO_FDEBUG_RXSTALL0;
     REG(PIO_SM0_INSTR) = 0xA04B;     /* mov y, ~null */
-    REG(PIO_SM0_INSTR) = PROG_ENTRY; /* jmp lcheck */
+    REG(PIO_SM0_INSTR) = PROG_ENTRY; /* jmp start */
     REG(DMA_READ_ADDR(0)) = PIO_RXF0;
     REG(DMA_WRITE_ADDR(0)) = (uint32_t)(uintptr_t)ring;
     REG(DMA_TRANS_COUNT(0)) = DMA_RUN;
