@@ -110,10 +110,7 @@ fn window_extremes_give_the_worst_cycle_of_every_cycle() {
         let v = c.violations.as_ref().expect("threshold counts");
         println!(
             "{name}: {} high and {} low phases short (driven {} and {})",
-            v.high_short,
-            v.low_short,
-            t["shorts_high"],
-            t["shorts_low"]
+            v.high_short, v.low_short, t["shorts_high"], t["shorts_low"]
         );
         assert_eq!(v.high_short as f64, num(&t, "shorts_high"), "{name}");
         assert_eq!(v.low_short as f64, num(&t, "shorts_low"), "{name}");
@@ -121,7 +118,11 @@ fn window_extremes_give_the_worst_cycle_of_every_cycle() {
             v.high_threshold_ns,
             Some(num(&t, "high_threshold_ticks") * TICK_NS)
         );
-        assert_eq!(v.first.len() as u64, v.total(), "{name}: every short phase stamped");
+        assert_eq!(
+            v.first.len() as u64,
+            v.total(),
+            "{name}: every short phase stamped"
+        );
         let f = num(&t, "frequency_hz");
         let got = c.frequency_hz.expect("frequency");
         let u = c.frequency_uncertainty_hz.expect("uncertainty");
@@ -151,13 +152,19 @@ fn per_edge_stamps_give_frequency_and_duty() {
     let f = num(&t, "frequency_hz");
     let got = c.frequency_hz.expect("frequency");
     let u = c.frequency_uncertainty_hz.expect("uncertainty");
-    println!("stamps: {got:.3} Hz ± {u:.3} (driven {f}), {} cycles", c.cycles);
+    println!(
+        "stamps: {got:.3} Hz ± {u:.3} (driven {f}), {} cycles",
+        c.cycles
+    );
     assert!(c.cycles as f64 >= num(&t, "edges") / 2.0 - 2.0);
     assert!((got - f).abs() <= u, "{got} vs {f} ± {u}");
     let d = num(&t, "duty");
     let duty = c.duty.expect("duty");
     let ud = c.duty_uncertainty.expect("duty uncertainty");
-    assert!((duty - d).abs() <= ud.max(1e-3), "duty {duty} vs {d} ± {ud}");
+    assert!(
+        (duty - d).abs() <= ud.max(1e-3),
+        "duty {duty} vs {d} ± {ud}"
+    );
 }
 
 /// A clock too fast for every cycle: windows flagged lost and counted, never made up.

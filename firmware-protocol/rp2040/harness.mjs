@@ -1,8 +1,10 @@
 // Emulator harness of the slackmeter RP2040 probe: runs build/probe.bin in rp2040js (MIT) in
 // lock step (one PIO step per system-clock cycle, the clock pin driven at exact cycle times),
 // sends host commands over the emulated UART0, writes the probe's bytes to OUT/<scenario>.bin,
-// what was driven to OUT/<scenario>.truth and OUT/<scenario>.edges, and prints one PASS/FAIL
-// line per check. Usage: node harness.mjs probe.bin OUT
+// what was driven to OUT/<scenario>.truth and OUT/<scenario>.edges (the truth comes from the
+// driven edge times only), measures the limits (the `limit:` lines, OUT/limits.truth), and
+// prints one PASS/FAIL line per check; the exit status is 1 when any check failed.
+// Usage: node harness.mjs probe.bin OUT
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { RP2040 } from 'rp2040js';
