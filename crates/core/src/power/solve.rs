@@ -175,9 +175,10 @@ pub fn solve(
     let mut rails = vec![wiring.supply_v; n];
     let mut iterations = 0;
     let mut own = vec![0.0; n];
-    let mut parts = vec![(0.0, 0.0, false); n];
-    let mut leds = vec![0.0; n];
-    let mut feed_ma = vec![0.0; n];
+    // set on every pass; the loop runs at least once
+    let mut parts;
+    let mut leds: Vec<f64>;
+    let mut feed_ma: Vec<f64>;
     loop {
         iterations += 1;
         parts = section_currents(design, lib, data, pt, hct_ttl, &rails);
