@@ -10,7 +10,9 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::OnceLock;
 
-use slackmeter::measure::{EngineConfig, Feed, Snapshot, Window};
+use slackmeter::measure::Snapshot;
+
+mod common;
 
 fn toolchain_present() -> bool {
     let ok = |c: &mut Command| c.output().map(|o| o.status.success()).unwrap_or(false);
@@ -33,29 +35,14 @@ fn captures() -> Option<&'static Path> {
             );
             return None;
         }
-        let build = Path::new(env!("CARGO_TARGET_TMPDIR")).join("avr");
-        let out = Command::new("make")
-            .args(["-C", "firmware-protocol/avr", "test"])
-            .arg(format!("BUILD={}", build.display()))
-            .current_dir(env!("CARGO_MANIFEST_DIR"))
-            .output()
-            .expect("run make");
-        let text = String::from_utf8_lossy(&out.stdout);
-        println!("{text}{}", String::from_utf8_lossy(&out.stderr));
-        assert!(out.status.success(), "the firmware harness failed:\n{text}");
-        Some(build.join("capture"))
+        Some(common::firmware::run_harness("avr"))
     })
     .as_deref()
 }
 
 /// The host's session snapshot of one captured stream, and what was driven.
 fn analyse(dir: &Path, name: &str) -> (Snapshot, HashMap<String, Vec<String>>) {
-    let bytes = std::fs::read(dir.join(format!("{name}.bin"))).expect("capture");
-    let mut feed = Feed::new(EngineConfig::default());
-    for chunk in bytes.chunks(997) {
-        feed.push(chunk);
-    }
-    let truth = std::fs::read_to_string(dir.join(format!("{name}.truth"))).expect("truth");
+    let (snapshot, truth) = common::firmware::analyse_capture(dir, name);
     let mut t = HashMap::new();
     for line in truth.lines() {
         let mut w = line.split_whitespace().map(str::to_string);
@@ -63,7 +50,7 @@ fn analyse(dir: &Path, name: &str) -> (Snapshot, HashMap<String, Vec<String>>) {
             t.insert(k, w.collect());
         }
     }
-    (feed.engine.snapshot(Window::Session), t)
+    (snapshot, t)
 }
 
 fn num(t: &HashMap<String, Vec<String>>, k: &str) -> f64 {

@@ -12,7 +12,9 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::OnceLock;
 
-use slackmeter::measure::{EngineConfig, Feed, Snapshot, Window};
+use slackmeter::measure::Snapshot;
+
+mod common;
 
 /// The probe's tick: two cycles of its 125 MHz system clock (HELLO says 62.5 MHz).
 const TICK_NS: f64 = 16.0;
@@ -42,35 +44,20 @@ fn captures() -> Option<&'static Path> {
             );
             return None;
         }
-        let build = Path::new(env!("CARGO_TARGET_TMPDIR")).join("rp2040");
-        let out = Command::new("make")
-            .args(["-C", "firmware-protocol/rp2040", "test"])
-            .arg(format!("BUILD={}", build.display()))
-            .current_dir(env!("CARGO_MANIFEST_DIR"))
-            .output()
-            .expect("run make");
-        let text = String::from_utf8_lossy(&out.stdout);
-        println!("{text}{}", String::from_utf8_lossy(&out.stderr));
-        assert!(out.status.success(), "the firmware harness failed:\n{text}");
-        Some(build.join("capture"))
+        Some(common::firmware::run_harness("rp2040"))
     })
     .as_deref()
 }
 
 /// The host's session snapshot of one captured stream, and what was driven.
 fn analyse(dir: &Path, name: &str) -> (Snapshot, HashMap<String, String>) {
-    let bytes = std::fs::read(dir.join(format!("{name}.bin"))).expect("capture");
-    let mut feed = Feed::new(EngineConfig::default());
-    for chunk in bytes.chunks(997) {
-        feed.push(chunk);
-    }
-    let truth = std::fs::read_to_string(dir.join(format!("{name}.truth"))).expect("truth");
+    let (snapshot, truth) = common::firmware::analyse_capture(dir, name);
     let t = truth
         .lines()
         .filter_map(|l| l.split_once(' '))
         .map(|(k, v)| (k.to_string(), v.trim().to_string()))
         .collect();
-    (feed.engine.snapshot(Window::Session), t)
+    (snapshot, t)
 }
 
 fn num(t: &HashMap<String, String>, k: &str) -> f64 {

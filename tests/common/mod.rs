@@ -3,6 +3,8 @@
 
 use firmware_protocol::*;
 
+pub mod firmware;
+
 /// The wire bytes of a HELLO (sequence 0) with these channels and tick rate.
 pub fn hello_wire(chans: &[Channel<'_>], tick_num_hz: u64, tick_den: u32) -> Vec<u8> {
     let h = Message::Hello(Hello {
